@@ -1,0 +1,1 @@
+"""Static checks: names, types and units, linearity, observability; produces typed packs."""

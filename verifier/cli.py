@@ -1,0 +1,204 @@
+"""The command line: thin subcommands over library calls (DESIGN 7).
+
+Exit codes of ``check``: 0 all hold; 1 some violated or vacuous; 2 bad input or usage;
+3 none violated but some unknown; 4 internal cross-check failure (4 > 2 > 1 > 3).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+import time
+from pathlib import Path
+
+from verifier import CAUTION, __version__
+from verifier.errors import Diagnostic, PackError, UsageError, VerifierError
+
+EXIT_OK, EXIT_FAIL, EXIT_INPUT, EXIT_UNKNOWN, EXIT_INTERNAL = 0, 1, 2, 3, 4
+
+
+def _print_diags(diags) -> None:
+    for d in diags:
+        print(d.render(), file=sys.stderr)
+
+
+class _Progress:
+    """Rule n of N, the current rule and the elapsed time, on a terminal only."""
+
+    def __init__(self, enabled: bool):
+        self.enabled = enabled
+        self.t0 = time.monotonic()
+        self.width = 0
+
+    def __call__(self, n, total, pack, rule, result) -> None:
+        if not self.enabled:
+            return
+        if result is None:
+            line = f"[{n}/{total}] {pack.name}/{rule.id}  {time.monotonic() - self.t0:.1f} s"
+            self.width = max(self.width, len(line))
+            sys.stderr.write("\r" + line.ljust(self.width))
+            sys.stderr.flush()
+        elif n == total:
+            self.clear()
+
+    def clear(self) -> None:
+        if self.enabled and self.width:
+            sys.stderr.write("\r" + " " * self.width + "\r")
+            sys.stderr.flush()
+
+
+def _bound_words(n: int) -> str:
+    return f"up to {n} leg{'s' if n != 1 else ''}"
+
+
+def _table(results, input_diags) -> str:
+    from verifier.engine import VERDICTS
+    lines = []
+    counts = dict.fromkeys(VERDICTS, 0)
+    for p in results:
+        lines.append(f"pack {p.name} ({p.path})")
+        width = max((len(r.rule) for r in p.results), default=10)
+        for r in p.results:
+            counts[r.verdict] += 1
+            verdict = r.verdict if r.verdict != "error" else f"error ({r.kind})"
+            lines.append(f"  {verdict:<9} {r.rule:<{width}}  {_bound_words(r.bound):<13} {r.seconds:6.2f} s")
+            if r.premise:
+                lines.append(f"            implicit premise: {r.premise}")
+            if r.counterexample:
+                lines.append(f"            counterexample: {r.counterexample}")
+            if r.message and r.verdict != "holds":
+                lines.append(f"            {r.message}")
+    errors = sum(1 for d in input_diags if d.severity == "error")
+    summary = ", ".join(f"{counts[v]} {v}" for v in VERDICTS)
+    if errors:
+        summary += f"; {errors} input error{'s' if errors != 1 else ''} (packs with errors were not checked)"
+    lines.append(f"summary: {summary}")
+    lines.append(f"note: {CAUTION}")
+    return "\n".join(lines)
+
+
+def cmd_check(args) -> int:
+    from verifier.engine import CheckOptions, check_packs, exit_code
+    from verifier.loader import load_all
+
+    packs, diags = load_all(args.paths or ["rules"])
+    _print_diags(diags)
+    input_errors = any(d.severity == "error" for d in diags)
+    opts = CheckOptions(legs=args.legs, rules=tuple(args.rule or ()), timeout=args.timeout,
+                        rlimit=args.rlimit, out=None if args.no_files else Path(args.out))
+    progress = _Progress(sys.stderr.isatty() and not args.json)
+    try:
+        results = check_packs(packs, opts, progress)
+    finally:
+        progress.clear()
+    if args.json:
+        from verifier.engine import VERDICTS
+        counts = dict.fromkeys(VERDICTS, 0)
+        for p in results:
+            for r in p.results:
+                counts[r.verdict] += 1
+        doc = {"packs": [{"name": p.name, "path": p.path,
+                          "rules": [r.as_json() for r in p.results]} for p in results],
+               "errors": [d.as_json() for d in diags if d.severity == "error"],
+               "summary": counts}
+        print(json.dumps(doc, indent=2, sort_keys=True))
+    else:
+        print(_table(results, diags))
+    return exit_code(results, input_errors)
+
+
+def cmd_replay(args) -> int:
+    from verifier.replay import replay_paths
+    outcomes = replay_paths(args.paths or ["counterexamples"])
+    width = max((len(o.file) for o in outcomes), default=10)
+    for o in outcomes:
+        print(f"{o.status:<15} {o.file:<{width}}  {o.detail}")
+    if not outcomes:
+        print("no counterexample files found")
+    counts: dict = {}
+    for o in outcomes:
+        counts[o.status] = counts.get(o.status, 0) + 1
+    print("summary: " + (", ".join(f"{v} {k}" for k, v in sorted(counts.items())) or "nothing replayed"))
+    return EXIT_OK if all(o.status == "still violated" for o in outcomes) else EXIT_FAIL
+
+
+def cmd_simulate(args) -> int:
+    from verifier.loader import load_pack
+    from verifier.report_text import simulate_text
+    from verifier.world.scenario import read_scenario
+    world = read_scenario(args.scenario)
+    pack = load_pack(args.pack)
+    _print_diags(pack.warnings)
+    text, ok = simulate_text(pack, world, args.legs)
+    print(text)
+    return EXIT_OK if ok else EXIT_FAIL
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="verifier",
+        description="Prove or refute safety rules about balise-group-relative train positioning. "
+                    + CAUTION)
+    p.add_argument("--version", action="version", version=f"verifier {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+
+    c = sub.add_parser("check", help="prove or refute every rule of the packs",
+                       description="Check every rule of the given packs (files or directories, "
+                                   "default rules/) for every world in scope. Exit code: 0 all "
+                                   "hold; 1 violated or vacuous; 2 bad input; 3 unknown; 4 internal "
+                                   "cross-check failure.")
+    c.add_argument("paths", nargs="*", metavar="PATH", help="pack files or directories (default: rules/)")
+    c.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
+    c.add_argument("--legs", type=int, metavar="K", help="bound: movement legs after the passage (overrides packs and rules)")
+    c.add_argument("--rule", action="append", metavar="ID", help="check only this rule (repeatable)")
+    c.add_argument("--timeout", type=float, metavar="SECONDS", help="wall-clock guard per rule (default 120)")
+    c.add_argument("--rlimit", type=int, metavar="N", help="deterministic solver budget per check (default 500000000)")
+    c.add_argument("--out", default="counterexamples", metavar="DIR", help="where counterexample files go (default: counterexamples/)")
+    c.add_argument("--no-files", action="store_true", help="write no counterexample files")
+    c.set_defaults(func=cmd_check)
+
+    r = sub.add_parser("replay", help="re-run archived counterexamples against today's rules",
+                       description="For each counterexample file: still violated, now holds, rule "
+                                   "changed or rule gone. Exit 0 when every file is still violated.")
+    r.add_argument("paths", nargs="*", metavar="PATH", help="counterexample files or directories (default: counterexamples/)")
+    r.set_defaults(func=cmd_replay)
+
+    s = sub.add_parser("simulate", help="evaluate one hand-written world exactly",
+                       description="Print the real state, the estimate, the position report with "
+                                   "its packet codes and each rule's outcome for one scenario "
+                                   "(TOML or JSON, or a counterexample file).")
+    s.add_argument("scenario", metavar="SCENARIO")
+    s.add_argument("--pack", required=True, metavar="PACK", help="the pack whose designs and rules to apply")
+    s.add_argument("--legs", type=int, metavar="K", help="bound used for the scope check")
+    s.set_defaults(func=cmd_simulate)
+    return p
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help()
+        return EXIT_INPUT
+    if getattr(args, "legs", None) is not None and not (0 <= args.legs <= 8):
+        print("verifier: error: --legs must be 0..8", file=sys.stderr)
+        return EXIT_INPUT
+    try:
+        return args.func(args)
+    except PackError as exc:
+        _print_diags(exc.diagnostics)
+        return EXIT_INPUT
+    except UsageError as exc:
+        print(f"verifier: error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except VerifierError as exc:
+        print(f"verifier: internal error: {exc}", file=sys.stderr)
+        return EXIT_INTERNAL
+    except KeyboardInterrupt:
+        print("verifier: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,179 @@
+"""Checking packs: typed rules -> SMT -> verdict -> replay -> counterexample file.
+
+A verdict is never guessed: a time-out is ``unknown``; a counterexample or witness is replayed
+in the simulator before it is reported, and any disagreement between solver and simulator makes
+the rule ``error`` (kind ``internal``) with both values shown.
+"""
+
+from __future__ import annotations
+
+import time
+from pathlib import Path
+from typing import Callable
+
+import attrs
+
+from verifier.check.model import Pack, Rule
+from verifier.errors import UsageError
+from verifier.evidence import cexfile
+from verifier.world.scenario import fmt, world_from_flat, world_to_data
+from verifier.world.sim import State, applies, evaluate, scope_problems
+
+VERDICTS = ("holds", "violated", "vacuous", "unknown", "error")
+
+
+@attrs.frozen
+class CheckOptions:
+    legs: int | None = None            # --legs: overrides every rule's bound
+    rules: tuple = ()                  # --rule: only these rule ids (empty: all)
+    timeout: float | None = None       # seconds per rule (wall-clock guard)
+    rlimit: int | None = None          # deterministic budget per solver check
+    out: Path | None = Path("counterexamples")   # None: write no files
+    witness: bool = True
+
+
+@attrs.frozen
+class RuleResult:
+    pack: str
+    rule: str
+    title: str
+    line: int
+    verdict: str
+    bound: int
+    seconds: float
+    counterexample: str | None = None
+    witness: dict | None = None
+    message: str = ""
+    kind: str = ""          # for verdict error: "input" or "internal"
+    minimal: bool = True
+    rlimit: int = 0
+    checks: int = 0
+    solver: str = ""
+    premise: str | None = None
+
+    def as_json(self) -> dict:
+        return {"id": self.rule, "verdict": self.verdict, "bound": self.bound,
+                "seconds": round(self.seconds, 3), "counterexample": self.counterexample,
+                "witness": self.witness, "message": self.message}
+
+
+@attrs.frozen
+class PackResult:
+    name: str
+    path: str
+    results: tuple
+
+
+def _compare(solved_values: dict, st: State) -> list[str]:
+    """Names on which the solver's model and the simulator disagree."""
+    out = []
+    for name, sv in solved_values.items():
+        mv = st.get(name)
+        mv = mv.word if hasattr(mv, "word") else mv
+        if sv != mv:
+            show = lambda v: fmt(v) if not isinstance(v, (bool, str)) else v  # noqa: E731
+            out.append(f"{name}: solver {show(sv)}, simulator {show(mv)}")
+    return out
+
+
+def check_rule(pack: Pack, rule: Rule, opts: CheckOptions) -> RuleResult:
+    from verifier.smt import solve  # the only way into z3
+
+    bound = pack.bound_for(rule, opts.legs)
+    t0 = time.monotonic()
+    kwargs = {}
+    if opts.timeout is not None:
+        kwargs["timeout"] = opts.timeout
+    if opts.rlimit is not None:
+        kwargs["rlimit"] = opts.rlimit
+    solved = solve.solve_rule(pack, rule, bound, witness=opts.witness, **kwargs)
+    base = dict(pack=pack.name, rule=rule.id, title=rule.title, line=rule.line, bound=bound,
+                rlimit=solved.rlimit, checks=solved.checks, solver=solved.solver,
+                premise=cexfile.implicit_premise(rule), minimal=solved.minimal)
+
+    def result(verdict, **kw):
+        return RuleResult(verdict=verdict, seconds=time.monotonic() - t0, **{**base, **kw})
+
+    if solved.verdict in ("vacuous", "unknown") or solved.world is None:
+        return result(solved.verdict, message=solved.reason)
+
+    # replay in the simulator, which must agree
+    world = world_from_flat(solved.world)
+    st = State(pack, world)
+    problems = scope_problems(world, pack.scope, bound)
+    if problems:
+        return result("error", kind="internal",
+                      message="the solver's world is outside the scope: " + "; ".join(problems))
+    try:
+        fires = applies(rule, st)
+        expect = bool(evaluate(rule.expect.node, st, {}))
+    except Exception as exc:  # noqa: BLE001 - reported, never hidden
+        return result("error", kind="internal", message=f"the simulator failed: {exc!r}")
+    wanted = solved.verdict == "holds"
+    disagree = _compare(solved.smt_values, st)
+    if not fires or expect != wanted or disagree:
+        what = "counterexample" if solved.verdict == "violated" else "witness"
+        msg = (f"simulator and solver disagree on the {what}: simulator says given={fires}, "
+               f"expect={expect}")
+        if disagree:
+            msg += "; " + "; ".join(disagree)
+        return result("error", kind="internal", message=msg)
+    if solved.verdict == "holds":
+        return result("holds", witness=world_to_data(world), message=solved.reason)
+    path = None
+    if opts.out is not None:
+        doc = cexfile.build(pack, rule, st, verdict="violated", bound=bound, solver=solved.solver,
+                            minimal=solved.minimal)
+        target = cexfile.cex_path(opts.out, pack, rule)
+        cexfile.write_atomic(target, cexfile.dumps(doc))
+        path = target.as_posix()
+    failed = cexfile.failed_part(rule, st)
+    msg = ""
+    if failed and "left" in failed:
+        msg = (f"{failed['left']['text']} = {failed['left']['value']} {failed['operator']} "
+               f"{failed['right']['text']} = {failed['right']['value']} is false")
+    elif failed:
+        msg = f"{failed['text']} is false"
+    if not solved.minimal:
+        msg += " (not fully minimised: " + solved.reason + ")"
+    return result("violated", counterexample=path, message=msg)
+
+
+def select_rules(pack: Pack, wanted: tuple) -> list[Rule]:
+    if not wanted:
+        return list(pack.rules)
+    return [r for r in pack.rules if r.id in wanted]
+
+
+def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
+                progress: Callable | None = None) -> list[PackResult]:
+    """Check every selected rule of every pack, in file order."""
+    if opts.rules:
+        known = {r.id for p in packs for r in p.rules}
+        missing = [r for r in opts.rules if r not in known]
+        if missing:
+            raise UsageError(f"no rule with id '{missing[0]}' in the packs given")
+    todo = [(p, r) for p in packs for r in select_rules(p, opts.rules)]
+    results: dict = {p.name: [] for p in packs}
+    for n, (pack, rule) in enumerate(todo, 1):
+        if progress:
+            progress(n, len(todo), pack, rule, None)
+        res = check_rule(pack, rule, opts)
+        results[pack.name].append(res)
+        if progress:
+            progress(n, len(todo), pack, rule, res)
+    return [PackResult(p.name, p.path, tuple(results[p.name])) for p in packs]
+
+
+def exit_code(results: list[PackResult], input_errors: bool) -> int:
+    """DESIGN 5: 4 internal, 2 bad input, 1 violated or vacuous, 3 unknown, else 0."""
+    verdicts = [r for p in results for r in p.results]
+    if any(r.verdict == "error" and r.kind == "internal" for r in verdicts):
+        return 4
+    if input_errors or any(r.verdict == "error" for r in verdicts):
+        return 2
+    if any(r.verdict in ("violated", "vacuous") for r in verdicts):
+        return 1
+    if any(r.verdict == "unknown" for r in verdicts):
+        return 3
+    return 0

@@ -1,0 +1,1 @@
+"""Evidence: counterexample files, and what explains them."""

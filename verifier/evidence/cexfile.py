@@ -1,0 +1,152 @@
+"""Counterexample files (DESIGN 6): canonical JSON, written atomically, byte-identical for the
+same pack and the same tool versions."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import tempfile
+from fractions import Fraction
+from pathlib import Path
+
+from verifier import __version__
+from verifier.check.model import Pack, Rule
+from verifier.lang import ast
+from verifier.lang.ast import COUNT
+from verifier.world import vocab
+from verifier.world.scenario import fmt, world_to_data
+from verifier.world.sim import State, evaluate
+
+FORMAT = "verifier-counterexample/1"
+CAUTION = ("This file records a world of the stated model in which the rule is false. The model "
+           "is not a real train: verdicts support, and never replace, the safety case under "
+           "EN 50126/50128/50129, local rules and licensed practice.")
+
+
+def sha256_text(text: str) -> str:
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def plain(value, ty: str | None = None):
+    """A value as JSON data: exact rationals as strings, counts and codes as numbers."""
+    if isinstance(value, bool):
+        return value
+    if isinstance(value, (vocab.Direction, vocab.Running)):
+        return value.word
+    if isinstance(value, Fraction):
+        if ty == COUNT and value.denominator == 1:
+            return int(value)
+        return fmt(value)
+    if isinstance(value, int):
+        return value
+    return value
+
+
+def rule_hashes(pack: Pack, rule: Rule) -> dict:
+    """sha256 of the rule's text and of every definition it depends on."""
+    text = f"given: {rule.given.text if rule.given else ''}\nexpect: {rule.expect.text}"
+    defs = {}
+    for dep in sorted(rule.deps):
+        f = pack.definition(dep)
+        defs[f"{dep[0]} {dep[1]}"] = sha256_text(f.text)
+    defs["pack settings"] = sha256_text(json.dumps(
+        {"q_scale": pack.q_scale, "rounding": pack.rounding, "world": pack.scope.as_json(),
+         "params": {k: fmt(v[1]) for k, v in sorted(pack.params.items())}}, sort_keys=True))
+    return {"text": sha256_text(text), "definitions": defs}
+
+
+def derived_values(st: State) -> dict:
+    out = {}
+    for name, entry in sorted(vocab.GLOBAL.items()):
+        if entry.kind in ("input", "hidden-input") and name != "legs.count":
+            continue
+        out[name] = plain(st.get(name), entry.ty)
+    legs = []
+    for leg in st.legs:
+        legs.append({k: plain(v, vocab.LEG[k].ty) for k, v in sorted(leg.items())
+                     if vocab.LEG[k].kind not in ("input", "hidden-input")})
+    out["legs"] = legs
+    return out
+
+
+def _items(node: ast.Node) -> list:
+    if isinstance(node, ast.Binary) and node.op == "and":
+        return _items(node.left) + _items(node.right)
+    return [node]
+
+
+def failed_part(rule: Rule, st: State) -> dict | None:
+    """The first false item of expect's top-level ``and`` (or comparison chain), with the
+    values of both sides."""
+    text = rule.expect.text
+    for item in _items(rule.expect.node):
+        if evaluate(item, st, {}):
+            continue
+        out = {"text": text[item.start:item.end]}
+        if isinstance(item, ast.Chain):
+            for op, a, b in zip(item.ops, item.operands, item.operands[1:]):
+                va, vb = evaluate(a, st, {}), evaluate(b, st, {})
+                from verifier.world.sim import compare
+                if not compare(op, va, vb):
+                    out.update({"operator": op,
+                                "left": {"text": text[a.start:a.end], "value": plain(va, a.ty)},
+                                "right": {"text": text[b.start:b.end], "value": plain(vb, b.ty)}})
+                    break
+        else:
+            out["value"] = False
+        return out
+    return None
+
+
+def implicit_premise(rule: Rule) -> str | None:
+    return f"legs.count >= {rule.premise_legs}" if rule.premise_legs else None
+
+
+def build(pack: Pack, rule: Rule, st: State, *, verdict: str, bound: int, solver: str,
+          minimal: bool) -> dict:
+    return {
+        "format": FORMAT,
+        "caution": CAUTION,
+        "pack": {"name": pack.name, "path": pack.path, "sha256": pack.sha256,
+                 "q_scale": pack.q_scale, "rounding": pack.rounding},
+        "rule": {"id": rule.id, "title": rule.title,
+                 "given": rule.given.text if rule.given else None,
+                 "implicit_premise": implicit_premise(rule),
+                 "expect": rule.expect.text, "refs": list(rule.refs), "line": rule.line,
+                 "sha256": rule_hashes(pack, rule)},
+        "verdict": verdict,
+        "bound": bound,
+        "minimal": minimal,
+        "scope": pack.scope.as_json(),
+        "world": world_to_data(st.world),
+        "derived": derived_values(st),
+        "failed": failed_part(rule, st),
+        "tool": {"verifier": __version__, "solver": solver},
+    }
+
+
+def dumps(doc: dict) -> str:
+    return json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
+
+
+def write_atomic(path: Path, text: str) -> None:
+    """Write so that a reader (or a kill) never sees half a file."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+
+
+def cex_path(out_dir: Path, pack: Pack, rule: Rule) -> Path:
+    return out_dir / pack.name / f"{rule.id}.json"

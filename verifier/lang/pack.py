@@ -1,0 +1,421 @@
+"""Load a rule pack file: TOML syntax, every key validated, every expression parsed.
+
+The result is a :class:`RawPack` (untyped ASTs with their source places). Typing, name
+resolution and observability are done by :mod:`verifier.check.typer`. All problems of a file
+are collected and raised together as one :class:`~verifier.errors.PackError`.
+"""
+
+from __future__ import annotations
+
+import difflib
+import hashlib
+import re
+import tomllib
+from fractions import Fraction
+from pathlib import Path
+
+import attrs
+
+from verifier.errors import Diagnostic, PackError
+from verifier.lang import ast
+from verifier.lang.parser import ExprSyntaxError, parse, parse_quantity
+from verifier.lang.source import SourceFile
+from verifier.world import vocab
+from verifier.world.scope import Bound, Scope
+
+SLUG = re.compile(r"^[a-z0-9][a-z0-9-]*$")
+IDENT = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
+MAX_LEGS = 8
+
+TABLES = {
+    "pack": {"name", "title", "legs", "description"},
+    "world": {"balises", "locacc", "train_length", "antenna", "leg_distance", "odometry_over",
+              "odometry_under", "detection", "odometry_basis"},
+    "params": None,  # free names
+    "let": None,
+    "onboard": set(vocab.ONBOARD_OUTPUTS) | {"q_scale", "rounding"},
+    "trackside": set(vocab.TRACKSIDE_OUTPUTS),
+    "rule": {"id", "title", "given", "expect", "refs", "legs", "note"},
+}
+
+
+@attrs.frozen
+class RawExpr:
+    """A parsed expression with the key it came from (for diagnostics)."""
+
+    text: str
+    node: ast.Node
+    key: tuple
+    default: bool = False
+
+
+@attrs.frozen
+class RawRule:
+    id: str
+    title: str
+    given: RawExpr | None
+    expect: RawExpr
+    refs: tuple
+    note: str
+    legs: int | None
+    line: int
+    index: int
+
+
+@attrs.frozen
+class RawPack:
+    path: str
+    text: str
+    sha256: str
+    name: str
+    title: str
+    description: str
+    legs: int
+    scope: Scope
+    params: dict
+    lets: dict
+    onboard: dict
+    q_scale: str
+    rounding: str
+    trackside: dict
+    rules: tuple
+    source: SourceFile = attrs.field(eq=False, repr=False)
+    warnings: tuple = ()
+
+
+class _Collector:
+    def __init__(self, src: SourceFile):
+        self.src = src
+        self.diags: list[Diagnostic] = []
+
+    def at(self, key: tuple, message: str, offset: int | None = None, length: int = 1,
+           severity: str = "error") -> None:
+        self.diags.append(self.src.at_key(key, message, severity, offset, length))
+
+
+def _suggest(word: str, choices) -> str:
+    close = difflib.get_close_matches(word, sorted(choices), n=1, cutoff=0.6)
+    return f"; did you mean '{close[0]}'?" if close else ""
+
+
+def _toml_error(path: str, text: str, exc: tomllib.TOMLDecodeError) -> Diagnostic:
+    msg = str(exc)
+    m = re.search(r"\(at line (\d+), column (\d+)\)", msg)
+    line, col = (int(m.group(1)), int(m.group(2))) if m else (1, 1)
+    msg = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg)
+    if m is None and "end of document" in msg:
+        line = max(1, text.count("\n"))
+    lines = text.splitlines()
+    src = lines[line - 1] if 0 < line <= len(lines) else None
+    return Diagnostic(path, line, col, f"malformed TOML: {msg}", "error", src)
+
+
+def _length(c: _Collector, key: tuple, value, *, what: str) -> Fraction | None:
+    if isinstance(value, bool) or not isinstance(value, (str, int, float)):
+        c.at(key, f"{what} must be a length such as \"20 m\"")
+        return None
+    if isinstance(value, (int, float)):
+        if value == 0:
+            return Fraction(0)
+        c.at(key, f"{what} needs a unit: write \"{value} m\"")
+        return None
+    try:
+        number, unit = parse_quantity(value)
+    except ValueError:
+        c.at(key, f"{what} must be a length such as \"20 m\", not {value!r}")
+        return None
+    if unit != "m" and not (unit is None and number == 0):
+        c.at(key, f"{what} must be a length (mm, cm, m or km), not {value!r}")
+        return None
+    return number
+
+
+def _ratio(c: _Collector, key: tuple, value, *, what: str) -> Fraction | None:
+    if isinstance(value, str):
+        try:
+            number, unit = parse_quantity(value)
+        except ValueError:
+            number, unit = None, None
+        if number is not None and unit in ("%", None):
+            return number
+    elif isinstance(value, (int, float)) and not isinstance(value, bool):
+        return Fraction(str(value))
+    c.at(key, f"{what} must be a ratio such as \"5 %\" or 0.05, not {value!r}")
+    return None
+
+
+def _load_scope(c: _Collector, table: dict) -> Scope:
+    kw = {}
+    for name in ("locacc", "train_length", "antenna", "leg_distance", "balises"):
+        if name not in table:
+            continue
+        key = ("world", name)
+        value = table[name]
+        if not (isinstance(value, list) and len(value) == 2):
+            c.at(key, f"world.{name} must be a range [low, high]")
+            continue
+        if name == "balises":
+            if not all(isinstance(v, int) and not isinstance(v, bool) for v in value):
+                c.at(key, "world.balises must be whole numbers, such as [1, 8]")
+                continue
+            lo, hi = value
+            if not (1 <= lo <= hi <= 8):
+                c.at(key, f"world.balises must lie within 1..8 (N_TOTAL 0..7, SUBSET-026 7.5.1.82), got [{lo}, {hi}]")
+                continue
+            kw[name] = (lo, hi)
+            continue
+        lo = _length(c, key, value[0], what=f"world.{name} low")
+        hi = _length(c, key, value[1], what=f"world.{name} high")
+        if lo is None or hi is None:
+            continue
+        if lo > hi:
+            c.at(key, f"world.{name}: low {lo} m is above high {hi} m")
+            continue
+        if lo < 0:
+            c.at(key, f"world.{name} cannot be negative")
+            continue
+        if name == "locacc":
+            if lo.denominator != 1 or hi.denominator != 1:
+                c.at(key, "world.locacc must be whole metres (Q_LOCACC has 1 m steps)")
+                continue
+            if hi > 63:
+                c.at(key, f"world.locacc must lie within 0..63 m (Q_LOCACC, SUBSET-026 7.5.1.115), got {hi} m")
+                continue
+        if name == "antenna" and lo < 0:
+            continue
+        if name == "train_length" and lo <= 0:
+            c.at(key, "world.train_length must be above 0 m")
+            continue
+        kw[name] = (lo, hi)
+    for name in ("odometry_over", "odometry_under"):
+        if name not in table:
+            continue
+        key = ("world", name)
+        value = table[name]
+        if not isinstance(value, dict) or set(value) - {"fixed", "rate"}:
+            c.at(key, f"world.{name} must be {{ fixed = \"5 m\", rate = \"5 %\" }}")
+            continue
+        fixed = _length(c, key + ("fixed",), value.get("fixed", "0 m"), what=f"world.{name}.fixed")
+        rate = _ratio(c, key + ("rate",), value.get("rate", 0), what=f"world.{name}.rate")
+        if fixed is None or rate is None:
+            continue
+        if fixed < 0 or rate < 0 or rate >= 1:
+            c.at(key, f"world.{name} needs fixed >= 0 m and 0 <= rate < 100 %")
+            continue
+        kw[name] = Bound(fixed, rate)
+    if "detection" in table:
+        d = _length(c, ("world", "detection"), table["detection"], what="world.detection")
+        if d is not None:
+            kw["detection"] = d
+    if "odometry_basis" in table:
+        basis = table["odometry_basis"]
+        if basis not in ("measured", "real"):
+            c.at(("world", "odometry_basis"), "world.odometry_basis must be \"measured\" or \"real\"")
+        else:
+            kw["odometry_basis"] = basis
+    scope = Scope(**kw)
+    if scope.antenna[0] > scope.train_length[1]:
+        c.at(("world", "antenna"), "world.antenna low is longer than the longest train")
+    return scope
+
+
+def _expr(c: _Collector, key: tuple, value, *, what: str) -> RawExpr | None:
+    if not isinstance(value, str):
+        c.at(key, f"{what} must be an expression in a string, not {type(value).__name__}")
+        return None
+    try:
+        node = parse(value)
+    except ExprSyntaxError as exc:
+        c.at(key, f"in {what}: {exc.message}", offset=exc.offset, length=exc.length)
+        return None
+    return RawExpr(value, node, key)
+
+
+def _unknown_keys(c: _Collector, prefix: tuple, table: dict, allowed: set, where: str) -> None:
+    for k in table:
+        if k not in allowed:
+            c.at(prefix + (k,), f"unknown key '{k}' in {where}" + _suggest(k, allowed))
+
+
+def read_pack(path: str | Path, display: str | None = None) -> RawPack:
+    """Read and syntax-check one pack file. Raises PackError with every problem found."""
+    path = Path(path)
+    shown = display or path.as_posix()
+    try:
+        data_bytes = path.read_bytes()
+    except OSError as exc:
+        raise PackError([Diagnostic(shown, 1, 1, f"cannot read pack: {exc.strerror or exc}")]) from None
+    try:
+        text = data_bytes.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise PackError([Diagnostic(shown, 1, 1, f"pack is not UTF-8 text (byte {exc.start})")]) from None
+    return parse_pack_text(text, shown, hashlib.sha256(data_bytes).hexdigest())
+
+
+def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack:
+    if sha256 is None:
+        sha256 = hashlib.sha256(text.encode("utf-8")).hexdigest()
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise PackError([_toml_error(shown, text, exc)]) from None
+    src = SourceFile(shown, text)
+    c = _Collector(src)
+
+    for k, v in data.items():
+        if k not in TABLES:
+            c.at((k,), f"unknown table '{k}'" + _suggest(k, TABLES))
+        elif k == "rule":
+            if not isinstance(v, list):
+                c.at((k,), "rules are written as [[rule]] tables")
+        elif not isinstance(v, dict):
+            c.at((k,), f"'{k}' must be a table: [{k}]")
+    tables = {k: (v if isinstance(v, dict) else {}) for k, v in data.items() if k != "rule"}
+
+    pack_t = tables.get("pack", {})
+    if "pack" not in data:
+        c.diags.append(src.diag(1, 1, "missing [pack] table with name and title"))
+    _unknown_keys(c, ("pack",), pack_t, TABLES["pack"], "[pack]")
+    name = pack_t.get("name", "")
+    if "pack" in data:
+        if "name" not in pack_t:
+            c.at(("pack",), "[pack] needs a name")
+        elif not isinstance(name, str) or not SLUG.match(name):
+            c.at(("pack", "name"), f"pack name must be a slug (lower-case letters, digits, '-'), got {name!r}")
+        if not isinstance(pack_t.get("title", ""), str) or "title" not in pack_t:
+            c.at(("pack",), "[pack] needs a title (a string)")
+    legs = pack_t.get("legs", 3)
+    if isinstance(legs, bool) or not isinstance(legs, int) or not (0 <= legs <= MAX_LEGS):
+        c.at(("pack", "legs"), f"pack legs must be a whole number 0..{MAX_LEGS}, got {legs!r}")
+        legs = 3
+    description = pack_t.get("description", "")
+    if not isinstance(description, str):
+        c.at(("pack", "description"), "description must be a string")
+        description = ""
+
+    _unknown_keys(c, ("world",), tables.get("world", {}), TABLES["world"], "[world]")
+    scope = _load_scope(c, tables.get("world", {}))
+
+    params = {}
+    for k, v in tables.get("params", {}).items():
+        key = ("params", k)
+        if not IDENT.match(k):
+            c.at(key, f"parameter name '{k}' must be a plain identifier")
+            continue
+        if isinstance(v, bool):
+            c.at(key, "parameters are numbers or lengths, not true/false")
+            continue
+        if isinstance(v, (int, float)):
+            v = str(v)
+        e = _expr(c, key, v, what=f"params.{k}")
+        if e:
+            params[k] = e
+
+    lets = {}
+    for k, v in tables.get("let", {}).items():
+        key = ("let", k)
+        if not IDENT.match(k):
+            c.at(key, f"let name '{k}' must be a plain identifier")
+            continue
+        if k in vocab.CONSTANTS or k in ("legs", "true", "false") or k in _FUNCTION_WORDS:
+            c.at(key, f"let name '{k}' is a reserved word")
+            continue
+        e = _expr(c, key, v, what=f"let {k}")
+        if e:
+            lets[k] = e
+
+    ob_t = tables.get("onboard", {})
+    _unknown_keys(c, ("onboard",), ob_t, TABLES["onboard"], "[onboard]")
+    onboard = {}
+    for k in vocab.ONBOARD_OUTPUTS:
+        if k in ob_t:
+            e = _expr(c, ("onboard", k), ob_t[k], what=f"onboard {k}")
+            if e:
+                onboard[k] = e
+        else:
+            onboard[k] = RawExpr(vocab.DEFAULT_ONBOARD[k], parse(vocab.DEFAULT_ONBOARD[k]),
+                                 ("onboard", k), default=True)
+    q_scale = ob_t.get("q_scale", "auto")
+    if q_scale not in ("auto", *vocab.Q_SCALES):
+        c.at(("onboard", "q_scale"), f"q_scale must be \"10 cm\", \"1 m\", \"10 m\" or \"auto\", got {q_scale!r}")
+        q_scale = "auto"
+    rounding = ob_t.get("rounding", "widen")
+    if rounding not in vocab.ROUNDINGS:
+        c.at(("onboard", "rounding"), f"rounding must be one of {', '.join(vocab.ROUNDINGS)}, got {rounding!r}"
+             + (_suggest(rounding, vocab.ROUNDINGS) if isinstance(rounding, str) else ""))
+        rounding = "widen"
+
+    ts_t = tables.get("trackside", {})
+    _unknown_keys(c, ("trackside",), ts_t, TABLES["trackside"], "[trackside]")
+    trackside = {}
+    for k in vocab.TRACKSIDE_OUTPUTS:
+        if k in ts_t:
+            e = _expr(c, ("trackside", k), ts_t[k], what=f"trackside {k}")
+            if e:
+                trackside[k] = e
+        else:
+            trackside[k] = RawExpr(vocab.DEFAULT_TRACKSIDE[k], parse(vocab.DEFAULT_TRACKSIDE[k]),
+                                   ("trackside", k), default=True)
+
+    rules = []
+    seen_ids: dict[str, int] = {}
+    raw_rules = data.get("rule", []) if isinstance(data.get("rule", []), list) else []
+    if not raw_rules and "pack" in data:
+        c.diags.append(src.diag(1, 1, "the pack has no [[rule]]", severity="warning"))
+    for i, r in enumerate(raw_rules):
+        base = ("rule", i)
+        if not isinstance(r, dict):
+            c.at(base, "a rule must be a table")
+            continue
+        _unknown_keys(c, base, r, TABLES["rule"], "[[rule]]")
+        ok = True
+        for req in ("id", "title", "expect"):
+            if req not in r:
+                c.at(base, f"rule is missing '{req}'")
+                ok = False
+        rid = r.get("id", f"#{i + 1}")
+        if "id" in r and (not isinstance(rid, str) or not SLUG.match(rid)):
+            c.at(base + ("id",), f"rule id must be a slug (lower-case letters, digits, '-'), got {rid!r}")
+            ok = False
+        elif isinstance(rid, str) and rid in seen_ids:
+            c.at(base + ("id",), f"duplicate rule id '{rid}' (first used by rule {seen_ids[rid] + 1})")
+            ok = False
+        elif isinstance(rid, str):
+            seen_ids[rid] = i
+        title = r.get("title", "")
+        if not isinstance(title, str):
+            c.at(base + ("title",), "title must be a string")
+            ok = False
+        given = _expr(c, base + ("given",), r["given"], what=f"rule {rid} given") if "given" in r else None
+        if "given" in r and given is None:
+            ok = False
+        expect = _expr(c, base + ("expect",), r["expect"], what=f"rule {rid} expect") if "expect" in r else None
+        refs = r.get("refs", [])
+        if not (isinstance(refs, list) and all(isinstance(x, str) for x in refs)):
+            c.at(base + ("refs",), "refs must be a list of strings")
+            refs = []
+        note = r.get("note", "")
+        if not isinstance(note, str):
+            c.at(base + ("note",), "note must be a string")
+            note = ""
+        rlegs = r.get("legs")
+        if rlegs is not None and (isinstance(rlegs, bool) or not isinstance(rlegs, int)
+                                  or not (0 <= rlegs <= MAX_LEGS)):
+            c.at(base + ("legs",), f"rule legs must be a whole number 0..{MAX_LEGS}, got {rlegs!r}")
+            ok = False
+        place = src.places.get(base)
+        if ok and expect is not None:
+            rules.append(RawRule(rid, title, given, expect, tuple(refs), note, rlegs,
+                                 place.line if place else 1, i))
+
+    errors = [d for d in c.diags if d.severity == "error"]
+    if errors:
+        raise PackError(sorted(c.diags, key=lambda d: (d.line, d.column)))
+    return RawPack(shown, text, sha256, name, pack_t.get("title", ""), description, legs, scope,
+                   params, lets, onboard, q_scale, rounding, trackside, tuple(rules), src,
+                   tuple(d for d in c.diags if d.severity == "warning"))
+
+
+_FUNCTION_WORDS = {"abs", "min", "max", "flip", "side", "along", "floor_to", "ceil_to",
+                   "round_to", "all", "any", "count", "sum", "if", "then", "else", "and",
+                   "or", "not", "implies", "in"}

@@ -1,0 +1,80 @@
+"""Replaying archived counterexample files against today's packs (``verifier replay``)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import attrs
+
+from verifier.errors import Diagnostic, PackError
+from verifier.evidence import cexfile
+from verifier.world.scenario import world_from_data
+from verifier.world.sim import State, applies, evaluate, scope_problems
+
+
+@attrs.frozen
+class Outcome:
+    file: str
+    status: str      # still violated, now holds, rule changed, rule gone
+    detail: str
+
+
+def read_counterexample(path: Path) -> dict:
+    shown = path.as_posix()
+    try:
+        doc = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise PackError([Diagnostic(shown, getattr(exc, "lineno", 1), getattr(exc, "colno", 1),
+                                    f"not a counterexample file: {exc}")]) from None
+    fmt = doc.get("format") if isinstance(doc, dict) else None
+    if not isinstance(fmt, str) or not fmt.startswith("verifier-counterexample/"):
+        raise PackError([Diagnostic(shown, 1, 1, "not a counterexample file: field 'format' is missing or foreign")])
+    if fmt != cexfile.FORMAT:
+        raise PackError([Diagnostic(shown, 1, 1, f"field 'format' is {fmt!r}; this verifier reads {cexfile.FORMAT!r}")])
+    for field in ("pack", "rule", "world", "bound"):
+        if field not in doc:
+            raise PackError([Diagnostic(shown, 1, 1, f"counterexample file lacks field '{field}'")])
+    return doc
+
+
+def replay_file(path: Path) -> Outcome:
+    from verifier.loader import load_pack
+    shown = path.as_posix()
+    doc = read_counterexample(path)
+    pack_path = Path(doc["pack"]["path"])
+    if not pack_path.exists():
+        return Outcome(shown, "rule gone", f"pack {pack_path.as_posix()} no longer exists")
+    pack = load_pack(pack_path, pack_path.as_posix())
+    rid = doc["rule"]["id"]
+    try:
+        rule = pack.rule(rid)
+    except KeyError:
+        return Outcome(shown, "rule gone", f"pack {pack.name} has no rule '{rid}' any more")
+    try:
+        world = world_from_data(doc["world"])
+    except ValueError as exc:
+        raise PackError([Diagnostic(shown, 1, 1, str(exc))]) from None
+    st = State(pack, world)
+    still = applies(rule, st) and not evaluate(rule.expect.node, st, {})
+    outside = scope_problems(world, pack.scope, max(doc["bound"], len(world.legs)))
+    same = cexfile.rule_hashes(pack, rule) == doc["rule"].get("sha256")
+    verdict = "still violates it" if still else "no longer violates it"
+    if not same:
+        extra = " (and the world is now outside the scope)" if outside else ""
+        return Outcome(shown, "rule changed", f"rule {rid} or a definition it uses was edited; the recorded world {verdict}{extra}")
+    if still:
+        return Outcome(shown, "still violated", f"rule {rid}")
+    return Outcome(shown, "now holds", f"rule {rid} unchanged, but the recorded world no longer violates it (tool or model changed)")
+
+
+def replay_paths(paths) -> list[Outcome]:
+    files = []
+    for p in map(Path, paths):
+        if p.is_dir():
+            files.extend(sorted(q for q in p.rglob("*.json") if q.is_file()))
+        elif p.exists():
+            files.append(p)
+        else:
+            raise PackError([Diagnostic(p.as_posix(), 1, 1, "no such file or directory")])
+    return [replay_file(f) for f in files]

@@ -1,0 +1,1 @@
+"""The SMT side: the only package that imports z3."""

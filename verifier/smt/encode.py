@@ -1,0 +1,432 @@
+"""The SMT encoding of the world model (DESIGN 4) and of typed expressions, for z3.
+
+Written independently of the simulator: here the world is a set of constraints over symbolic
+inputs for a fixed bound K of legs. Conventions:
+
+- a Direction is an Int: 1 nominal, -1 reverse, 0 unknown (so ``flip`` is negation);
+- a Running is a Bool: true = forward;
+- Counts are Ints, Numbers and Lengths are Reals;
+- a sign times a value is an if-then-else, never a product (the logic stays linear);
+- floor(t) is a fresh Int k with k <= t < k + 1 (portable linear integer/real arithmetic).
+
+Every derived quantity that a reader may want from a model gets its own named constant with a
+defining equality, so models can be compared value by value with the simulator.
+"""
+
+from __future__ import annotations
+
+import z3
+
+from verifier.check.model import Pack, Rule
+from verifier.lang import ast
+from verifier.lang.ast import COUNT, ZERO
+from verifier.world.vocab import MAX_CODE, Q_SCALES, UNKNOWN_CODE, Direction, Running
+
+_DIR_CODE = {Direction.NOMINAL: 1, Direction.REVERSE: -1, Direction.UNKNOWN: 0}
+
+
+class Encoding:
+    """The world of one pack, up to ``bound`` legs, in one z3 context."""
+
+    def __init__(self, pack: Pack, bound: int, ctx: z3.Context):
+        self.pack = pack
+        self.K = bound
+        self.ctx = ctx
+        self.constraints: list = []
+        self.terms: dict = {}          # vocabulary name -> term
+        self.legs: list[dict] = []     # per leg: field -> term
+        self.inputs: dict = {}         # input name -> z3 constant (for models and the ladder)
+        self._memo: dict = {}
+        self._fresh = 0
+        self._wire_done = False
+        self._world()
+
+    # ---- helpers ------------------------------------------------------------------------
+    def real(self, name):
+        return z3.Real(name, self.ctx)
+
+    def int(self, name):
+        return z3.Int(name, self.ctx)
+
+    def boolean(self, name):
+        return z3.Bool(name, self.ctx)
+
+    def num(self, text) -> z3.ArithRef:
+        return z3.RealVal(str(text), self.ctx)
+
+    def ival(self, n: int) -> z3.ArithRef:
+        return z3.IntVal(n, self.ctx)
+
+    def define(self, name: str, term, sort: str = "real"):
+        """A named constant equal to ``term`` (keeps terms small, models readable)."""
+        c = {"real": self.real, "int": self.int, "bool": self.boolean}[sort](name)
+        self.constraints.append(c == term)
+        return c
+
+    def floor_int(self, t):
+        """A fresh Int k with k <= t < k + 1."""
+        self._fresh += 1
+        k = self.int(f"floor!{self._fresh}")
+        self.constraints.append(z3.ToReal(k) <= t)
+        self.constraints.append(t < z3.ToReal(k) + 1)
+        return k
+
+    @staticmethod
+    def along(d, x):
+        return z3.If(d == -1, -x, x)
+
+    @staticmethod
+    def pos(x):
+        return z3.If(x > 0, x, 0)
+
+    # ---- the world (DESIGN 4.1 to 4.3) ----------------------------------------------------
+    def _world(self) -> None:
+        sc, C, K = self.pack.scope, self.constraints, self.K
+        num = self.num
+        balises, read = self.int("lrbg.balises"), self.int("lrbg.read")
+        linked = self.boolean("lrbg.linked")
+        locacc, offset = self.int("lrbg.locacc"), self.real("lrbg.offset")
+        length, antenna = self.real("train.length"), self.real("train.antenna")
+        direction = self.int("passage.direction")
+        pfwd = self.boolean("passage.forward")
+        det = self.real("passage.detect_error")
+        count = self.int("legs.count")
+        self.inputs.update({"lrbg.balises": balises, "lrbg.read": read, "lrbg.linked": linked,
+                            "lrbg.locacc": locacc, "lrbg.offset": offset,
+                            "train.length": length, "train.antenna": antenna,
+                            "passage.direction": direction, "passage.running": pfwd,
+                            "passage.detect_error": det, "legs.count": count})
+        locacc_r = z3.ToReal(locacc)
+        C += [balises >= sc.balises[0], balises <= sc.balises[1], read >= 1, read <= balises,
+              locacc >= int(sc.locacc[0]), locacc <= int(sc.locacc[1]),
+              offset >= -locacc_r, offset <= locacc_r,
+              length >= num(sc.train_length[0]), length <= num(sc.train_length[1]),
+              antenna >= num(sc.antenna[0]), antenna <= num(sc.antenna[1]), antenna <= length,
+              z3.Or(direction == 1, direction == -1),
+              det >= -num(sc.detection), det <= num(sc.detection),
+              count >= 0, count <= K]
+
+        o = self.define("actual.orientation@0", z3.If(pfwd, direction, -direction), "int")
+        front = self.define("actual.front@0", offset + self.along(direction, det) + self.along(o, antenna))
+        op = self.define("est.orientation_passage@0", z3.If(pfwd, 1, -1), "int")
+        est_p = self.define("est.front_passage@0", self.along(op, antenna))
+        known = self.define("passage.known", z3.Or(read >= 2, linked), "bool")
+        frame = z3.If(known, direction, 1)
+        motion = direction
+        over = self.pos(-det)
+        under = self.pos(det)
+        measured = num(0)
+        basis = num(0)
+        cabs = []
+        T = self.terms
+        for i in range(1, K + 1):
+            cab, fwd = self.boolean(f"legs.{i}.cab_change"), self.boolean(f"legs.{i}.forward")
+            dist, odo = self.real(f"legs.{i}.distance"), self.real(f"legs.{i}.odometer")
+            self.inputs.update({f"legs.{i}.cab_change": cab, f"legs.{i}.running": fwd,
+                                f"legs.{i}.distance": dist, f"legs.{i}.odometer": odo})
+            active = count >= i
+            # an inactive leg is fixed, so that models (and minimal worlds) are canonical
+            C += [z3.Implies(z3.Not(active), z3.And(z3.Not(cab), fwd, dist == 0, odo == 0)),
+                  z3.Implies(active, z3.And(dist >= num(sc.leg_distance[0]),
+                                            dist <= num(sc.leg_distance[1]))),
+                  dist >= 0, odo >= 0]
+            front_c = z3.If(cab, front - self.along(o, length), front)
+            est_c = z3.If(cab, est_p - self.along(op, length), est_p)
+            o = self.define(f"actual.orientation@{i}", z3.If(cab, -o, o), "int")
+            op = self.define(f"est.orientation_passage@{i}", z3.If(cab, -op, op), "int")
+            m = self.define(f"actual.motion@{i}", z3.If(fwd, o, -o), "int")
+            mp = z3.If(fwd, op, -op)
+            front = self.define(f"actual.front@{i}", front_c + self.along(m, dist))
+            est_p = self.define(f"est.front_passage@{i}", est_c + self.along(mp, odo))
+            motion = self.define(f"actual.motion_last@{i}", z3.If(active, m, motion), "int")
+            over = over + self.pos(odo - dist)
+            under = under + self.pos(dist - odo)
+            measured = measured + odo
+            basis = basis + (odo if sc.odometry_basis == "measured" else dist)
+            C += [over <= num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * basis,
+                  under <= num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * basis]
+            cabs.append(z3.If(cab, 1, 0))
+            self.legs.append({
+                "index": self.ival(i), "cab_change": cab, "running": fwd, "distance": dist,
+                "odometer": odo,
+                "orientation": z3.If(known, o, 0), "motion": z3.If(known, m, 0),
+                "actual_orientation": o, "actual_motion": m, "actual_front": front,
+                "est_front": self.along(frame, est_p), "active": active,
+            })
+        # the bound at the passage itself (j = 0): E = 0
+        C += [self.pos(-det) <= num(sc.odometry_over.fixed),
+              self.pos(det) <= num(sc.odometry_under.fixed)]
+        measured = self.define("est.travelled", measured)
+        T.update({
+            "lrbg.balises": balises, "lrbg.read": read, "lrbg.linked": linked,
+            "lrbg.locacc": locacc_r, "lrbg.offset": offset, "train.length": length,
+            "train.antenna": antenna, "passage.direction": direction, "passage.running": pfwd,
+            "passage.detect_error": det, "passage.seen": z3.If(known, direction, 0),
+            "legs.count": count,
+            "cab_changes": z3.Sum(cabs) if cabs else self.ival(0),
+            "actual.front": front, "actual.rear": front - self.along(o, length),
+            "actual.orientation": o, "actual.motion": motion,
+            "actual.travelled": z3.Sum([leg["distance"] for leg in self.legs]) if self.legs else num(0),
+            "est.front_passage": est_p,
+            "est.front": self.define("est.front", self.along(frame, est_p)),
+            "est.rear": self.along(frame, est_p - self.along(op, length)),
+            "est.orientation": z3.If(known, o, 0), "est.motion": z3.If(known, motion, 0),
+            "est.travelled": measured,
+            "est.bound_over": num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * measured,
+            "est.bound_under": num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * measured,
+        })
+        self.known = known
+
+    # ---- the wire (DESIGN 4.4) ----------------------------------------------------------
+    # The step is an Int c (0: 10 cm, 1: 1 m, 2: 10 m). Whether a step fits is written as
+    # linear conditions on the unrounded values (only D_LRBG's rounding, which the widened
+    # doubts need, is computed at every candidate step); the values are then rounded once, at
+    # the chosen step, by scaling with an if-then-else. The simulator computes the same thing
+    # the plain way (round at every step, pick the first that fits); the tests compare them.
+    def _scaled(self, x, c):
+        """x / step(c), linear: an if-then-else over the three constant steps."""
+        return z3.If(c == 0, x * 10, z3.If(c == 1, x, x * self.num("1/10")))
+
+    def _unscaled(self, k, c):
+        kr = z3.ToReal(k)
+        return z3.If(c == 0, kr * self.num("1/10"), z3.If(c == 1, kr, kr * 10))
+
+    def _wire(self) -> None:
+        T, C = self.terms, self.constraints
+        d = self.name("est.d_lrbg")
+        over = self.name("est.l_doubtover")
+        under = self.name("est.l_doubtunder")
+        mode = self.pack.rounding
+        half = self.num("1/2")
+        steps = [0, 1, 2] if self.pack.q_scale == "auto" else [Q_SCALES[self.pack.q_scale]]
+        qs = {0: self.num("1/10"), 1: self.num(1), 2: self.num(10)}
+        kd_at, w_at, fits = {}, {}, {}
+        for c in steps:
+            q = qs[c]
+            lim = self.num(MAX_CODE)
+            if mode == "nearest":
+                fits[c] = z3.And([z3.And(x >= -q * half, x < (lim + half) * q) for x in (d, over, under)])
+            elif mode == "down":
+                fits[c] = z3.And([z3.And(x >= 0, x < (lim + 1) * q) for x in (d, over, under)])
+            else:
+                kd = self.floor_int(self._scaled(d, self.ival(c)) + half)
+                rd = z3.ToReal(kd) * q
+                w = self.define(f"report.widen@{c}", z3.If(rd >= d, rd - d, d - rd))
+                kd_at[c], w_at[c] = kd, w
+                fits[c] = z3.And(kd >= 0, kd <= MAX_CODE,
+                                 *[z3.And(x + w > -q, x + w <= lim * q) for x in (over, under)])
+        c = self.int("report.step")
+        self.step_choice = c
+        if len(steps) == 1:
+            C.append(c == steps[0])
+        else:
+            C.append(c == z3.If(fits[0], 0, z3.If(fits[1], 1, 2)))
+        step = self.define("report.q_scale", self._unscaled(self.ival(1), c))
+        T["report.q_scale"] = step
+        T["report.code.q_scale"] = c
+        if mode == "nearest":
+            ks = [self.floor_int(self._scaled(x, c) + half) for x in (d, over, under)]
+        elif mode == "down":
+            ks = [self.floor_int(self._scaled(x, c)) for x in (d, over, under)]
+        else:
+            pick = (lambda m: m[steps[0]]) if len(steps) == 1 else (
+                lambda m: z3.If(c == 0, m[0], z3.If(c == 1, m[1], m[2])))
+            kd, w = pick(kd_at), pick(w_at)
+            ks = [kd] + [-self.floor_int(-self._scaled(x + w, c)) for x in (over, under)]
+        in_range = []
+        for key, k in zip(("d_lrbg", "l_doubtover", "l_doubtunder"), ks):
+            T[f"report.{key}"] = self.define(f"report.{key}", self._unscaled(k, c))
+            ok = z3.And(self.known, k >= 0, k <= MAX_CODE)
+            code = self.define(f"report.code.{key}", z3.If(ok, k, UNKNOWN_CODE), "int")
+            T[f"report.code.{key}"] = code
+            T[f"rbc.{key}"] = self.define(f"rbc.{key}", self._unscaled(code, c))
+            in_range.append(code <= MAX_CODE)
+        quals = []
+        for q in ("q_dlrbg", "q_dirlrbg", "q_dirtrain"):
+            v = self.define(f"report.{q}", z3.If(self.known, self.name(f"est.{q}"), 0), "int")
+            T[f"report.{q}"] = v
+            T[f"report.code.{q}"] = z3.If(v == 1, 1, z3.If(v == -1, 0, 2))
+            quals.append(v != 0)
+        T["report.in_range"] = self.define("report.in_range", z3.And(in_range), "bool")
+        T["rbc.placed"] = self.define("rbc.placed", z3.And(T["report.in_range"], *quals), "bool")
+        self._wire_done = True
+
+    # ---- names and expressions ------------------------------------------------------------
+    def name(self, name: str):
+        if name in self.terms:
+            return self.terms[name]
+        if name.startswith("est.") and name[4:] in self.pack.onboard:
+            t = self.definition(("onboard", name[4:]))
+        elif name.startswith("rbc.") and name[4:] in self.pack.trackside:
+            t = self.definition(("trackside", name[4:]))
+        elif name.startswith(("report.", "rbc.")) and not self._wire_done:
+            self._wire()
+            return self.terms[name]
+        else:
+            raise KeyError(name)
+        self.terms[name] = t
+        return t
+
+    def definition(self, dep: tuple):
+        if dep not in self._memo:
+            formula = self.pack.definition(dep)
+            term = self.expr(formula.node, {})
+            sort = {"Bool": "bool", "Count": "int"}.get(formula.node.ty, "real")
+            if formula.node.ty == "Direction":
+                sort = "int"
+            self._memo[dep] = self.define(f"{dep[0]}.{dep[1]}", term, sort)
+        return self._memo[dep]
+
+    def leg_field(self, i: int, field: str):
+        if i > self.K:   # only reachable under an unsatisfiable premise legs.count >= i
+            return self._dummy(field)
+        return self.legs[i - 1][field]
+
+    def _dummy(self, field):
+        from verifier.world.vocab import LEG
+        ty = LEG[field].ty
+        self._fresh += 1
+        if ty == "Bool" or ty == "Running":
+            return self.boolean(f"absent!{self._fresh}")
+        if ty in ("Count", "Direction"):
+            return self.int(f"absent!{self._fresh}")
+        return self.real(f"absent!{self._fresh}")
+
+    def expr(self, node: ast.Node, env: dict):
+        """The z3 term of a typed expression; ``env`` binds leg variables to leg numbers."""
+        e = self.expr
+        if isinstance(node, ast.Num):
+            if node.ty in (COUNT, ZERO):
+                return self.ival(int(node.value))
+            return self.num(node.value)
+        if isinstance(node, ast.BoolLit):
+            return z3.BoolVal(node.value, self.ctx)
+        if isinstance(node, ast.Name):
+            kind = node.ref[0]
+            if kind == "var":
+                return self.name(node.ref[1])
+            if kind == "num":
+                v = node.ref[1]
+                return self.ival(int(v)) if node.ty == COUNT else self.num(v)
+            if kind == "const":
+                v = node.ref[1]
+                if isinstance(v, Running):
+                    return z3.BoolVal(v is Running.FORWARD, self.ctx)
+                return self.ival(_DIR_CODE[v])
+            if kind == "let":
+                return self.definition(("let", node.ref[1]))
+            if kind == "leg":
+                return self.leg_field(env[node.ref[1]], node.ref[2])
+            if kind == "legat":
+                return self.leg_field(node.ref[1], node.ref[2])
+            raise AssertionError(node.ref)
+        if isinstance(node, ast.Unary):
+            x = e(node.operand, env)
+            return z3.Not(x) if node.op == "not" else -x
+        if isinstance(node, ast.Binary):
+            op = node.op
+            a, b = e(node.left, env), e(node.right, env)
+            if op == "and":
+                return z3.And(a, b)
+            if op == "or":
+                return z3.Or(a, b)
+            if op == "implies":
+                return z3.Implies(a, b)
+            if op == "+":
+                return a + b
+            if op == "-":
+                return a - b
+            if op == "*":
+                # one side is constant (checked): fold it to a numeral so the term stays linear
+                if _is_const(node.left):
+                    return z3.simplify(a) * b
+                return a * z3.simplify(b)
+            return a * z3.simplify(1 / z3.ToReal(b) if z3.is_int(b) else 1 / b)
+        if isinstance(node, ast.Chain):
+            vals = [e(o, env) for o in node.operands]
+            parts = [_cmp(op, a, b) for op, a, b in zip(node.ops, vals, vals[1:])]
+            return parts[0] if len(parts) == 1 else z3.And(parts)
+        if isinstance(node, ast.IfThen):
+            return z3.If(e(node.cond, env), e(node.then, env), e(node.orelse, env))
+        if isinstance(node, ast.Call):
+            args = [e(a, env) for a in node.args]
+            f = node.func
+            if f == "abs":
+                return z3.If(args[0] >= 0, args[0], -args[0])
+            if f in ("min", "max"):
+                out = args[0]
+                for a in args[1:]:
+                    out = z3.If(a < out, a, out) if f == "min" else z3.If(a > out, a, out)
+                return out
+            if f == "flip":
+                return -args[0]
+            if f == "side":
+                return z3.If(args[0] >= 0, 1, -1)
+            if f == "along":
+                return self.along(args[0], args[1])
+            x, step = args
+            step = z3.simplify(z3.ToReal(step) if z3.is_int(step) else step)
+            inv = z3.simplify(1 / step)
+            if f == "floor_to":
+                k = self.floor_int(x * inv)
+            elif f == "ceil_to":
+                k = -self.floor_int(-x * inv)
+            else:
+                k = self.floor_int(x * inv + self.num("1/2"))
+            return z3.ToReal(k) * step
+        if isinstance(node, ast.Quant):
+            items = []
+            for i in range(1, self.K + 1):
+                active = self.legs[i - 1]["active"]
+                body = e(node.body, {**env, node.var: i})
+                items.append((active, body))
+            if node.kind == "all":
+                return z3.And([z3.Implies(a, b) for a, b in items]) if items else z3.BoolVal(True, self.ctx)
+            if node.kind == "any":
+                return z3.Or([z3.And(a, b) for a, b in items]) if items else z3.BoolVal(False, self.ctx)
+            if node.kind == "count":
+                return z3.Sum([z3.If(z3.And(a, b), 1, 0) for a, b in items]) if items else self.ival(0)
+            zero = self.ival(0) if node.ty == COUNT else self.num(0)
+            return z3.Sum([z3.If(a, b, zero) for a, b in items]) if items else zero
+        raise AssertionError(type(node))
+
+    # ---- rules ------------------------------------------------------------------------------
+    def given(self, rule: Rule):
+        """The rule's given with its implicit premise (legs.count >= i for every legs[i])."""
+        parts = []
+        if rule.premise_legs:
+            parts.append(self.terms["legs.count"] >= rule.premise_legs)
+        if rule.given is not None:
+            parts.append(self.expr(rule.given.node, {}))
+        return z3.And(parts) if parts else z3.BoolVal(True, self.ctx)
+
+    def expect(self, rule: Rule):
+        return self.expr(rule.expect.node, {})
+
+
+def _is_const(node: ast.Node) -> bool:
+    if isinstance(node, ast.Num):
+        return True
+    if isinstance(node, ast.Name):
+        return node.ref[0] == "num"
+    if isinstance(node, ast.Unary):
+        return _is_const(node.operand)
+    if isinstance(node, ast.Binary) and node.op in "+-*/":
+        return _is_const(node.left) and _is_const(node.right)
+    if isinstance(node, ast.Call) and node.func in ("abs", "min", "max"):
+        return all(_is_const(a) for a in node.args)
+    return False
+
+
+def _cmp(op, a, b):
+    if op == "==":
+        return a == b
+    if op == "!=":
+        return a != b
+    if op == "<":
+        return a < b
+    if op == "<=":
+        return a <= b
+    if op == ">":
+        return a > b
+    return a >= b

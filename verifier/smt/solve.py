@@ -1,0 +1,309 @@
+"""Deciding one rule: verdict, witness, and the minimisation ladder of DESIGN 6.
+
+Each rule is checked in a fresh z3 Context with a deterministic resource budget per check
+(rlimit) and a wall-clock guard. Results leave this module as plain Python data (Fractions,
+ints, bools, words), never as z3 objects.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from fractions import Fraction
+
+import attrs
+import z3
+
+from verifier.check.model import Pack, Rule
+from verifier.smt.encode import Encoding
+
+DEFAULT_RLIMIT = 500_000_000     # per solver check; deterministic (about 20 s of z3 work)
+DEFAULT_TIMEOUT = 120.0          # seconds per rule; a guard only
+GRIDS = (Fraction(1), Fraction(1, 10), Fraction(1, 100), Fraction(1, 1000))
+SOLVER = f"z3 {z3.get_version_string()}"
+
+
+@attrs.frozen
+class Solved:
+    """What the solver found for one rule (plain data)."""
+
+    verdict: str                      # holds, violated, vacuous, unknown
+    world: dict | None = None         # inputs of the minimal counterexample or of the witness
+    smt_values: dict | None = None    # the encoding's own values of derived names in that world
+    minimal: bool = True              # every ladder step was decided
+    reason: str = ""
+    rlimit: int = 0
+    checks: int = 0
+    solver: str = SOLVER
+
+
+class _Budget:
+    def __init__(self, timeout: float):
+        self.deadline = time.monotonic() + timeout
+
+    def left_ms(self) -> int:
+        return max(1, int((self.deadline - time.monotonic()) * 1000))
+
+
+class _Session:
+    """One solver over one encoding, with counted, budgeted checks."""
+
+    def __init__(self, enc: Encoding, rlimit: int, budget: _Budget):
+        self.enc = enc
+        self.s = z3.Solver(ctx=enc.ctx)
+        self.s.set("rlimit", rlimit)
+        self.budget = budget
+        self.checks = 0
+        self.s.add(*enc.constraints)
+        self._added = len(enc.constraints)
+
+    def check(self, *assumptions):
+        self.s.set("timeout", self.budget.left_ms())
+        self.checks += 1
+        # constraints created while encoding later terms (floor variables) must be present
+        if len(self.enc.constraints) > self._added:
+            self.s.add(*self.enc.constraints[self._added:])
+            self._added = len(self.enc.constraints)
+        return self.s.check(*assumptions)
+
+    def add(self, *c):
+        self.s.add(*c)
+
+    def rlimit_used(self) -> int:
+        try:
+            return int(self.s.statistics().get_key_value("rlimit count"))
+        except z3.Z3Exception:
+            return 0
+
+
+def _fraction(v) -> Fraction:
+    if z3.is_int_value(v):
+        return Fraction(v.as_long())
+    if z3.is_rational_value(v):
+        return Fraction(v.numerator_as_long(), v.denominator_as_long())
+    if z3.is_algebraic_value(v):  # pragma: no cover - linear problems have rational models
+        raise ValueError("irrational model value")
+    raise ValueError(f"not a number: {v}")
+
+
+class _Unknown(Exception):
+    pass
+
+
+def _ladder(ses: _Session, enc: Encoding) -> bool:
+    """Fix every input by the fixed ladder of DESIGN 6. Returns whether every step was decided.
+
+    Each step asks one incremental question; the answer (not the solver's model) decides the
+    value, so the result is the lexicographically least grid point whatever model z3 returns.
+    """
+    decided = True
+    s = ses
+    T, I = enc.terms, enc.inputs
+    ctx = enc.ctx
+
+    def sat(*a) -> bool:
+        r = s.check(*a)
+        if r == z3.unknown:
+            raise _Unknown(s.s.reason_unknown())
+        return r == z3.sat
+
+    def value_of(term) -> Fraction:
+        return _fraction(s.s.model().eval(term, model_completion=True))
+
+    def try_fix(c) -> bool:
+        if sat(c):
+            s.add(c)
+            return True
+        return False
+
+    def least_index(pred, lo: int, hi: int) -> int:
+        """The least i in lo..hi with pred(i) satisfiable, given that pred(hi) is (monotone)."""
+        while lo < hi:
+            mid = (lo + hi) // 2
+            if sat(pred(mid)):
+                hi = mid
+            else:
+                lo = mid + 1
+        return hi
+
+    def least_int(term, lo: int, hi: int) -> None:
+        """Fix an Int-valued term to its least feasible value in lo..hi."""
+        assert sat()
+        top = int(value_of(term))
+        v = least_index(lambda i: term <= i, lo, top)
+        s.add(term == v)
+
+    def num(v: Fraction):
+        return z3.RealVal(str(v), ctx)
+
+    def least_on_grid(x, low: Fraction) -> None:
+        """Fix a Real input to its least feasible value on the coarsest grid that has one.
+
+        Bisection on "some feasible x <= v" (monotone, no integer variables), then an exact
+        test of the grid point found (the feasible set need not be closed)."""
+        for g in GRIDS:
+            assert sat()
+            top = math.ceil(value_of(x) / g)
+            i = least_index(lambda j: x <= num(j * g), math.floor(low / g), top)
+            for j in range(i, i + 3):
+                if try_fix(x == num(j * g)):
+                    return
+        assert sat()
+        s.add(x == num(value_of(x)))
+
+    def least_magnitude(x) -> None:
+        """Fix a signed error to its least magnitude on the coarsest grid; positive first."""
+        for g in GRIDS:
+            assert sat()
+            top = math.ceil(abs(value_of(x)) / g)
+            i = least_index(lambda j: z3.And(x <= num(j * g), x >= num(-j * g)), 0, top)
+            for j in range(i, i + 3):
+                if try_fix(x == num(j * g)) or try_fix(x == num(-j * g)):
+                    return
+        assert sat()
+        s.add(x == num(value_of(x)))
+
+    K = enc.K
+    try:
+        # (1) fewest legs, then fewest cab changes, then fewest balises
+        least_int(T["legs.count"], 0, K)
+        least_int(T["cab_changes"], 0, K)
+        least_int(I["lrbg.balises"], 1, 8)
+        # (2) each error to 0 where possible
+        errors = [I["lrbg.offset"], I["passage.detect_error"]] + [
+            I[f"legs.{i}.odometer"] - I[f"legs.{i}.distance"] for i in range(1, K + 1)]
+        zeroed = [try_fix(e == 0) for e in errors]
+        # (3) every other input to its least feasible value, in this documented order
+        least_int(I["lrbg.read"], 1, 8)
+        least_int(I["lrbg.locacc"], 0, 63)
+        least_on_grid(I["train.length"], Fraction(0))
+        least_on_grid(I["train.antenna"], Fraction(0))
+        for i in range(1, K + 1):
+            least_on_grid(I[f"legs.{i}.distance"], Fraction(0))
+        for e, z in zip(errors, zeroed):
+            if not z:
+                least_magnitude(e)
+        # (4) Booleans false first, enums in declaration order
+        try_fix(z3.Not(I["lrbg.linked"]))
+        for i in range(1, K + 1):
+            try_fix(z3.Not(I[f"legs.{i}.cab_change"]))
+        try_fix(I["passage.direction"] == 1)          # nominal before reverse
+        try_fix(I["passage.running"])                  # forward before backward
+        for i in range(1, K + 1):
+            try_fix(I[f"legs.{i}.running"])
+    except _Unknown:
+        decided = False
+    return decided
+
+
+def _read_world(model, enc: Encoding) -> dict:
+    """The inputs of a model as plain data, legs beyond legs.count left out."""
+    ev = lambda t: model.eval(t, model_completion=True)  # noqa: E731
+    I = enc.inputs
+    count = ev(I["legs.count"]).as_long()
+    world = {
+        "balises": ev(I["lrbg.balises"]).as_long(),
+        "read": ev(I["lrbg.read"]).as_long(),
+        "linked": z3.is_true(ev(I["lrbg.linked"])),
+        "locacc": _fraction(ev(I["lrbg.locacc"])),
+        "offset": _fraction(ev(I["lrbg.offset"])),
+        "length": _fraction(ev(I["train.length"])),
+        "antenna": _fraction(ev(I["train.antenna"])),
+        "direction": "nominal" if ev(I["passage.direction"]).as_long() == 1 else "reverse",
+        "running": "forward" if z3.is_true(ev(I["passage.running"])) else "backward",
+        "detect_error": _fraction(ev(I["passage.detect_error"])),
+        "legs": [],
+    }
+    for i in range(1, count + 1):
+        world["legs"].append({
+            "cab_change": z3.is_true(ev(I[f"legs.{i}.cab_change"])),
+            "running": "forward" if z3.is_true(ev(I[f"legs.{i}.running"])) else "backward",
+            "distance": _fraction(ev(I[f"legs.{i}.distance"])),
+            "odometer": _fraction(ev(I[f"legs.{i}.odometer"])),
+        })
+    return world
+
+
+_DIR_WORD = {1: "nominal", -1: "reverse", 0: "unknown"}
+
+
+def read_values(model, enc: Encoding, names) -> dict:
+    """The encoding's value of each vocabulary name in a model, as plain data."""
+    from verifier.world.vocab import GLOBAL
+    out = {}
+    for name in names:
+        term = enc.name(name)
+        v = model.eval(term, model_completion=True)
+        ty = GLOBAL[name].ty
+        if ty == "Bool":
+            out[name] = z3.is_true(v)
+        elif ty == "Running":
+            out[name] = "forward" if z3.is_true(v) else "backward"
+        elif ty == "Direction":
+            out[name] = _DIR_WORD[v.as_long()]
+        else:
+            out[name] = _fraction(v)
+    return out
+
+
+# The derived names compared between the encoding and the simulator after each solve.
+COMPARED = ("passage.seen", "cab_changes", "actual.front", "actual.rear", "actual.orientation",
+            "actual.motion", "actual.travelled", "est.front", "est.rear", "est.orientation", "est.motion",
+            "est.travelled", "est.d_lrbg", "est.l_doubtover", "est.l_doubtunder",
+            "report.q_dlrbg", "report.q_dirlrbg", "report.q_dirtrain", "report.d_lrbg",
+            "report.l_doubtover", "report.l_doubtunder", "report.q_scale", "report.in_range",
+            "report.code.d_lrbg", "report.code.l_doubtover", "report.code.l_doubtunder",
+            "rbc.placed", "rbc.est_front", "rbc.max_safe_front", "rbc.min_safe_front",
+            "rbc.min_safe_rear")
+
+
+def solve_rule(pack: Pack, rule: Rule, bound: int, *, rlimit: int = DEFAULT_RLIMIT,
+               timeout: float = DEFAULT_TIMEOUT, witness: bool = True) -> Solved:
+    """Decide one rule up to ``bound`` legs in a fresh context."""
+    ctx = z3.Context()
+    budget = _Budget(timeout)
+    enc = Encoding(pack, bound, ctx)
+    given = enc.given(rule)
+    expect = enc.expect(rule)
+    for name in COMPARED:
+        enc.name(name)
+    # Two solvers: the first asks for a violation in one non-incremental check (z3's fastest
+    # mode here); the second decides vacuity and finds the witness.
+    ses = _Session(enc, rlimit, budget)
+    ses.add(given, z3.Not(expect))
+    checks = rl = 0
+
+    def finish(verdict, *, world=None, values=None, minimal=True, reason="", last=ses):
+        return Solved(verdict, world, values, minimal, reason, rl + last.rlimit_used(),
+                      checks + last.checks)
+
+    r = ses.check()
+    if r == z3.sat:
+        decided = _ladder(ses, enc)
+        if ses.check() != z3.sat:  # pragma: no cover - the ladder only adds satisfiable facts
+            return finish("unknown", reason="minimisation lost the counterexample")
+        model = ses.s.model()
+        return finish("violated", world=_read_world(model, enc),
+                      values=read_values(model, enc, COMPARED), minimal=decided,
+                      reason="" if decided else "minimisation stopped by the budget")
+    if r == z3.unknown:
+        return finish("unknown", reason=ses.s.reason_unknown() or "budget exhausted")
+    checks, rl = ses.checks, ses.rlimit_used()
+    wit = _Session(enc, rlimit, budget)
+    wit.add(given)
+    r = wit.check()
+    if r == z3.unknown:
+        return finish("unknown", reason=f"given: {wit.s.reason_unknown()}", last=wit)
+    if r == z3.unsat:
+        return finish("vacuous", reason="no world in scope satisfies the given", last=wit)
+    if not witness:
+        return finish("holds", last=wit)
+    wit.add(expect)
+    if wit.check() != z3.sat:
+        return finish("holds", reason="no witness found within the budget", last=wit)
+    decided = _ladder(wit, enc)
+    if wit.check() != z3.sat:  # pragma: no cover
+        return finish("holds", reason="witness lost", last=wit)
+    model = wit.s.model()
+    return finish("holds", world=_read_world(model, enc), values=read_values(model, enc, COMPARED),
+                  minimal=decided, last=wit)

@@ -1,0 +1,67 @@
+"""The scope of a pack: the ranges of the world inputs (DESIGN 4.1, the ``[world]`` table)."""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+import attrs
+
+F = Fraction
+
+
+@attrs.frozen
+class Bound:
+    """An odometry error bound: ``fixed + rate * E``."""
+
+    fixed: Fraction
+    rate: Fraction
+
+    def at(self, measured: Fraction) -> Fraction:
+        return self.fixed + self.rate * measured
+
+
+@attrs.frozen
+class Scope:
+    balises: tuple = (1, 8)                     # N_TOTAL + 1, SUBSET-026 7.5.1.82
+    locacc: tuple = (F(0), F(63))               # Q_LOCACC 0..63 m, SUBSET-026 7.5.1.115
+    train_length: tuple = (F(10), F(1000))
+    antenna: tuple = (F(2), F(30))              # at least 2 m behind the front, SUBSET-040 4.1.2.2
+    leg_distance: tuple = (F(0), F(5000))
+    odometry_over: Bound = Bound(F(5), F(1, 20))    # 5 m + 5 %, SUBSET-041 5.3.1.1
+    odometry_under: Bound = Bound(F(5), F(1, 20))
+    detection: Fraction = F(1)                  # 1 m, SUBSET-036 4.2.10.2
+    odometry_basis: str = "measured"            # or "real"
+
+    def constants(self) -> dict:
+        """The ``world.*`` names and their values, with their types."""
+        from verifier.lang.ast import COUNT, LENGTH, NUMBER
+        out = {
+            "world.balises.low": (COUNT, F(self.balises[0])),
+            "world.balises.high": (COUNT, F(self.balises[1])),
+            "world.detection": (LENGTH, self.detection),
+        }
+        for key in ("locacc", "train_length", "antenna", "leg_distance"):
+            lo, hi = getattr(self, key)
+            out[f"world.{key}.low"] = (LENGTH, lo)
+            out[f"world.{key}.high"] = (LENGTH, hi)
+        for key in ("odometry_over", "odometry_under"):
+            b = getattr(self, key)
+            out[f"world.{key}.fixed"] = (LENGTH, b.fixed)
+            out[f"world.{key}.rate"] = (NUMBER, b.rate)
+        return out
+
+    def as_json(self) -> dict:
+        """The scope as plain data (for counterexample files and reports)."""
+        def q(x):
+            return str(x)
+        return {
+            "balises": list(self.balises),
+            "locacc": [q(x) for x in self.locacc],
+            "train_length": [q(x) for x in self.train_length],
+            "antenna": [q(x) for x in self.antenna],
+            "leg_distance": [q(x) for x in self.leg_distance],
+            "odometry_over": {"fixed": q(self.odometry_over.fixed), "rate": q(self.odometry_over.rate)},
+            "odometry_under": {"fixed": q(self.odometry_under.fixed), "rate": q(self.odometry_under.rate)},
+            "detection": q(self.detection),
+            "odometry_basis": self.odometry_basis,
+        }

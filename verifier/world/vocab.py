@@ -1,0 +1,174 @@
+"""The vocabulary of the world model (DESIGN 4): every name a rule may use, its type, and who
+may read it. This module is data only; the simulator (:mod:`verifier.world.sim`) and the SMT
+encoding (:mod:`verifier.smt.encode`) each give the names their meaning independently.
+
+To add a name: add it here (type, readers, one-line meaning), then give it a value in
+``world/sim.py`` and a term in ``smt/encode.py``; the differential tests compare the two.
+"""
+
+from __future__ import annotations
+
+import enum
+
+import attrs
+
+from verifier.lang.ast import BOOL, COUNT, DIRECTION, LENGTH, NUMBER, RUNNING
+
+
+class Direction(enum.Enum):
+    """A direction in the LRBG frame; the value is the packet code (SUBSET-026 7.5.1.104-106)."""
+
+    REVERSE = 0
+    NOMINAL = 1
+    UNKNOWN = 2
+
+    @property
+    def word(self) -> str:
+        return self.name.lower()
+
+
+class Running(enum.Enum):
+    FORWARD = "forward"
+    BACKWARD = "backward"
+
+    @property
+    def word(self) -> str:
+        return self.value
+
+
+CONSTANTS = {
+    "nominal": (DIRECTION, Direction.NOMINAL),
+    "reverse": (DIRECTION, Direction.REVERSE),
+    "unknown": (DIRECTION, Direction.UNKNOWN),
+    "forward": (RUNNING, Running.FORWARD),
+    "backward": (RUNNING, Running.BACKWARD),
+}
+
+# Readers: who may read a name inside an [onboard] or [trackside] formula. Rules (given and
+# expect) may read everything.
+ONBOARD, TRACKSIDE = "onboard", "trackside"
+OB, TS, BOTH, NOBODY = frozenset({ONBOARD}), frozenset({TRACKSIDE}), frozenset({ONBOARD, TRACKSIDE}), frozenset()
+
+
+@attrs.frozen
+class Entry:
+    name: str
+    ty: str
+    readers: frozenset
+    meaning: str
+    kind: str  # input, hidden-input, derived, onboard-output, wire, trackside-output
+
+
+def _e(name, ty, readers, kind, meaning):
+    return Entry(name, ty, readers, meaning, kind)
+
+
+GLOBAL = {e.name: e for e in [
+    _e("lrbg.balises", COUNT, OB, "input", "balises in the group (N_TOTAL + 1)"),
+    _e("lrbg.read", COUNT, OB, "input", "balises of the group detected; the reference balise is among them"),
+    _e("lrbg.linked", BOOL, OB, "input", "linking announced the group and its direction of passage"),
+    _e("lrbg.locacc", LENGTH, BOTH, "input", "location accuracy applied to the group (Q_LOCACC)"),
+    _e("lrbg.offset", LENGTH, NOBODY, "hidden-input", "real reference mark minus its engineered location"),
+    _e("train.length", LENGTH, BOTH, "input", "train length (train data)"),
+    _e("train.antenna", LENGTH, BOTH, "input", "distance from the active front end back to the balise antenna"),
+    _e("passage.direction", DIRECTION, NOBODY, "hidden-input", "real direction of movement over the group"),
+    _e("passage.running", RUNNING, OB, "input", "front end first (forward) or rear first (backward) over the group"),
+    _e("passage.detect_error", LENGTH, NOBODY, "hidden-input", "error locating the reference mark (positive: antenna further along than believed)"),
+    _e("passage.seen", DIRECTION, OB, "derived", "passage direction as the onboard knows it (unknown for one unlinked balise)"),
+    _e("legs.count", COUNT, OB, "input", "movement legs after the passage"),
+    _e("cab_changes", COUNT, OB, "derived", "cab changes over the active legs"),
+    _e("actual.front", LENGTH, NOBODY, "derived", "real front end position in the LRBG frame"),
+    _e("actual.rear", LENGTH, NOBODY, "derived", "real rear end position"),
+    _e("actual.orientation", DIRECTION, NOBODY, "derived", "real train orientation (towards the active cab)"),
+    _e("actual.motion", DIRECTION, NOBODY, "derived", "real direction of the last movement"),
+    _e("actual.travelled", LENGTH, NOBODY, "derived", "real distance run since the passage"),
+    _e("est.front", LENGTH, OB, "derived", "estimated front end (LRBG frame; passage frame when the passage is unknown)"),
+    _e("est.front_passage", LENGTH, OB, "derived", "estimated front end in the passage frame (positive = way of the passage)"),
+    _e("est.rear", LENGTH, OB, "derived", "estimated rear end (est.front less the length along the estimated orientation)"),
+    _e("est.orientation", DIRECTION, OB, "derived", "train orientation as the onboard knows it"),
+    _e("est.motion", DIRECTION, OB, "derived", "direction of the last movement as the onboard knows it"),
+    _e("est.travelled", LENGTH, OB, "derived", "measured distance since the passage (odometer sum)"),
+    _e("est.bound_over", LENGTH, OB, "derived", "over-reading bound at est.travelled: odometry_over.fixed + rate * est.travelled"),
+    _e("est.bound_under", LENGTH, OB, "derived", "under-reading bound at est.travelled"),
+    _e("est.q_dlrbg", DIRECTION, OB, "onboard-output", "onboard formula q_dlrbg, before the wire"),
+    _e("est.d_lrbg", LENGTH, OB, "onboard-output", "onboard formula d_lrbg, unrounded"),
+    _e("est.q_dirlrbg", DIRECTION, OB, "onboard-output", "onboard formula q_dirlrbg, before the wire"),
+    _e("est.q_dirtrain", DIRECTION, OB, "onboard-output", "onboard formula q_dirtrain, before the wire"),
+    _e("est.l_doubtover", LENGTH, OB, "onboard-output", "onboard formula l_doubtover, unrounded"),
+    _e("est.l_doubtunder", LENGTH, OB, "onboard-output", "onboard formula l_doubtunder, unrounded"),
+    _e("report.q_dlrbg", DIRECTION, TS, "wire", "Q_DLRBG as sent"),
+    _e("report.q_dirlrbg", DIRECTION, TS, "wire", "Q_DIRLRBG as sent"),
+    _e("report.q_dirtrain", DIRECTION, TS, "wire", "Q_DIRTRAIN as sent"),
+    _e("report.d_lrbg", LENGTH, NOBODY, "wire", "D_LRBG rounded to the step (a length)"),
+    _e("report.l_doubtover", LENGTH, NOBODY, "wire", "L_DOUBTOVER rounded to the step"),
+    _e("report.l_doubtunder", LENGTH, NOBODY, "wire", "L_DOUBTUNDER rounded to the step"),
+    _e("report.q_scale", LENGTH, TS, "wire", "the distance step used (10 cm, 1 m or 10 m)"),
+    _e("report.in_range", BOOL, TS, "wire", "all three distance codes are at most 32766"),
+    _e("report.code.d_lrbg", COUNT, TS, "wire", "D_LRBG packet integer (32767 = unknown or out of range)"),
+    _e("report.code.l_doubtover", COUNT, TS, "wire", "L_DOUBTOVER packet integer"),
+    _e("report.code.l_doubtunder", COUNT, TS, "wire", "L_DOUBTUNDER packet integer"),
+    _e("report.code.q_dlrbg", COUNT, TS, "wire", "Q_DLRBG code: 0 reverse, 1 nominal, 2 unknown"),
+    _e("report.code.q_dirlrbg", COUNT, TS, "wire", "Q_DIRLRBG code"),
+    _e("report.code.q_dirtrain", COUNT, TS, "wire", "Q_DIRTRAIN code"),
+    _e("report.code.q_scale", COUNT, TS, "wire", "Q_SCALE code: 0 = 10 cm, 1 = 1 m, 2 = 10 m"),
+    _e("rbc.d_lrbg", LENGTH, TS, "wire", "D_LRBG as the trackside reads it (code times step)"),
+    _e("rbc.l_doubtover", LENGTH, TS, "wire", "L_DOUBTOVER as the trackside reads it"),
+    _e("rbc.l_doubtunder", LENGTH, TS, "wire", "L_DOUBTUNDER as the trackside reads it"),
+    _e("rbc.placed", BOOL, TS, "wire", "no distance code is 32767 and no qualifier is unknown"),
+    _e("rbc.est_front", LENGTH, TS, "trackside-output", "trackside formula est_front"),
+    _e("rbc.max_safe_front", LENGTH, TS, "trackside-output", "trackside formula max_safe_front"),
+    _e("rbc.min_safe_front", LENGTH, TS, "trackside-output", "trackside formula min_safe_front"),
+    _e("rbc.min_safe_rear", LENGTH, TS, "trackside-output", "trackside formula min_safe_rear"),
+]}
+
+# Per-leg names: leg.FIELD inside a quantifier, legs[i].FIELD outside.
+LEG = {e.name: e for e in [
+    _e("index", COUNT, OB, "derived", "the leg's number, from 1"),
+    _e("cab_change", BOOL, OB, "input", "the active cab changes (at standstill) before this leg"),
+    _e("running", RUNNING, OB, "input", "forward or backward relative to the active cab"),
+    _e("distance", LENGTH, NOBODY, "hidden-input", "real distance run in the leg"),
+    _e("odometer", LENGTH, OB, "input", "distance the odometer measured in the leg"),
+    _e("orientation", DIRECTION, OB, "derived", "train orientation during the leg, as the onboard knows it"),
+    _e("motion", DIRECTION, OB, "derived", "direction of movement in the leg, as the onboard knows it"),
+    _e("actual_orientation", DIRECTION, NOBODY, "derived", "real train orientation during the leg"),
+    _e("actual_motion", DIRECTION, NOBODY, "derived", "real direction of movement in the leg"),
+    _e("actual_front", LENGTH, NOBODY, "derived", "real front end after the leg"),
+    _e("est_front", LENGTH, OB, "derived", "estimated front end after the leg"),
+]}
+
+ONBOARD_OUTPUTS = {"q_dlrbg": DIRECTION, "d_lrbg": LENGTH, "q_dirlrbg": DIRECTION,
+                   "q_dirtrain": DIRECTION, "l_doubtover": LENGTH, "l_doubtunder": LENGTH}
+TRACKSIDE_OUTPUTS = {"est_front": LENGTH, "max_safe_front": LENGTH, "min_safe_front": LENGTH,
+                     "min_safe_rear": LENGTH}
+
+# The designs under assessment when a pack does not override them (DESIGN 4.4, 4.5), written
+# in the rule language itself so that they are checked, shown and encoded like any formula.
+DEFAULT_ONBOARD = {
+    "q_dlrbg": "side(est.front)",
+    "d_lrbg": "abs(est.front)",
+    "q_dirlrbg": "est.orientation",
+    "q_dirtrain": "est.motion",
+    # SUBSET-026 3.6.4.1.5 and 7.5.1.43/44: over-reading behind, under-reading ahead, along the
+    # orientation; a move against the orientation swaps which bound applies.
+    "l_doubtover": ("lrbg.locacc"
+                    " + (if passage.seen == est.orientation or any(l in legs: l.motion == est.orientation)"
+                    " then est.bound_over else 0 m)"
+                    " + (if passage.seen == flip(est.orientation) or any(l in legs: l.motion == flip(est.orientation))"
+                    " then est.bound_under else 0 m)"),
+    "l_doubtunder": ("lrbg.locacc"
+                     " + (if passage.seen == est.orientation or any(l in legs: l.motion == est.orientation)"
+                     " then est.bound_under else 0 m)"
+                     " + (if passage.seen == flip(est.orientation) or any(l in legs: l.motion == flip(est.orientation))"
+                     " then est.bound_over else 0 m)"),
+}
+DEFAULT_TRACKSIDE = {
+    "est_front": "along(report.q_dlrbg, rbc.d_lrbg)",
+    "max_safe_front": "rbc.est_front + along(report.q_dirlrbg, rbc.l_doubtunder)",
+    "min_safe_front": "rbc.est_front - along(report.q_dirlrbg, rbc.l_doubtover)",
+    "min_safe_rear": "rbc.min_safe_front - along(report.q_dirlrbg, train.length)",
+}
+
+Q_SCALES = {"10 cm": 0, "1 m": 1, "10 m": 2}  # Q_SCALE codes, SUBSET-026 7.5.1.129
+ROUNDINGS = ("widen", "nearest", "down")
+MAX_CODE = 32766  # largest valid distance code; 32767 = unknown (SUBSET-026 7.5.1.13)
+UNKNOWN_CODE = 32767
