@@ -46,34 +46,43 @@ class _Budget:
 
 
 class _Session:
-    """One solver over one encoding, with counted, budgeted checks."""
+    """Budgeted checks over one encoding.
+
+    Every check runs in a new solver (same context) over the base constraints, the facts
+    fixed so far and the question asked. z3 answers these one-shot queries with its
+    non-incremental engine, which here is orders of magnitude faster than its incremental
+    one (a witness check went from 30 s to 0.01 s); it also keeps each answer independent of
+    the history of earlier checks.
+    """
 
     def __init__(self, enc: Encoding, rlimit: int, budget: _Budget):
         self.enc = enc
-        self.s = z3.Solver(ctx=enc.ctx)
-        self.s.set("rlimit", rlimit)
+        self.rlimit = rlimit
         self.budget = budget
         self.checks = 0
-        self.s.add(*enc.constraints)
-        self._added = len(enc.constraints)
+        self.used = 0
+        self.facts: list = []
+        self.s = None
 
     def check(self, *assumptions):
-        self.s.set("timeout", self.budget.left_ms())
+        s = z3.Solver(ctx=self.enc.ctx)
+        s.set("rlimit", self.rlimit)
+        s.set("timeout", self.budget.left_ms())
+        s.add(*self.enc.constraints, *self.facts, *assumptions)
         self.checks += 1
-        # constraints created while encoding later terms (floor variables) must be present
-        if len(self.enc.constraints) > self._added:
-            self.s.add(*self.enc.constraints[self._added:])
-            self._added = len(self.enc.constraints)
-        return self.s.check(*assumptions)
+        r = s.check()
+        try:
+            self.used += int(s.statistics().get_key_value("rlimit count"))
+        except z3.Z3Exception:
+            pass
+        self.s = s
+        return r
 
     def add(self, *c):
-        self.s.add(*c)
+        self.facts.extend(c)
 
     def rlimit_used(self) -> int:
-        try:
-            return int(self.s.statistics().get_key_value("rlimit count"))
-        except z3.Z3Exception:
-            return 0
+        return self.used
 
 
 def _fraction(v) -> Fraction:
