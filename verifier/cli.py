@@ -87,12 +87,19 @@ def cmd_check(args) -> int:
     input_errors = any(d.severity == "error" for d in diags)
     opts = CheckOptions(legs=args.legs, rules=tuple(args.rule or ()), timeout=args.timeout,
                         rlimit=args.rlimit, out=None if args.no_files else Path(args.out))
+    fmt = "json" if args.json else args.format
+    if args.report:
+        from verifier.evidence.report import ensure_ours
+        ensure_ours(Path(args.report))  # refuse a foreign directory before any work
     progress = _Progress(sys.stderr.isatty() and not args.json)
     try:
         results = check_packs(packs, opts, progress)
     finally:
         progress.clear()
-    if args.json:
+    if fmt in ("junit", "sarif"):
+        from verifier.evidence.ciformats import render
+        print(render(fmt, results, diags), end="")
+    elif fmt == "json":
         from verifier.engine import VERDICTS
         counts = dict.fromkeys(VERDICTS, 0)
         for p in results:
@@ -105,6 +112,10 @@ def cmd_check(args) -> int:
         print(json.dumps(doc, indent=2, sort_keys=True))
     else:
         print(_table(results, diags))
+    if args.report:
+        from verifier.evidence.report import write_report
+        page = write_report(Path(args.report), packs, results, diags, opts)
+        print(f"report: {page.as_posix()}", file=sys.stderr)
     return exit_code(results, input_errors)
 
 
@@ -121,6 +132,15 @@ def cmd_replay(args) -> int:
         counts[o.status] = counts.get(o.status, 0) + 1
     print("summary: " + (", ".join(f"{v} {k}" for k, v in sorted(counts.items())) or "nothing replayed"))
     return EXIT_OK if all(o.status == "still violated" for o in outcomes) else EXIT_FAIL
+
+
+def cmd_show(args) -> int:
+    from verifier.evidence.story import show
+    text, svg = show(args.file, pack_path=args.pack, svg=args.svg)
+    print(text)
+    if svg:
+        print(f"diagram: {svg}", file=sys.stderr)
+    return EXIT_OK
 
 
 def cmd_simulate(args) -> int:
@@ -156,6 +176,11 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--rlimit", type=int, metavar="N", help="deterministic solver budget per check (default 500000000)")
     c.add_argument("--out", default="counterexamples", metavar="DIR", help="where counterexample files go (default: counterexamples/)")
     c.add_argument("--no-files", action="store_true", help="write no counterexample files")
+    c.add_argument("--format", choices=("table", "json", "junit", "sarif"), default="table",
+                   help="output on stdout: table (default), json (as --json), junit (XML, one test "
+                        "case per rule) or sarif (SARIF 2.1.0)")
+    c.add_argument("--report", metavar="DIR", help="also write an evidence report (index.html, "
+                   "manifest.json, counterexamples) into DIR, which must be new, empty or a report")
     c.set_defaults(func=cmd_check)
 
     r = sub.add_parser("replay", help="re-run archived counterexamples against today's rules",
@@ -172,6 +197,18 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--pack", required=True, metavar="PACK", help="the pack whose designs and rules to apply")
     s.add_argument("--legs", type=int, metavar="K", help="bound used for the scope check")
     s.set_defaults(func=cmd_simulate)
+
+    w = sub.add_parser("show", help="explain a counterexample file in words, after re-checking it",
+                       description="Re-simulate the recorded world under its pack, check every "
+                                   "recorded value, then tell the story of the counterexample. "
+                                   "Exit 2 when the file is not a counterexample, of a newer "
+                                   "format, or no longer matches its own recorded values.")
+    w.add_argument("file", metavar="FILE")
+    w.add_argument("--pack", metavar="PACK", help="the pack the file was found with (default: "
+                   "its recorded path, from here or a folder above the file)")
+    w.add_argument("--svg", nargs="?", const="", metavar="OUT", help="also write the diagram: "
+                   "beside FILE (no value), to OUT, or to stdout instead of the story (-)")
+    w.set_defaults(func=cmd_show)
     return p
 
 

@@ -15,7 +15,7 @@ import attrs
 
 from verifier.check.model import Pack, Rule
 from verifier.errors import UsageError
-from verifier.evidence import cexfile
+from verifier.evidence import cexfile, diagram
 from verifier.world.scenario import fmt, world_from_flat, world_to_data
 from verifier.world.sim import State, applies, evaluate, scope_problems
 
@@ -126,6 +126,7 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions) -> RuleResult:
                             minimal=solved.minimal)
         target = cexfile.cex_path(opts.out, pack, rule)
         cexfile.write_atomic(target, cexfile.dumps(doc))
+        diagram.write_beside(target, doc, rule, st)
         path = target.as_posix()
     failed = cexfile.failed_part(rule, st)
     msg = ""

@@ -1,0 +1,423 @@
+"""The diagram of a counterexample (SVG), written beside its JSON file and by ``show --svg``.
+
+One horizontal axis: the LRBG frame in metres (positive = the group's nominal direction, to the
+right). From top to bottom: the metre scale; the group with its balises numbered by N_PIG and an
+arrow for its nominal direction; one row per stage of the train (the detection instant, then the
+end of each leg) with the real train as a bar whose active front end carries a black wedge, and
+the estimated front as a hollow diamond; the trackside row with the reported interval (min to
+max safe front, hatched), the trackside's estimated front and the real front as a thick line;
+then the failed part of ``expect`` in words, a magnified inset when the margin that decides the
+verdict is under 1 % of the axis, and a legend. Every meaning is carried by a shape or a word,
+never by colour alone.
+
+Plain SVG text, no floats: every coordinate is an exact rational rounded to 0.01 px, so the same
+file gives byte-identical output.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from fractions import Fraction
+from html import escape
+from pathlib import Path
+
+from verifier.check.model import Rule
+from verifier.evidence import cexfile
+from verifier.evidence.story import _front_at_detection, failed_detail, interval_words, m, value_words
+from verifier.lang.ast import LENGTH
+from verifier.world.scenario import fmt
+from verifier.world.sim import State
+
+F = Fraction
+WIDTH = 960
+X0, X1 = 210, 930            # the plot area (left column holds the row labels)
+FONT = "DejaVu Sans, Verdana, Arial, sans-serif"
+INK, GREY, LIGHT, ACCENT = "#1a1a1a", "#5c5c5c", "#d9d9d9", "#a3001b"
+CHAR = F(68, 10)             # rough width of one character at 12 px, for label layout
+INSET_SHARE = F(1, 100)      # margins under 1 % of the axis get a magnified inset
+
+
+def P(v) -> str:
+    """A coordinate: exact, rounded to 0.01 px, no float ever."""
+    return fmt(round(F(v), 2))
+
+
+def _t(x, y, text, size=12, anchor="start", weight=None, fill=INK, italic=False) -> str:
+    extra = f' font-weight="{weight}"' if weight else ""
+    extra += ' font-style="italic"' if italic else ""
+    return (f'<text x="{P(x)}" y="{P(y)}" font-size="{size}" text-anchor="{anchor}" '
+            f'fill="{fill}"{extra}>{escape(str(text), quote=False)}</text>')
+
+
+def _nice_step(span: Fraction, target: int = 8) -> Fraction:
+    raw = span / target
+    k = math.floor(math.log10(raw)) if raw > 0 else 0
+    base = F(10) ** k
+    for mult in (1, 2, 5, 10):
+        if base * mult >= raw:
+            return base * mult
+    return base * 10  # pragma: no cover
+
+
+class Axis:
+    def __init__(self, values, x0=X0, x1=X1, pad_min=F(1)):
+        lo, hi = min(values), max(values)
+        span = hi - lo
+        pad = max(span * F(6, 100), pad_min)
+        lo, hi = lo - pad, hi + pad
+        self.step = _nice_step(hi - lo)
+        self.lo = math.floor(lo / self.step) * self.step
+        self.hi = math.ceil(hi / self.step) * self.step
+        self.x0, self.x1 = F(x0), F(x1)
+
+    @property
+    def span(self) -> Fraction:
+        return self.hi - self.lo
+
+    def x(self, v) -> Fraction:
+        return self.x0 + (F(v) - self.lo) * (self.x1 - self.x0) / self.span
+
+    def ticks(self):
+        t = self.lo
+        while t <= self.hi:
+            yield t
+            t += self.step
+
+
+def _label_layout(items, x_min, x_max, gap=8):
+    """Place labels (x, text) on levels so that none overlap; returns (x, anchor, level, text)."""
+    placed: list = []
+    levels: dict = {}
+    for x, text in sorted(items, key=lambda it: (it[0], it[1])):
+        w = len(text) * CHAR
+        left = min(max(x - w / 2, F(x_min)), F(x_max) - w)
+        level = 0
+        while any(not (left + w + gap <= a or b + gap <= left) for a, b in levels.get(level, [])):
+            level += 1
+        levels.setdefault(level, []).append((left, left + w))
+        placed.append((left + w / 2, level, text))
+    return placed
+
+
+def _sign(d) -> int:
+    return -1 if d.word == "reverse" else 1
+
+
+def _slug(text: str) -> str:
+    return re.sub(r"[^a-z0-9]+", "-", text.lower()).strip("-")
+
+
+def render(doc: dict, rule: Rule, st: State) -> str:
+    """The SVG text for one counterexample (``doc`` as written by cexfile.build)."""
+    w, g = st.world, st.get
+    uid = "d-" + _slug(f"{doc['pack']['name']}-{rule.id}")
+    known = g("passage.seen").word != "unknown"
+    placed = bool(g("rbc.placed"))
+
+    # the stages: (title, detail lines, real front, orientation sign, est front or None)
+    f0, e0 = _front_at_detection(st)
+    o0 = _sign(w.direction) * (1 if w.running.word == "forward" else -1)
+    stages = [("At detection",
+               [f"passed {w.direction.word}, {'front' if w.running.word == 'forward' else 'rear'} first",
+                f"faces {'nominal' if o0 > 0 else 'reverse'}"],
+               f0, o0, e0 if known else None)]
+    for i, (leg, d) in enumerate(zip(w.legs, st.legs), 1):
+        what = ("cab change, then " if leg.cab_change else "") + leg.running.word
+        stages.append((f"After leg {i}",
+                       [f"{what}, moving {d['actual_motion'].word}",
+                        f"real {m(leg.distance)}, odometer {m(leg.odometer)}"],
+                       d["actual_front"], _sign(d["actual_orientation"]),
+                       d["est_front"] if known else None))
+
+    positions = [F(0), w.offset, -w.locacc, w.locacc]
+    for _, _, front, o, est in stages:
+        positions += [front, front - o * w.length]
+        if est is not None:
+            positions.append(est)
+    if placed:
+        positions += [g("rbc.min_safe_front"), g("rbc.max_safe_front"), g("rbc.est_front")]
+    positions.append(g("actual.front"))
+    axis = Axis(positions)
+    X = axis.x
+
+    out: list[str] = []
+    add = out.append
+    y = F(0)
+
+    # ---- header
+    add(f'<defs><pattern id="{uid}-hatch" width="6" height="6" patternUnits="userSpaceOnUse" '
+        f'patternTransform="rotate(45)"><line x1="0" y1="0" x2="0" y2="6" stroke="{GREY}" '
+        f'stroke-width="1.4"/></pattern></defs>')
+    verdict = f"{doc['pack']['name']} / {rule.id}: violated (up to {doc['bound']} legs)"
+    add(_t(16, 26, verdict, size=16, weight="bold"))
+    add(_t(16, 46, _clip(rule.title, 130), size=12, fill=GREY))
+    y = F(64)
+
+    # ---- metre scale
+    y_axis = y + 22
+    add(_t(16, y_axis + 4, "metres, LRBG frame", size=12, weight="bold"))
+    add(f'<line x1="{P(X0)}" y1="{P(y_axis)}" x2="{P(X1)}" y2="{P(y_axis)}" stroke="{INK}" stroke-width="1"/>')
+    for t in axis.ticks():
+        add(f'<line x1="{P(X(t))}" y1="{P(y_axis - 4)}" x2="{P(X(t))}" y2="{P(y_axis + 4)}" stroke="{INK}" stroke-width="1"/>')
+        add(_t(X(t), y_axis - 8, fmt(t), size=11, anchor="middle"))
+    y = y_axis + 12
+
+    # ---- the group
+    y_grp = y + 26
+    add(_t(16, y_grp - 4, "The group (LRBG)", size=12, weight="bold"))
+    add(_t(16, y_grp + 11, f"{w.balises} balise{'s' if w.balises != 1 else ''}, {w.read} read, "
+                           f"{'linked' if w.linked else 'not linked'}", size=11))
+    add(_t(16, y_grp + 25, f"Q_LOCACC {m(w.locacc)}", size=11))
+    x_org = X(0)
+    origin_top = y_grp - 14
+    # balises: squares numbered by N_PIG, N_PIG 0 at the origin, the others on the nominal side
+    pitch = 18
+    for n in range(w.balises):
+        bx = x_org + n * pitch - 6
+        add(f'<rect x="{P(bx)}" y="{P(y_grp - 6)}" width="12" height="12" fill="#ffffff" '
+            f'stroke="{INK}" stroke-width="1.4"/>')
+        add(_t(bx + 6, y_grp + 4, str(n), size=9, anchor="middle"))
+    # the nominal direction: an arrow above the group, from N_PIG 0 towards increasing N_PIG
+    ya = y_grp - 15
+    ax1 = x_org + max(40, (w.balises - 1) * pitch + 16)
+    add(f'<line x1="{P(x_org)}" y1="{P(ya)}" x2="{P(ax1 - 8)}" y2="{P(ya)}" stroke="{INK}" stroke-width="1.6"/>')
+    add(f'<path d="M{P(ax1)} {P(ya)} L{P(ax1 - 10)} {P(ya - 5)} L{P(ax1 - 10)} {P(ya + 5)} Z" fill="{INK}"/>')
+    if ax1 + 4 + 7 * CHAR < WIDTH - 4:
+        add(_t(ax1 + 4, ya + 4, "nominal", size=10))
+    else:
+        add(_t(x_org - 6, ya + 4, "nominal", size=10, anchor="end"))
+    labels = []
+    yb = y_grp + 14
+    if w.locacc:
+        # location accuracy: a bracket from -locacc to +locacc below the balises
+        add(f'<path d="M{P(X(-w.locacc))} {P(yb - 5)} V{P(yb)} H{P(X(w.locacc))} V{P(yb - 5)}" '
+            f'fill="none" stroke="{GREY}" stroke-width="1.2"/>')
+        labels.append((x_org, f"Q_LOCACC ± {m(w.locacc)}"))
+    if w.offset:
+        xm = X(w.offset)
+        add(f'<path d="M{P(xm)} {P(yb)} L{P(xm - 5)} {P(yb + 8)} L{P(xm + 5)} {P(yb + 8)} Z" '
+            f'fill="#ffffff" stroke="{INK}" stroke-width="1.2"/>')
+        labels.append((xm, f"real mark {m(w.offset)}"))
+    deepest = -1
+    for lx, level, text in _label_layout(labels, X0 - 10, WIDTH - 4):
+        add(_t(lx, yb + 20 + 12 * level, text, size=10, anchor="middle", fill=GREY if text.startswith("Q_") else INK))
+        deepest = max(deepest, level)
+    y = yb + 20 + 12 * deepest + 10
+
+    # ---- the train, stage by stage
+    for title, details, front, o, est in stages:
+        y_bar = y + 14
+        rear = front - o * w.length
+        xa, xb = sorted((X(front), X(rear)))
+        add(_t(16, y_bar - 1, title, size=12, weight="bold"))
+        for k, line in enumerate(details):
+            add(_t(16, y_bar + 13 + 13 * k, line, size=11))
+        add(f'<rect x="{P(xa)}" y="{P(y_bar - 6)}" width="{P(max(xb - xa, 1))}" height="12" '
+            f'fill="{LIGHT}" stroke="{INK}" stroke-width="1"/>')
+        xf = X(front)
+        add(f'<path d="M{P(xf)} {P(y_bar)} L{P(xf - o * 11)} {P(y_bar - 8)} L{P(xf - o * 11)} {P(y_bar + 8)} Z" fill="{INK}"/>')
+        labels = [(xf, f"front {m(front)}")]
+        if est is not None:
+            xe = X(est)
+            add(_diamond(xe, y_bar - 14))
+            if est == front:
+                labels = [(xf, f"front = est. {m(front)}")]
+            else:
+                labels.append((xe, f"est. {m(est)}"))
+        levels = _label_layout(labels, X0 - 10, WIDTH - 4)
+        deepest = 0
+        for lx, level, text in levels:
+            add(_t(lx, y_bar + 22 + 13 * level, text, size=11, anchor="middle"))
+            deepest = max(deepest, level)
+        y = y_bar + max(22 + 13 * deepest, 13 * len(details)) + 18
+    y_last_stage = y
+
+    # ---- the trackside row
+    y_rep = y + 18
+    add(_t(16, y_rep - 1, "Trackside view", size=12, weight="bold"))
+    real = g("actual.front")
+    if placed:
+        lo, hi = g("rbc.min_safe_front"), g("rbc.max_safe_front")
+        a, b = X(min(lo, hi)), X(max(lo, hi))
+        add(_t(16, y_rep + 13, "reported interval,", size=11))
+        add(_t(16, y_rep + 26, "real front", size=11))
+        add(f'<rect x="{P(a)}" y="{P(y_rep - 9)}" width="{P(max(b - a, 1))}" height="18" '
+            f'fill="url(#{uid}-hatch)" stroke="{INK}" stroke-width="1.2"/>')
+        for xv in (a, b):
+            add(f'<line x1="{P(xv)}" y1="{P(y_rep - 14)}" x2="{P(xv)}" y2="{P(y_rep + 14)}" stroke="{INK}" stroke-width="2"/>')
+        xe = X(g("rbc.est_front"))
+        add(_diamond(xe, y_rep))
+        labels = [(X(lo), f"min safe front {m(lo)}"), (X(hi), f"max safe front {m(hi)}"),
+                  (xe, f"est. {m(g('rbc.est_front'))}")]
+    else:
+        add(_t(16, y_rep + 13, "no interval:", size=11))
+        add(_t(X0, y_rep + 4, "The report does not place the train (a code is 32767 or a qualifier "
+                              "unknown).", size=11, italic=True))
+        labels = []
+    xr = X(real)
+    add(f'<line x1="{P(xr)}" y1="{P(y_rep - 18)}" x2="{P(xr)}" y2="{P(y_rep + 18)}" '
+        f'stroke="{INK}" stroke-width="3"/>')
+    add(f'<circle cx="{P(xr)}" cy="{P(y_rep)}" r="4.5" fill="#ffffff" stroke="{INK}" stroke-width="2"/>')
+    labels.append((xr, f"real front {m(real)}"))
+    deepest = 0
+    for lx, level, text in _label_layout(labels, X0 - 10, WIDTH - 4):
+        bold = "bold" if text.startswith("real front") else None
+        add(_t(lx, y_rep + 30 + 13 * level, text, size=11, anchor="middle", weight=bold))
+        deepest = max(deepest, level)
+    y = y_rep + 30 + 13 * deepest + 14
+
+    # ---- the verdict in words
+    fd = failed_detail(rule, st)
+    lines = []
+    if placed:
+        lines.append(interval_words(real, g("rbc.min_safe_front"), g("rbc.max_safe_front")))
+    if fd and "op" in fd:
+        (lt, lv, lty), (rt, rv, rty) = fd["left"], fd["right"]
+        lines.append(f"Failed: {lt} = {value_words(lv, lty)} {fd['op']} {rt} = {value_words(rv, rty)} is false.")
+    elif fd:
+        lines.append(f"Failed: {fd['text']} is false.")
+    k = 0
+    for line in lines:
+        failed = line.startswith("Failed")
+        for part in _wrap(line, 128):
+            add(_t(16, y + 14 + 17 * k, part, size=12, weight="bold" if failed else None,
+                   fill=ACCENT if failed else INK))
+            k += 1
+    y = y + 14 + 17 * k
+
+    # ---- the magnified inset
+    if fd and "op" in fd:
+        (lt, lv, lty), (rt, rv, rty) = fd["left"], fd["right"]
+        if LENGTH in (lty, rty) and isinstance(lv, F) and isinstance(rv, F) \
+                and abs(lv - rv) < INSET_SHARE * axis.span:
+            y = _inset(out, uid, axis, (lt, lv), (rt, rv), fd["op"], y + 10,
+                       link=(y_rep if all(v in positions for v in (lv, rv)) else None))
+
+    # ---- legend
+    y = _legend(out, uid, y + 16)
+    # the origin, dotted, through the group and train rows
+    out.insert(0, f'<line x1="{P(x_org)}" y1="{P(origin_top)}" x2="{P(x_org)}" y2="{P(y_last_stage)}" '
+                  f'stroke="{GREY}" stroke-width="1" stroke-dasharray="2 3"/>')
+    height = y + 12
+    desc = (f"Counterexample of rule {rule.id} of pack {doc['pack']['name']}: "
+            + " ".join(lines))
+    head = (f'<svg xmlns="http://www.w3.org/2000/svg" class="cex-diagram" id="{uid}" width="{WIDTH}" '
+            f'height="{P(height)}" viewBox="0 0 {WIDTH} {P(height)}" role="img" '
+            f'aria-labelledby="{uid}-title {uid}-desc" font-family="{FONT}">\n'
+            f'<title id="{uid}-title">{escape(verdict, quote=False)}</title>\n'
+            f'<desc id="{uid}-desc">{escape(desc, quote=False)}</desc>\n'
+            f'<rect x="0" y="0" width="{WIDTH}" height="{P(height)}" fill="#ffffff"/>')
+    return head + "\n" + "\n".join(out) + "\n</svg>\n"
+
+
+def _wrap(text: str, n: int) -> list:
+    words, lines, cur = text.split(" "), [], ""
+    for word in words:
+        if cur and len(cur) + 1 + len(word) > n:
+            lines.append(cur)
+            cur = "  " + word
+        else:
+            cur = f"{cur} {word}" if cur else word
+    return lines + [cur]
+
+
+def _clip(text: str, n: int) -> str:
+    return text if len(text) <= n else text[: n - 3] + "..."
+
+
+def _diamond(x, y, r=5) -> str:
+    return (f'<path d="M{P(x)} {P(y - r)} L{P(x + r)} {P(y)} L{P(x)} {P(y + r)} L{P(x - r)} {P(y)} Z" '
+            f'fill="#ffffff" stroke="{INK}" stroke-width="1.6"/>')
+
+
+def _inset(out, uid, axis: Axis, left, right, op, y, link):
+    """A box with its own scale around the two sides of the deciding comparison."""
+    (lt, lv), (rt, rv) = left, right
+    mid = (lv + rv) / 2
+    half = max(abs(lv - rv) * 2, F(5, 1000))
+    sub = Axis([mid - half, mid + half], x0=X0 + 40, x1=X1 - 40, pad_min=F(0))
+    box_top = y
+    body: list = []
+    ya = box_top + 52
+    body.append(f'<line x1="{P(sub.x0)}" y1="{P(ya)}" x2="{P(sub.x1)}" y2="{P(ya)}" stroke="{INK}" stroke-width="1"/>')
+    for t in sub.ticks():
+        body.append(f'<line x1="{P(sub.x(t))}" y1="{P(ya - 3)}" x2="{P(sub.x(t))}" y2="{P(ya + 3)}" stroke="{INK}" stroke-width="1"/>')
+        body.append(_t(sub.x(t), ya + 16, fmt(t), size=10, anchor="middle", fill=GREY))
+    xl, xr = sub.x(lv), sub.x(rv)
+    for xv in (xl, xr):
+        body.append(f'<line x1="{P(xv)}" y1="{P(ya - 22)}" x2="{P(xv)}" y2="{P(ya + 6)}" stroke="{INK}" stroke-width="2.5"/>')
+    if xl != xr:
+        a, b = sorted((xl, xr))
+        yy = ya - 14
+        body.append(f'<line x1="{P(a + 7)}" y1="{P(yy)}" x2="{P(b - 7)}" y2="{P(yy)}" stroke="{INK}" stroke-width="1.2"/>')
+        body.append(f'<path d="M{P(a + 1)} {P(yy)} L{P(a + 8)} {P(yy - 4)} L{P(a + 8)} {P(yy + 4)} Z" fill="{INK}"/>')
+        body.append(f'<path d="M{P(b - 1)} {P(yy)} L{P(b - 8)} {P(yy - 4)} L{P(b - 8)} {P(yy + 4)} Z" fill="{INK}"/>')
+        body.append(_t((a + b) / 2, yy - 6, m(abs(lv - rv)), size=11, anchor="middle", weight="bold"))
+    labels = [(xl, f"{lt} = {m(lv)}"), (xr, f"{rt} = {m(rv)}")] if xl != xr else [(xl, f"{lt} = {rt} = {m(lv)}")]
+    deepest = 0
+    for lx, level, text in _label_layout(labels, X0 + 4, X1 - 4):
+        body.append(_t(lx, ya + 32 + 13 * level, text, size=11, anchor="middle"))
+        deepest = max(deepest, level)
+    h = 52 + 32 + 13 * deepest + 12
+    out.append(f'<rect x="{P(X0)}" y="{P(box_top)}" width="{P(X1 - X0)}" height="{P(h)}" fill="#ffffff" '
+               f'stroke="{INK}" stroke-width="1" stroke-dasharray="5 3"/>')
+    out.extend(body)
+    out.append(_t(16, box_top + 16, "Magnified", size=12, weight="bold"))
+    out.append(_t(16, box_top + 30, f"the deciding margin, {m(abs(lv - rv))},", size=11))
+    out.append(_t(16, box_top + 43, "is under 1 % of the axis", size=11))
+    out.append(_t(X0 + 8, box_top + 16, f"required: {lt} {op} {rt}; found {m(lv)} and {m(rv)}", size=11))
+    if link is not None:
+        out.append(_t(16, box_top + 56, "(dashed frame above)", size=11, fill=GREY))
+        xa = axis.x(mid) - 7
+        out.append(f'<rect x="{P(xa)}" y="{P(link - 18)}" width="14" height="36" fill="none" '
+                   f'stroke="{INK}" stroke-width="1" stroke-dasharray="3 2"/>')
+    return box_top + h
+
+
+def _legend(out, uid, y):
+    out.append(_t(16, y + 12, "Legend", size=12, weight="bold"))
+    items = [
+        ("bar", "real train (rear to front); black wedge = active front end"),
+        ("diamond", "estimated front (onboard, or trackside in the last row)"),
+        ("hatch", "reported interval: min safe front to max safe front"),
+        ("real", "real front at the end"),
+        ("balise", "balise, numbered by N_PIG (spacing not to scale)"),
+        ("arrow", "the group's nominal direction (N_PIG increasing)"),
+        ("origin", "origin: engineered location of balise N_PIG 0"),
+    ]
+    col_w = (X1 - X0) // 2
+    for k, (shape, text) in enumerate(items):
+        cx = X0 + (k % 2) * col_w
+        cy = y + 12 + (k // 2) * 20
+        if shape == "bar":
+            out.append(f'<rect x="{cx}" y="{cy - 6}" width="34" height="12" fill="{LIGHT}" stroke="{INK}"/>')
+            out.append(f'<path d="M{cx + 34} {cy} L{cx + 23} {cy - 8} L{cx + 23} {cy + 8} Z" fill="{INK}"/>')
+        elif shape == "diamond":
+            out.append(_diamond(cx + 17, cy))
+        elif shape == "hatch":
+            out.append(f'<rect x="{cx}" y="{cy - 8}" width="34" height="16" fill="url(#{uid}-hatch)" stroke="{INK}" stroke-width="1.2"/>')
+        elif shape == "real":
+            out.append(f'<line x1="{cx + 17}" y1="{cy - 9}" x2="{cx + 17}" y2="{cy + 9}" stroke="{INK}" stroke-width="3"/>')
+            out.append(f'<circle cx="{cx + 17}" cy="{cy}" r="4.5" fill="#ffffff" stroke="{INK}" stroke-width="2"/>')
+        elif shape == "balise":
+            out.append(f'<rect x="{cx + 11}" y="{cy - 6}" width="12" height="12" fill="#ffffff" stroke="{INK}" stroke-width="1.4"/>')
+            out.append(_t(cx + 17, cy + 4, "0", size=9, anchor="middle"))
+        elif shape == "arrow":
+            out.append(f'<line x1="{cx}" y1="{cy}" x2="{cx + 26}" y2="{cy}" stroke="{INK}" stroke-width="1.6"/>')
+            out.append(f'<path d="M{cx + 34} {cy} L{cx + 24} {cy - 5} L{cx + 24} {cy + 5} Z" fill="{INK}"/>')
+        else:
+            out.append(f'<line x1="{cx + 17}" y1="{cy - 9}" x2="{cx + 17}" y2="{cy + 9}" stroke="{GREY}" stroke-dasharray="2 3"/>')
+        out.append(_t(cx + 44, cy + 4, text, size=11))
+    return y + 12 + ((len(items) + 1) // 2) * 20
+
+
+def svg_path(json_path: Path) -> Path:
+    return json_path.with_suffix(".svg")
+
+
+def write_beside(json_path: Path, doc: dict, rule: Rule, st: State) -> Path:
+    """Write the diagram next to its counterexample file (same name, .svg)."""
+    target = svg_path(Path(json_path))
+    cexfile.write_atomic(target, render(doc, rule, st))
+    return target

@@ -1,0 +1,517 @@
+"""The story of a counterexample in plain words (``verifier show``), after checking the file.
+
+A counterexample file is evidence only if it still says what the tool found. So before a word is
+written, the recorded world is simulated afresh (the exact simulator of DESIGN 4) under the pack
+it was found with, and every recorded value (derived values, the failed part of ``expect``, the
+rule's text and hashes, the scope) is compared with the fresh one. A file edited by hand, or
+corrupted, is rejected with an error that names the first field at fault and its line in the
+file; it is never explained.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import re
+from fractions import Fraction
+from pathlib import Path
+
+import attrs
+
+from verifier.check.model import Pack, Rule
+from verifier.errors import Diagnostic, PackError
+from verifier.evidence import cexfile
+from verifier.lang import ast
+from verifier.lang.ast import LENGTH
+from verifier.world.scenario import fmt, world_from_data
+from verifier.world.vocab import Direction
+from verifier.world.sim import State, applies, compare, evaluate, scope_problems
+
+FORMAT_PREFIX = "verifier-counterexample/"
+# fields that are compared loosely: the tool that wrote the file and the caution wording may be
+# older than this verifier without making the evidence wrong
+LOOSE = ("tool", "caution")
+
+
+@attrs.frozen
+class Explained:
+    """A counterexample file that passed every check, with its fresh simulation."""
+
+    path: str
+    doc: dict
+    pack: Pack
+    rule: Rule
+    state: State = attrs.field(eq=False, repr=False)
+    checked: int          # how many recorded values were compared
+    text: str
+
+
+# ---- locating fields in the file -------------------------------------------------------------
+
+_NUM = re.compile(r"-?(?:0|[1-9]\d*)(?:\.\d+)?(?:[eE][-+]?\d+)?")
+
+
+def field_lines(text: str) -> dict:
+    """Where each field of a JSON text starts: path -> (line, column), 1-based. Paths are written
+    as in error messages: ``derived.actual.front``, ``world.legs[1].distance`` (arrays from 1,
+    like ``legs[i]`` in the rule language)."""
+    out: dict = {}
+    dec = json.JSONDecoder()
+
+    def where(pos: int) -> tuple:
+        line = text.count("\n", 0, pos) + 1
+        return line, pos - (text.rfind("\n", 0, pos) + 1) + 1
+
+    def ws(pos: int) -> int:
+        while pos < len(text) and text[pos] in " \t\r\n":
+            pos += 1
+        return pos
+
+    def value(pos: int, path: str) -> int:
+        pos = ws(pos)
+        ch = text[pos]
+        if ch == "{":
+            pos = ws(pos + 1)
+            if text[pos] == "}":
+                return pos + 1
+            while True:
+                pos = ws(pos)
+                key, end = json.decoder.scanstring(text, pos + 1)
+                sub = f"{path}.{key}" if path else key
+                out.setdefault(sub, where(pos))
+                pos = ws(end)
+                pos = value(pos + 1, sub)          # skip the colon
+                pos = ws(pos)
+                if text[pos] == ",":
+                    pos += 1
+                    continue
+                return pos + 1
+        if ch == "[":
+            pos = ws(pos + 1)
+            if text[pos] == "]":
+                return pos + 1
+            i = 1
+            while True:
+                pos = ws(pos)
+                sub = f"{path}[{i}]"
+                out.setdefault(sub, where(pos))
+                pos = ws(value(pos, sub))
+                if text[pos] == ",":
+                    pos += 1
+                    i += 1
+                    continue
+                return pos + 1
+        if ch == '"':
+            return json.decoder.scanstring(text, pos + 1)[1]
+        m = _NUM.match(text, pos)
+        if m:
+            return m.end()
+        for word in ("true", "false", "null"):
+            if text.startswith(word, pos):
+                return pos + len(word)
+        return dec.raw_decode(text, pos)[1]  # pragma: no cover - json.loads accepted the text
+
+    try:
+        value(0, "")
+    except (IndexError, ValueError):  # pragma: no cover - the text parsed as JSON before
+        pass
+    return out
+
+
+class _Doc:
+    """A parsed file with its text, for errors that point at a field."""
+
+    def __init__(self, shown: str, text: str, doc):
+        self.shown, self.text, self.doc = shown, text, doc
+        self._lines: dict | None = None
+
+    def error(self, field: str, message: str) -> PackError:
+        if self._lines is None:
+            self._lines = field_lines(self.text)
+        probe = field
+        while probe and probe not in self._lines:
+            probe = re.sub(r"(\[\d+\]|\.[^.\[]*)$", "", probe) if re.search(r"(\[\d+\]|\.)", probe) else ""
+        line, col = self._lines.get(probe, (1, 1))
+        src = self.text.splitlines()[line - 1] if self.text.splitlines() else None
+        return PackError([Diagnostic(self.shown, line, col, f"field '{field}': {message}",
+                                     source_line=src, length=len(field.rsplit(".", 1)[-1]) + 2)])
+
+
+# ---- reading and checking --------------------------------------------------------------------
+
+def read_file(path: Path) -> _Doc:
+    """Parse a counterexample file and check its format field (not yet its values)."""
+    shown = path.as_posix()
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        raise PackError([Diagnostic(shown, 1, 1, f"cannot read the file: {exc}")]) from None
+    try:
+        doc = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise PackError([Diagnostic(shown, exc.lineno, exc.colno,
+                                    f"not a counterexample file: not JSON ({exc.msg})")]) from None
+    d = _Doc(shown, text, doc)
+    if not isinstance(doc, dict) or "format" not in doc:
+        raise PackError([Diagnostic(shown, 1, 1, "not a counterexample file: it has no field 'format'")])
+    fmt_ = doc["format"]
+    if not isinstance(fmt_, str) or not fmt_.startswith(FORMAT_PREFIX):
+        raise d.error("format", f"{fmt_!r} is not a counterexample format (expected {cexfile.FORMAT!r})")
+    version = fmt_[len(FORMAT_PREFIX):]
+    mine = int(cexfile.FORMAT[len(FORMAT_PREFIX):])
+    if not version.isdigit():
+        raise d.error("format", f"{fmt_!r} has no version number (expected {cexfile.FORMAT!r})")
+    if int(version) > mine:
+        raise d.error("format", f"format version {int(version)} is newer than version {mine}, the "
+                                "newest this verifier reads; show it with a newer verifier")
+    if int(version) != mine:
+        raise d.error("format", f"format version {int(version)} is not read by this verifier "
+                                f"(it reads {cexfile.FORMAT!r})")
+    for field, kind in (("pack", dict), ("rule", dict), ("world", dict), ("derived", dict),
+                        ("bound", int), ("verdict", str), ("minimal", bool), ("scope", dict),
+                        ("tool", dict), ("caution", str)):
+        if field not in doc:
+            raise d.error(field, "missing from the file")
+        if not isinstance(doc[field], kind) or (kind is int and isinstance(doc[field], bool)):
+            raise d.error(field, f"must be {'a table' if kind is dict else kind.__name__}, "
+                                 f"got {json.dumps(doc[field])}")
+    for field in ("name", "path", "sha256"):
+        if not isinstance(doc["pack"].get(field), str):
+            raise d.error(f"pack.{field}", "missing or not a string")
+    if not isinstance(doc["rule"].get("id"), str):
+        raise d.error("rule.id", "missing or not a string")
+    if not isinstance(doc["tool"].get("solver"), str):
+        raise d.error("tool.solver", "missing or not a string")
+    if doc["verdict"] != "violated":
+        raise d.error("verdict", f"is {doc['verdict']!r}; a counterexample file records a violated rule")
+    return d
+
+
+def _find_pack(d: _Doc, path: Path, pack_path: str | None) -> Pack:
+    """The pack the counterexample was found with: --pack, else the recorded path relative to
+    the working directory or to a folder above the file; its sha256 must match."""
+    from verifier.loader import load_pack
+    recorded = d.doc["pack"]["path"]
+    want = d.doc["pack"]["sha256"]
+    if pack_path is not None:
+        candidates = [Path(pack_path)]
+    else:
+        rel = Path(recorded)
+        candidates = [rel] if rel.is_absolute() else (
+            [Path.cwd() / rel] + [a / rel for a in path.resolve().parents])
+    seen_other = None
+    for c in candidates:
+        if not c.is_file():
+            continue
+        digest = hashlib.sha256(c.read_bytes()).hexdigest()
+        if digest != want:
+            seen_other = seen_other or c
+            continue
+        return load_pack(c, pack_path if pack_path is not None else recorded)
+    if seen_other is not None:
+        raise d.error("pack.sha256", f"the pack {seen_other.as_posix()} has changed since this "
+                                     "counterexample was written (its sha256 differs); show "
+                                     "explains a file only against the pack it was found with "
+                                     "(give that version with --pack; `verifier replay` tells "
+                                     "whether today's pack still fails)")
+    raise d.error("pack.path", f"the pack {recorded} is not found (looked in the working "
+                               "directory and the folders above the file); give it with --pack")
+
+
+def _diff(path: str, recorded, fresh, out: list) -> None:
+    if isinstance(fresh, dict) and isinstance(recorded, dict):
+        for key in sorted(set(fresh) | set(recorded)):
+            sub = f"{path}.{key}" if path else key
+            if key not in recorded:
+                out.append((sub, "missing from the file (the fresh simulation has "
+                                 f"{json.dumps(fresh[key])})"))
+            elif key not in fresh:
+                out.append((sub, "is not a field of a counterexample file"))
+            else:
+                _diff(sub, recorded[key], fresh[key], out)
+        return
+    if isinstance(fresh, list) and isinstance(recorded, list):
+        if len(fresh) != len(recorded):
+            out.append((path, f"records {len(recorded)} entries; the fresh simulation has {len(fresh)}"))
+            return
+        for i, (r, f) in enumerate(zip(recorded, fresh), 1):
+            _diff(f"{path}[{i}]", r, f, out)
+        return
+    if recorded != fresh or type(recorded) is not type(fresh):
+        out.append((path, f"records {json.dumps(recorded)} but the recorded world, simulated "
+                          f"afresh, gives {json.dumps(fresh)}"))
+
+
+def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | None = None) -> Explained:
+    """Read, check and explain one counterexample file. ``pack`` (already loaded, as by
+    ``check --report``) or ``pack_path`` (``show --pack``) name the pack; else it is found."""
+    path = Path(path)
+    d = read_file(path)
+    doc = d.doc
+    try:
+        world = world_from_data(doc["world"])
+    except ValueError as exc:
+        raise d.error(_world_field(str(exc)), str(exc)) from None
+    if pack is None:
+        pack = _find_pack(d, path, pack_path)
+    elif pack.sha256 != doc["pack"]["sha256"]:
+        raise d.error("pack.sha256", f"the pack {pack.path} has changed since this "
+                                     "counterexample was written (its sha256 differs)")
+    try:
+        rule = pack.rule(doc["rule"]["id"])
+    except KeyError:
+        raise d.error("rule.id", f"pack {pack.name} has no rule {doc['rule']['id']!r}") from None
+    bound = doc["bound"]
+    if not len(world.legs) <= bound <= 8:
+        raise d.error("bound", f"is {bound}, but the world has {len(world.legs)} legs (the bound "
+                               "must be at least that and at most 8)")
+    st = State(pack, world)
+    try:
+        fresh = cexfile.build(pack, rule, st, verdict="violated", bound=bound,
+                              solver=doc["tool"]["solver"], minimal=doc["minimal"])
+    except (IndexError, ZeroDivisionError) as exc:
+        raise d.error("world", f"the recorded world cannot be simulated under the rule: {exc}") from None
+    diffs: list = []
+    for key in sorted(set(fresh) | set(doc)):
+        if key in LOOSE:
+            continue
+        if key not in fresh:
+            diffs.append((key, "is not a field of a counterexample file"))
+        else:
+            _diff(key, doc.get(key), fresh[key], diffs)
+    if diffs:
+        field, message = diffs[0]
+        more = f" ({len(diffs) - 1} other field{'s' if len(diffs) > 2 else ''} differ too)" if len(diffs) > 1 else ""
+        raise d.error(field, message + "; the file was edited or corrupted after it was written" + more)
+    problems = scope_problems(world, pack.scope, bound)
+    if problems:
+        raise d.error("world", "the recorded world is outside the pack's scope: " + "; ".join(problems))
+    if not applies(rule, st):
+        raise d.error("world", "the recorded world does not satisfy the rule's given")
+    if evaluate(rule.expect.node, st, {}):
+        raise d.error("failed", "the recorded world satisfies the rule's expect: it is no counterexample")
+    checked = _count_leaves({k: v for k, v in fresh.items() if k not in LOOSE})
+    text = story_text(doc, pack, rule, st, shown=path.as_posix(), checked=checked)
+    return Explained(path.as_posix(), doc, pack, rule, st, checked, text)
+
+
+def _world_field(message: str) -> str:
+    m = re.match(r"(world[\w.\[\]]*)", message)
+    return m.group(1).rstrip(".:") if m else "world"
+
+
+def _count_leaves(x) -> int:
+    if isinstance(x, dict):
+        return sum(_count_leaves(v) for v in x.values())
+    if isinstance(x, list):
+        return sum(_count_leaves(v) for v in x) or 1
+    return 1
+
+
+# ---- the story -------------------------------------------------------------------------------
+
+def m(x) -> str:
+    """A length in metres, exact."""
+    return f"{fmt(Fraction(x))} m"
+
+
+def signed(x) -> str:
+    x = Fraction(x)
+    return ("+" if x > 0 else "") + m(x)
+
+
+def _items(node: ast.Node) -> list:
+    if isinstance(node, ast.Binary) and node.op == "and":
+        return _items(node.left) + _items(node.right)
+    return [node]
+
+
+def failed_detail(rule: Rule, st: State) -> dict | None:
+    """The failed part of expect with the types of both sides (for units and the diagram):
+    {text, op, left: (text, value, type), right: (...)} or {text} for a plain Boolean."""
+    text = rule.expect.text
+    for item in _items(rule.expect.node):
+        if evaluate(item, st, {}):
+            continue
+        out = {"text": text[item.start:item.end]}
+        if isinstance(item, ast.Chain):
+            for op, a, b in zip(item.ops, item.operands, item.operands[1:]):
+                va, vb = evaluate(a, st, {}), evaluate(b, st, {})
+                if not compare(op, va, vb):
+                    out.update(op=op, left=(text[a.start:a.end], va, a.ty),
+                               right=(text[b.start:b.end], vb, b.ty))
+                    break
+        return out
+    return None
+
+
+def value_words(value, ty) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if hasattr(value, "word"):
+        return value.word
+    if ty == LENGTH:
+        return m(value)
+    return fmt(Fraction(value))
+
+
+def flip(d: Direction) -> Direction:
+    return {Direction.NOMINAL: Direction.REVERSE, Direction.REVERSE: Direction.NOMINAL}.get(d, d)
+
+
+def _dir_words(d) -> str:
+    return {"nominal": "nominal (increasing N_PIG)", "reverse": "reverse (decreasing N_PIG)"}.get(d.word, d.word)
+
+
+def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, checked: int) -> str:
+    w, g = st.world, st.get
+    out: list[str] = []
+    add = out.append
+    bound = doc["bound"]
+    add(f"Counterexample {shown}")
+    add(f"  pack {pack.name} ({pack.path}, sha256 {pack.sha256[:16]}...), rule {rule.id} "
+        f"(line {rule.line}): violated, for up to {bound} leg{'s' if bound != 1 else ''}"
+        + ("; minimal" if doc["minimal"] else "; not fully minimised"))
+    add("")
+    add(f"The rule: {rule.title}")
+    if rule.refs:
+        add(f"  cites: {'; '.join(rule.refs)}")
+    add(f"  given:  {rule.given.text if rule.given else '(always)'}")
+    if rule.premise_legs:
+        k = rule.premise_legs
+        add(f"  implicit premise: legs.count >= {k}. The rule names legs[{k}], so it only applies "
+            f"to worlds with at least {k} leg{'s' if k != 1 else ''}; this premise is part of its given.")
+    add(f"  expect: {rule.expect.text}")
+    add("")
+
+    add("The group (LRBG)")
+    n = w.balises
+    add(f"  {n} balise{'s' if n != 1 else ''} (N_PIG 0{f' to {n - 1}' if n > 1 else ' only'}, "
+        f"N_TOTAL {n - 1}), {w.read} read; "
+        + ("linked: linking announced the group and its direction of passage."
+           if w.linked else "not linked."))
+    add(f"  Location accuracy (Q_LOCACC) {m(w.locacc)}. Hidden from the onboard: the real reference "
+        f"mark lies {signed(w.offset)} from its engineered location (the origin of the LRBG frame).")
+    add("The train")
+    add(f"  {m(w.length)} long; its balise antenna is {m(w.antenna)} behind the active front end.")
+    add("The passage")
+    o0 = w.direction if w.running.word == "forward" else flip(w.direction)
+    add(f"  The train moved over the group in the group's {_dir_words(w.direction)} direction, "
+        f"{'front end first (running forward)' if w.running.word == 'forward' else 'rear end first (running backward)'}, "
+        f"so it faced {o0.word}.")
+    seen = g("passage.seen")
+    why = ("linking announced it" if w.linked else f"{w.read} balises were read") if seen.word != "unknown" \
+        else "only one balise of an unlinked group was read, so the group gives no direction"
+    add(f"  The onboard sees the passage as {seen.word}, because {why}.")
+    add(f"  Balise detection error {signed(w.detect_error)} (positive: the antenna was further "
+        "along than the onboard believed).")
+    front0, est0 = _front_at_detection(st)
+    add(f"  At the detection instant: real front {m(front0)}, estimated front "
+        + (f"{m(est0)}." if seen.word != "unknown" else f"{m(est0)} in the passage frame."))
+    add("")
+    if not w.legs:
+        add("No legs: the story ends at the passage.")
+    for i, (leg, d) in enumerate(zip(w.legs, st.legs), 1):
+        parts = []
+        if leg.cab_change:
+            parts.append("at standstill the driver changes cab: the former rear end becomes the "
+                         f"front end and the train now faces {d['actual_orientation'].word}; then")
+        err = leg.odometer - leg.distance
+        reading = ("exact" if err == 0 else f"over-read by {m(err)}" if err > 0 else f"under-read by {m(-err)}")
+        parts.append(f"it runs {leg.running.word} ({'front' if leg.running.word == 'forward' else 'rear'} "
+                     f"end first), moving {d['actual_motion'].word}: real distance {m(leg.distance)}, "
+                     f"measured {m(leg.odometer)} ({reading}).")
+        add(f"Leg {i}: " + " ".join(parts))
+        add(f"  After it: real front {m(d['actual_front'])}, estimated front {m(d['est_front'])}.")
+    add("")
+    add("At the end")
+    add(f"  Real:      front {m(g('actual.front'))}, rear {m(g('actual.rear'))}, faces "
+        f"{g('actual.orientation').word}, last moved {g('actual.motion').word}, travelled "
+        f"{m(g('actual.travelled'))}.")
+    add(f"  Estimated: front {m(g('est.front'))}, rear {m(g('est.rear'))}, faces "
+        f"{g('est.orientation').word}, last moved {g('est.motion').word}, measured "
+        f"{m(g('est.travelled'))}; reading error bounds over {m(g('est.bound_over'))}, "
+        f"under {m(g('est.bound_under'))}.")
+    add("")
+    add("The position report")
+    add(f"  As lengths: D_LRBG {m(g('report.d_lrbg'))} on the {g('report.q_dlrbg').word} side, "
+        f"L_DOUBTOVER {m(g('report.l_doubtover'))}, L_DOUBTUNDER {m(g('report.l_doubtunder'))}, "
+        f"orientation (Q_DIRLRBG) {g('report.q_dirlrbg').word}, movement (Q_DIRTRAIN) "
+        f"{g('report.q_dirtrain').word}; step {m(g('report.q_scale'))}, rounding {pack.rounding}.")
+    add(f"  Before rounding: d_lrbg {m(g('est.d_lrbg'))}, l_doubtover {m(g('est.l_doubtover'))}, "
+        f"l_doubtunder {m(g('est.l_doubtunder'))}.")
+    code = lambda k: int(g(f"report.code.{k}"))  # noqa: E731
+    add(f"  As packet codes: Q_SCALE {code('q_scale')}, D_LRBG {code('d_lrbg')}, Q_DIRLRBG "
+        f"{code('q_dirlrbg')}, Q_DLRBG {code('q_dlrbg')}, L_DOUBTOVER {code('l_doubtover')}, "
+        f"L_DOUBTUNDER {code('l_doubtunder')}, Q_DIRTRAIN {code('q_dirtrain')}"
+        + ("." if g("report.in_range") else "; a distance is out of range and sent as 32767."))
+    add("The trackside view")
+    if g("rbc.placed"):
+        lo, hi = g("rbc.min_safe_front"), g("rbc.max_safe_front")
+        add(f"  It reads D_LRBG {m(g('rbc.d_lrbg'))}, L_DOUBTOVER {m(g('rbc.l_doubtover'))}, "
+            f"L_DOUBTUNDER {m(g('rbc.l_doubtunder'))} and places the estimated front at "
+            f"{m(g('rbc.est_front'))}, the min safe front at {m(lo)}, the max safe front at "
+            f"{m(hi)} and the min safe rear at {m(g('rbc.min_safe_rear'))}.")
+        add("  " + interval_words(g("actual.front"), lo, hi))
+    else:
+        add("  The report does not place the train (a distance code is 32767 or a qualifier "
+            "unknown): rbc.placed is false.")
+    add("")
+    add("What failed")
+    f = failed_detail(rule, st)
+    if f and "op" in f:
+        (lt, lv, lty), (rt, rv, rty) = f["left"], f["right"]
+        add(f"  The first false part of expect is `{f['text']}`.")
+        add(f"  Left side  {lt} = {value_words(lv, lty)}")
+        add(f"  Right side {rt} = {value_words(rv, rty)}")
+        gap = ""
+        if isinstance(lv, Fraction) and isinstance(rv, Fraction):
+            gap = f" (they differ by {value_words(abs(lv - rv), lty if lty == LENGTH else rty)})"
+        add(f"  so {value_words(lv, lty)} {f['op']} {value_words(rv, rty)} is false{gap}.")
+    elif f:
+        add(f"  The first false part of expect is `{f['text']}`, which is false in this world.")
+    add("")
+    add(f"Checked: all {checked} recorded values agree with a fresh exact simulation of the recorded "
+        f"world under {pack.path} (tool that wrote the file: verifier {doc['tool'].get('verifier', '?')}, "
+        f"{doc['tool'].get('solver', '?')}).")
+    add(f"Caution: {cexfile.CAUTION}")
+    return "\n".join(out)
+
+
+def interval_words(real, lo, hi) -> str:
+    a, b = min(lo, hi), max(lo, hi)
+    where = "inside"
+    if real < a:
+        where = f"outside it, {m(a - real)} below its lower end"
+    elif real > b:
+        where = f"outside it, {m(real - b)} beyond its upper end"
+    order = "" if lo <= hi else (" (the train faces reverse, so in the LRBG frame the min safe "
+                                 "front lies above the max safe front)")
+    return f"The real front, at {m(real)}, is {where} [{m(a)}, {m(b)}]{order}."
+
+
+def _front_at_detection(st: State) -> tuple:
+    """Real and estimated front at the detection instant (DESIGN 4.2, 4.3): the simulator keeps
+    only the state after each leg, so this one is computed here from the inputs."""
+    w = st.world
+    s = -1 if w.direction.word == "reverse" else 1
+    o = s if w.running.word == "forward" else -s
+    real = w.offset + s * w.detect_error + o * w.antenna
+    known = st.get("passage.seen").word != "unknown"
+    est = (o if known else (1 if w.running.word == "forward" else -1)) * w.antenna
+    return real, est
+
+
+def show(file: str, pack_path: str | None = None, svg: str | None = None) -> tuple[str, str | None]:
+    """``verifier show``: the checked story, and the diagram written to ``svg`` when asked
+    ("" = beside the file, "-" = returned instead of the story)."""
+    from verifier.evidence import diagram
+    e = explain_file(file, pack_path=pack_path)
+    if svg is None:
+        return e.text, None
+    text = diagram.render(e.doc, e.rule, e.state)
+    if svg == "-":
+        return text, None
+    target = diagram.svg_path(Path(file)) if svg == "" else Path(svg)
+    cexfile.write_atomic(target, text)
+    return e.text, target.as_posix()
