@@ -9,15 +9,6 @@ from verifier.world.scenario import fmt
 from verifier.world.sim import State, World, applies, evaluate, scope_problems
 
 
-def _v(st: State, name: str) -> str:
-    value = plain(st.get(name), vocab.GLOBAL[name].ty)
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if vocab.GLOBAL[name].ty == vocab.LENGTH if hasattr(vocab, "LENGTH") else False:
-        return f"{value} m"
-    return str(value)
-
-
 def _m(x) -> str:
     return f"{fmt(x)} m"
 
@@ -69,11 +60,6 @@ def simulate_text(pack: Pack, world: World, legs: int | None = None) -> tuple[st
             out.append(f"  holds           {rule.id}")
             continue
         ok = False
-        f = failed_part(rule, st)
-        detail = ""
-        if f and "left" in f:
-            detail = f": {f['left']['text']} = {f['left']['value']} {f['operator']} {f['right']['text']} = {f['right']['value']} is false"
-        elif f:
-            detail = f": {f['text']} is false"
-        out.append(f"  VIOLATED        {rule.id}{detail}")
+        from verifier.engine import describe_failure
+        out.append(f"  VIOLATED        {rule.id}: {describe_failure(failed_part(rule, st))}")
     return "\n".join(out), ok

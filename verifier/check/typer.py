@@ -427,7 +427,7 @@ _WIRE_PREFIXES = ("report.", "rbc.d_lrbg", "rbc.l_doubt", "rbc.placed")
 
 
 def check_pack(raw: RawPack) -> Pack:
-    diags: list[Diagnostic] = []
+    diags: list[Diagnostic] = [d for d in raw.diagnostics if d.severity == "error"]
     world = {k: v for k, v in raw.scope.constants().items()}
 
     # params: constant expressions, in file order, may use earlier params and world.*
@@ -530,7 +530,7 @@ def check_pack(raw: RawPack) -> Pack:
                                                f"'{r}' ({hidden}), read through {dep[0]} '{dep[1]}'"))
 
     rules = []
-    warnings = list(raw.warnings)
+    warnings = [d for d in raw.diagnostics if d.severity != "error"]
     for r in raw.rules:
         parts = {}
         max_leg = 0

@@ -80,7 +80,7 @@ class RawPack:
     trackside: dict
     rules: tuple
     source: SourceFile = attrs.field(eq=False, repr=False)
-    warnings: tuple = ()
+    diagnostics: tuple = ()   # errors and warnings of the loading stage
 
 
 class _Collector:
@@ -408,12 +408,10 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
             rules.append(RawRule(rid, title, given, expect, tuple(refs), note, rlegs,
                                  place.line if place else 1, i))
 
-    errors = [d for d in c.diags if d.severity == "error"]
-    if errors:
-        raise PackError(sorted(c.diags, key=lambda d: (d.line, d.column)))
+    # Errors found so far travel with the pack: the checker adds its own and reports them all.
     return RawPack(shown, text, sha256, name, pack_t.get("title", ""), description, legs, scope,
                    params, lets, onboard, q_scale, rounding, trackside, tuple(rules), src,
-                   tuple(d for d in c.diags if d.severity == "warning"))
+                   tuple(c.diags))
 
 
 _FUNCTION_WORDS = {"abs", "min", "max", "flip", "side", "along", "floor_to", "ceil_to",

@@ -34,7 +34,7 @@ class ExprSyntaxError(Exception):
 @functools.cache
 def _parser() -> lark.Lark:
     text = resources.files("verifier.lang").joinpath("grammar.lark").read_text()
-    return lark.Lark(text, parser="lalr", propagate_positions=True, maybe_placeholders=False)
+    return lark.Lark(text, parser="lalr", lexer="basic", propagate_positions=True, maybe_placeholders=False)
 
 
 def parse_quantity(text: str) -> tuple[Fraction, str | None]:
@@ -78,12 +78,18 @@ class _Build(lark.Transformer):
     def path(self, meta, children):
         parts = []
         for tok in children:
-            parts.append(int(tok) if tok.type == "INDEX" else str(tok))
+            if tok.type == "QUANTITY":
+                if not str(tok).isdigit():
+                    raise ExprSyntaxError(f"a leg number must be a whole number, not {str(tok)!r}",
+                                          tok.start_pos, len(tok))
+                parts.append(int(tok))
+            else:
+                parts.append(str(tok))
         return ast.Name(tuple(parts), start=meta.start_pos, end=meta.end_pos)
 
     @lark.v_args(meta=True)
     def neg(self, meta, children):
-        return ast.Unary("-", children[0], start=meta.start_pos, end=meta.end_pos)
+        return ast.Unary("-", children[-1], start=meta.start_pos, end=meta.end_pos)
 
     @lark.v_args(meta=True)
     def not_(self, meta, children):
@@ -147,7 +153,7 @@ def _nesting(text: str) -> int:
 
 
 _EXPECTED_NAMES = {
-    "CMP": "a comparison", "ADDOP": "'+' or '-'", "MULOP": "'*' or '/'", "QUANTITY": "a number",
+    "CMP": "a comparison", "PLUS": "'+'", "MULOP": "'*' or '/'", "QUANTITY": "a number",
     "NAME": "a name", "INDEX": "a leg number", "LPAR": "'('", "RPAR": "')'", "COMMA": "','",
     "COLON": "':'", "DOT": "'.'", "LSQB": "'['", "RSQB": "']'", "MINUS": "'-'",
 }

@@ -1,0 +1,40 @@
+from __future__ import annotations
+
+import textwrap
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def pack_text(rules: str, *, name: str = "t", legs: int = 2, world: str = "", onboard: str = "",
+              extra: str = "") -> str:
+    """A small pack: a header, optional [world]/[onboard] lines, then the given rule tables."""
+    parts = [f'[pack]\nname = "{name}"\ntitle = "test pack"\nlegs = {legs}\n']
+    if world:
+        parts.append("[world]\n" + textwrap.dedent(world).strip() + "\n")
+    if onboard:
+        parts.append("[onboard]\n" + textwrap.dedent(onboard).strip() + "\n")
+    if extra:
+        parts.append(textwrap.dedent(extra).strip() + "\n")
+    parts.append(textwrap.dedent(rules).strip() + "\n")
+    return "\n".join(parts)
+
+
+def rule_toml(rid: str, expect: str, given: str | None = None) -> str:
+    def q(s):
+        return '"' + s.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    out = f'[[rule]]\nid = "{rid}"\ntitle = "{rid}"\nexpect = {q(expect)}\n'
+    if given:
+        out += f"given = {q(given)}\n"
+    return out
+
+
+@pytest.fixture
+def write_pack(tmp_path):
+    def write(text: str, name: str = "pack.toml") -> Path:
+        p = tmp_path / name
+        p.write_text(text, encoding="utf-8")
+        return p
+    return write

@@ -1,0 +1,120 @@
+"""Bad input: every case gives file:line:col diagnostics with the source line and a caret,
+exit code 2, no traceback, and no counterexample file. Golden texts are written by hand."""
+
+from __future__ import annotations
+
+import pytest
+
+from conftest import pack_text, rule_toml
+from verifier.cli import main
+from verifier.errors import PackError
+from verifier.loader import load_pack
+
+
+def _errors(write_pack, text):
+    path = write_pack(text)
+    with pytest.raises(PackError) as exc:
+        load_pack(path, "p.toml")
+    return [d.render() for d in exc.value.diagnostics]
+
+
+def test_unknown_name_with_suggestion_golden(write_pack):
+    text = pack_text(rule_toml("a", "lrbg.raed >= 2"))
+    (msg,) = _errors(write_pack, text)
+    assert msg == (
+        "p.toml:9:11: error: rule a expect: unknown name 'lrbg.raed'; did you mean 'lrbg.read'?\n"
+        '    expect = "lrbg.raed >= 2"\n'
+        "              ^~~~~~~~~")
+
+
+def test_unit_error_points_at_subexpression_golden(write_pack):
+    text = pack_text(rule_toml("a", "train.length > 2 m and est.front + 1 > 0 m"))
+    (msg,) = _errors(write_pack, text)
+    assert msg == (
+        "p.toml:9:34: error: rule a expect: cannot add Length and Count (a length needs a unit, such as '5 m')\n"
+        '    expect = "train.length > 2 m and est.front + 1 > 0 m"\n'
+        "                                   ^~~~~~~~~~~~~")
+
+
+def test_nonlinear_product_golden(write_pack):
+    text = pack_text(rule_toml("a", "est.travelled * lrbg.read > 0 m"))
+    (msg,) = _errors(write_pack, text)
+    assert msg.startswith("p.toml:9:11: error: rule a expect: multiplication needs a constant on one side")
+
+
+def test_hidden_truth_in_onboard_formula_golden(write_pack):
+    text = pack_text(rule_toml("a", "true"), onboard='l_doubtover = "lrbg.locacc + abs(lrbg.offset)"')
+    (msg,) = _errors(write_pack, text)
+    assert msg == (
+        "p.toml:7:34: error: onboard l_doubtover: the onboard cannot read 'lrbg.offset' (hidden truth)\n"
+        '    l_doubtover = "lrbg.locacc + abs(lrbg.offset)"\n'
+        "                                     ^~~~~~~~~~~")
+
+
+def test_hidden_truth_through_a_let_is_caught(write_pack):
+    text = pack_text(rule_toml("a", "true"), onboard='d_lrbg = "cheat"',
+                     extra='[let]\ncheat = "abs(actual.front)"')
+    (msg,) = _errors(write_pack, text)
+    assert "cannot read 'actual.front' (hidden truth), read through let 'cheat'" in msg
+
+
+def test_all_errors_reported_not_just_the_first(write_pack):
+    text = pack_text(rule_toml("a", "nominal + 1 m > 0 m") + rule_toml("a", "true")
+                     + rule_toml("c", "legs[1].odometr > 0 m"), world='train_length = ["20 m", "10 m"]')
+    msgs = _errors(write_pack, text)
+    joined = "\n".join(msgs)
+    assert len(msgs) == 4
+    assert "low 20 m is above high 10 m" in joined
+    assert "cannot add Direction and Length" in joined
+    assert "duplicate rule id 'a'" in joined
+    assert "did you mean 'odometer'" in joined
+
+
+def test_unknown_key_and_table(write_pack):
+    text = pack_text(rule_toml("a", "true").replace("title", "titel")) + "[wrold]\nx = 1\n"
+    msgs = "\n".join(_errors(write_pack, text))
+    assert "unknown key 'titel' in [[rule]]; did you mean 'title'?" in msgs
+    assert "rule is missing 'title'" in msgs
+    assert "unknown table 'wrold'; did you mean 'world'?" in msgs
+
+
+def test_malformed_toml_position(write_pack):
+    (msg,) = _errors(write_pack, '[pack]\nname = "x"\ntitle = "unterminated\n')
+    assert msg.startswith("p.toml:3:") and "malformed TOML" in msg
+
+
+def test_syntax_error_column(write_pack):
+    (msg,) = _errors(write_pack, pack_text(rule_toml("a", "lrbg.read >= and true")))
+    assert msg.startswith("p.toml:9:24: error: in rule a expect: unexpected 'and'")
+
+
+def test_deep_nesting_and_huge_numbers_are_clean_errors(write_pack):
+    deep = "(" * 200 + "true" + ")" * 200
+    (msg,) = _errors(write_pack, pack_text(rule_toml("a", deep)))
+    assert "nested deeper than" in msg
+    huge = pack_text(rule_toml("a", "train.length < " + "9" * 400 + " m"))
+    # a huge literal is fine (exact arithmetic): it loads
+    assert load_pack(write_pack(huge, "h.toml")).rules[0].id == "a"
+
+
+def test_cycle_between_onboard_formulas(write_pack):
+    text = pack_text(rule_toml("a", "true"), onboard='d_lrbg = "est.l_doubtover"\nl_doubtover = "est.d_lrbg"')
+    assert any("cycle" in m for m in _errors(write_pack, text))
+
+
+def test_cli_bad_input_exit_2_no_traceback_no_file(tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "rules").mkdir()
+    (tmp_path / "rules" / "bad.toml").write_text(pack_text(rule_toml("a", "lrbg.raed >= 2")))
+    code = main(["check", "rules"])
+    out = capsys.readouterr()
+    assert code == 2
+    assert "rules/bad.toml:9:11: error:" in out.err and "Traceback" not in out.err
+    assert not (tmp_path / "counterexamples").exists()
+
+
+def test_cli_unknown_rule_id_is_usage_error(tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "p.toml").write_text(pack_text(rule_toml("a", "true")))
+    assert main(["check", "p.toml", "--rule", "nope"]) == 2
+    assert "no rule with id 'nope'" in capsys.readouterr().err

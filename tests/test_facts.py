@@ -1,0 +1,121 @@
+"""Check values from outside the project: the published ETCS texts and hand-worked cases.
+
+Each value names its source beside it. The simulator computes in exact Fractions, so the
+comparisons are exact.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction as F
+
+import pytest
+
+from conftest import pack_text, rule_toml
+from verifier.errors import PackError
+from verifier.loader import load_pack
+from verifier.world.scope import Scope
+from verifier.world.sim import Leg, State, World
+from verifier.world.vocab import Direction, Running
+
+NOM, REV = Direction.NOMINAL, Direction.REVERSE
+FWD, BWD = Running.FORWARD, Running.BACKWARD
+
+
+def _pack(write_pack, onboard="", world=""):
+    return load_pack(write_pack(pack_text(rule_toml("r", "true"), onboard=onboard, world=world)))
+
+
+def test_qualifier_codes_subset026_7():
+    # SUBSET-026 7.5.1.104/105/106: 0 reverse, 1 nominal, 2 unknown
+    assert (Direction.REVERSE.value, Direction.NOMINAL.value, Direction.UNKNOWN.value) == (0, 1, 2)
+
+
+def test_special_distance_value_is_15_bit_all_ones():
+    # SUBSET-026 7.5.1.13/43/44: 15-bit fields, 32767 = unknown
+    from verifier.world.vocab import MAX_CODE, UNKNOWN_CODE
+    assert UNKNOWN_CODE == 2**15 - 1 == 32767 and MAX_CODE == 32766
+
+
+def test_q_scale_codes(write_pack):
+    # SUBSET-026 7.5.1.129: 0 = 10 cm, 1 = 1 m, 2 = 10 m
+    for step, code in (("10 cm", 0), ("1 m", 1), ("10 m", 2)):
+        st = State(_pack(write_pack, onboard=f'q_scale = "{step}"'), World())
+        assert st.get("report.code.q_scale") == code
+
+
+def test_subset041_worked_interval_1000_m(write_pack):
+    # SUBSET-041 5.3.1.1: 5 m + 5 % of 1000 m = 55 m; with the 12 m default location accuracy
+    # (SUBSET-026 appendix A.3.2): 67 m, coded 670 at 10 cm and 67 at 1 m (SUBSET-026 7.5.1.43)
+    world = World(balises=2, read=2, locacc=F(12), antenna=F(2), length=F(200),
+                  legs=(Leg(False, FWD, F(1000), F(1000)),))
+    for step, code in (("10 cm", 670), ("1 m", 67)):
+        st = State(_pack(write_pack, onboard=f'q_scale = "{step}"'), world)
+        assert st.get("est.bound_over") == 55
+        assert st.get("est.l_doubtover") == 67 and st.get("est.l_doubtunder") == 67
+        assert st.get("report.code.l_doubtover") == code
+
+
+def test_largest_distance_at_10_cm(write_pack):
+    # FACTS (SUBSET-026 7.5.1.13): 32766 x 0.1 m = 3276.6 m is the largest at the 10 cm step
+    pack = _pack(write_pack, onboard='q_scale = "10 cm"', world='leg_distance = ["0 m", "5 km"]')
+    near = World(antenna=F(2), length=F(100), legs=(Leg(False, FWD, F("3274.6"), F("3274.6")),))
+    st = State(pack, near)
+    assert st.get("est.d_lrbg") == F("3276.6") and st.get("report.code.d_lrbg") == 32766
+    over = World(antenna=F(2), length=F(100), legs=(Leg(False, FWD, F("3274.7"), F("3274.7")),))
+    st = State(pack, over)
+    assert st.get("report.code.d_lrbg") == 32767 and st.get("rbc.placed") is False
+    # auto picks the 1 m step instead
+    st = State(_pack(write_pack, world='leg_distance = ["0 m", "5 km"]'), over)
+    assert st.get("report.code.q_scale") == 1 and st.get("report.code.d_lrbg") == 3277
+
+
+def test_safe_ends_subset026_3_6_4_1_5_and_3_6_1_7(write_pack):
+    # SUBSET-026 3.6.4.1.5: min safe front = est - L_DOUBTOVER, max = est + L_DOUBTUNDER along the
+    # orientation; 3.6.1.7: min safe rear = min safe front - train length.
+    pack = _pack(write_pack, onboard='q_scale = "1 m"')
+    # nominal, front first, 100 m run, locacc 5 m: doubts 5 + 5 + 5 = 15 m; est front 102 m
+    w = World(locacc=F(5), antenna=F(2), length=F(150), legs=(Leg(False, FWD, F(100), F(100)),))
+    st = State(pack, w)
+    assert st.get("rbc.est_front") == 102
+    assert st.get("rbc.min_safe_front") == 87 and st.get("rbc.max_safe_front") == 117
+    assert st.get("rbc.min_safe_rear") == 87 - 150
+    # the same run in the reverse direction: mirrored in the LRBG frame
+    st = State(pack, World(locacc=F(5), antenna=F(2), length=F(150), direction=REV,
+                           legs=(Leg(False, FWD, F(100), F(100)),)))
+    assert st.get("rbc.est_front") == -102
+    assert st.get("rbc.min_safe_front") == -87 and st.get("rbc.max_safe_front") == -117
+    assert st.get("rbc.min_safe_rear") == -87 + 150
+
+
+def test_default_detection_is_subset036_1_m():
+    # SUBSET-036 4.2.10.2: 1 m balise location accuracy for vital use
+    assert Scope().detection == 1
+    # SUBSET-041 5.3.1.1: 5 m + 5 % each way
+    assert Scope().odometry_over.fixed == 5 and Scope().odometry_over.rate == F(1, 20)
+
+
+def test_terminus_reversal_worked_by_hand(write_pack):
+    # Common practice, worked by hand (FACTS.md): front first into a terminus over the group in
+    # its reverse direction, stop, change cab, leave front first. Train 100 m, antenna 3 m.
+    # At the passage the front is at -3 m. Running in x m puts it at -3 - x; after the change of
+    # cab the front (the former rear) is at -3 - x + 100.
+    pack = _pack(write_pack, onboard='q_scale = "1 m"')
+    for run_in, side, front in ((80, NOM, 17), (97, NOM, 0), (120, REV, -23)):
+        w = World(antenna=F(3), length=F(100), direction=REV,
+                  legs=(Leg(False, FWD, F(run_in), F(run_in)), Leg(True, FWD, F(0), F(0))))
+        st = State(pack, w)
+        assert st.get("actual.front") == front == st.get("est.front")
+        assert st.get("report.q_dlrbg") is side
+        assert st.get("report.q_dirlrbg") is NOM and st.get("report.q_dirtrain") is NOM
+
+
+@pytest.mark.parametrize("line,needle", [
+    ('balises = [0, 8]', "1..8"),           # N_TOTAL 0..7: 1 to 8 balises, SUBSET-026 7.5.1.82
+    ('balises = [1, 9]', "1..8"),
+    ('locacc = ["0 m", "64 m"]', "0..63"),  # Q_LOCACC 6 bits, 0..63 m, SUBSET-026 7.5.1.115
+    ('locacc = ["0 m", "2.5 m"]', "whole metres"),
+])
+def test_scope_outside_encodable_values_is_an_error(write_pack, line, needle):
+    with pytest.raises(PackError) as exc:
+        _pack(write_pack, world=line)
+    assert needle in str(exc.value)
