@@ -33,7 +33,7 @@ def test_unit_error_points_at_subexpression_golden(write_pack):
     assert msg == (
         "p.toml:9:34: error: rule a expect: cannot add Length and Count (a length needs a unit, such as '5 m')\n"
         '    expect = "train.length > 2 m and est.front + 1 > 0 m"\n'
-        "                                   ^~~~~~~~~~~~~")
+        + " " * (4 + 33) + "^~~~~~~~~~~~~")
 
 
 def test_nonlinear_product_golden(write_pack):
