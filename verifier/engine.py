@@ -128,16 +128,23 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions) -> RuleResult:
         cexfile.write_atomic(target, cexfile.dumps(doc))
         diagram.write_beside(target, doc, rule, st)
         path = target.as_posix()
-    failed = cexfile.failed_part(rule, st)
-    msg = ""
-    if failed and "left" in failed:
-        msg = (f"{failed['left']['text']} = {failed['left']['value']} {failed['operator']} "
-               f"{failed['right']['text']} = {failed['right']['value']} is false")
-    elif failed:
-        msg = f"{failed['text']} is false"
+    msg = describe_failure(cexfile.failed_part(rule, st))
     if not solved.minimal:
         msg += " (not fully minimised: " + solved.reason + ")"
     return result("violated", counterexample=path, message=msg)
+
+
+def describe_failure(failed: dict | None) -> str:
+    """One line on the part of expect that failed: each side with its value."""
+    if not failed:
+        return ""
+    if "left" not in failed:
+        return f"false: {failed['text']}"
+
+    def side(part):
+        text, value = part["text"], part["value"]
+        return text if text == str(value) else f"{text} [= {value}]"
+    return f"false: {side(failed['left'])} {failed['operator']} {side(failed['right'])}"
 
 
 def select_rules(pack: Pack, wanted: tuple) -> list[Rule]:

@@ -1,0 +1,35 @@
+"""The same pack gives byte-identical counterexample files, and the committed demo evidence is
+exactly what a fresh run writes."""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from verifier.cli import main
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def _files(d: Path) -> dict:
+    return {p.relative_to(d).as_posix(): p.read_bytes() for p in sorted(d.rglob("*")) if p.is_file()}
+
+
+def test_demo_counterexamples_regenerate_byte_for_byte(tmp_path, monkeypatch):
+    monkeypatch.chdir(ROOT)   # paths inside the files are relative to the checkout
+    out1, out2 = tmp_path / "a", tmp_path / "b"
+    assert main(["check", "rules/demo", "--out", str(out1)]) == 1
+    assert main(["check", "rules/demo", "--out", str(out2)]) == 1
+    first, second = _files(out1), _files(out2)
+    assert first == second
+    committed = _files(ROOT / "counterexamples")
+    assert first, "the demo produced no counterexample"
+    assert first == committed, sorted(set(first) ^ set(committed))
+
+
+def test_no_temporary_files_left(tmp_path, monkeypatch):
+    monkeypatch.chdir(ROOT)
+    main(["check", "rules/demo", "--out", str(tmp_path), "--rule", "rounding-keeps-doubts"])
+    names = [p.name for p in tmp_path.rglob("*")]
+    assert not [n for n in names if n.endswith(".tmp")]
+    assert "rounding-keeps-doubts.json" in names

@@ -1,0 +1,79 @@
+"""Verdicts, budgets and exit codes (DESIGN 5)."""
+
+from __future__ import annotations
+
+import json
+
+from conftest import pack_text, rule_toml
+from verifier.cli import main
+from verifier.engine import CheckOptions, PackResult, RuleResult, check_rule, exit_code
+from verifier.loader import load_pack
+
+HARD = ("along(report.q_dirlrbg, actual.front - rbc.min_safe_front) >= 0 m and "
+        "along(report.q_dirlrbg, rbc.max_safe_front - actual.front) >= 0 m")
+
+
+def test_tiny_budget_gives_unknown_never_holds(write_pack, tmp_path):
+    pack = load_pack(write_pack(pack_text(rule_toml("hard", HARD, "rbc.placed"), legs=2)))
+    res = check_rule(pack, pack.rules[0], CheckOptions(rlimit=2000, out=tmp_path))
+    assert res.verdict == "unknown"
+    # with the default budget the same rule is proved
+    assert check_rule(pack, pack.rules[0], CheckOptions(out=tmp_path)).verdict == "holds"
+
+
+def test_cli_unknown_exits_3(tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "p.toml").write_text(pack_text(rule_toml("hard", HARD, "rbc.placed"), legs=2))
+    assert main(["check", "p.toml", "--rlimit", "2000", "--json"]) == 3
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["summary"]["unknown"] == 1 and doc["summary"]["holds"] == 0
+
+
+def test_json_output_shape(tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "p.toml").write_text(pack_text(
+        rule_toml("ok", "legs.count <= 1") + rule_toml("bad", "legs.count == 0")
+        + rule_toml("never", "true", "lrbg.read > lrbg.balises"), legs=1))
+    assert main(["check", "p.toml", "--json"]) == 1
+    doc = json.loads(capsys.readouterr().out)
+    rules = {r["id"]: r for r in doc["packs"][0]["rules"]}
+    assert set(doc) == {"packs", "errors", "summary"}
+    assert set(rules["ok"]) == {"id", "verdict", "bound", "seconds", "counterexample", "witness", "message"}
+    assert rules["ok"]["verdict"] == "holds" and rules["ok"]["witness"] is not None
+    assert rules["bad"]["verdict"] == "violated"
+    assert rules["bad"]["counterexample"] == "counterexamples/t/bad.json"
+    assert rules["never"]["verdict"] == "vacuous"
+    assert doc["summary"] == {"holds": 1, "violated": 1, "vacuous": 1, "unknown": 0, "error": 0}
+
+
+def test_vacuous_alone_exits_1(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "p.toml").write_text(pack_text(rule_toml("never", "true", "train.length < 1 m")))
+    assert main(["check", "p.toml"]) == 1
+
+
+def _r(verdict, kind=""):
+    return RuleResult("p", "r", "t", 1, verdict, 1, 0.0, kind=kind)
+
+
+def test_exit_code_precedence_4_2_1_3():
+    # DESIGN 5: when several apply, the first of 4, 2, 1, 3 wins
+    def code(*vs, bad_input=False):
+        return exit_code([PackResult("p", "p.toml", tuple(vs))], bad_input)
+    assert code(_r("holds")) == 0
+    assert code(_r("unknown")) == 3
+    assert code(_r("unknown"), _r("violated")) == 1
+    assert code(_r("unknown"), _r("vacuous")) == 1
+    assert code(_r("violated"), bad_input=True) == 2
+    assert code(_r("violated"), _r("error", "internal"), bad_input=True) == 4
+
+
+def test_bound_precedence(write_pack, tmp_path):
+    # DESIGN 3: --legs, then the rule's legs, then the pack's, then 3
+    text = pack_text(rule_toml("a", "legs.count <= 1") + "legs = 1\n" + rule_toml("b", "legs.count <= 1"), legs=2)
+    pack = load_pack(write_pack(text))
+    a, b = pack.rules
+    assert (pack.bound_for(a), pack.bound_for(b), pack.bound_for(a, 4)) == (1, 2, 4)
+    assert check_rule(pack, a, CheckOptions(out=tmp_path)).verdict == "holds"
+    assert check_rule(pack, b, CheckOptions(out=tmp_path)).verdict == "violated"
+    assert check_rule(pack, a, CheckOptions(legs=2, out=tmp_path)).verdict == "violated"
