@@ -203,7 +203,7 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     for lx, level, text in _label_layout(labels, X0 - 10, WIDTH - 4):
         add(_t(lx, yb + 20 + 12 * level, text, size=10, anchor="middle", fill=GREY if text.startswith("Q_") else INK))
         deepest = max(deepest, level)
-    y = yb + 20 + 12 * deepest + 10
+    y = yb + 20 + 12 * deepest + 16
 
     # ---- the train, stage by stage
     for title, details, front, o, est in stages:

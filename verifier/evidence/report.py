@@ -239,6 +239,7 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
     a("<!DOCTYPE html>")
     a('<html lang="en"><head><meta charset="utf-8">')
     a('<meta name="viewport" content="width=device-width, initial-scale=1">')
+    a('<link rel="icon" href="data:,">')
     a("<title>verifier evidence report</title>")
     a(f"<style>{CSS}</style></head><body>")
     a("<h1>Evidence report</h1>")

@@ -207,7 +207,7 @@ def _find_pack(d: _Doc, path: Path, pack_path: str | None) -> Pack:
         if digest != want:
             seen_other = seen_other or c
             continue
-        return load_pack(c, pack_path if pack_path is not None else recorded)
+        return load_pack(c, recorded)  # the identity is the sha256; keep the recorded name
     if seen_other is not None:
         raise d.error("pack.sha256", f"the pack {seen_other.as_posix()} has changed since this "
                                      "counterexample was written (its sha256 differs); show "
