@@ -30,6 +30,8 @@ class CheckOptions:
     rlimit: int | None = None          # deterministic budget per solver check
     out: Path | None = Path("counterexamples")   # None: write no files
     witness: bool = True
+    jobs: int = 1                      # --jobs: worker processes (see verifier.parallel)
+    cache: object = None               # a verifier.cache.Cache, or None: solve everything
 
 
 @attrs.frozen
@@ -50,6 +52,7 @@ class RuleResult:
     checks: int = 0
     solver: str = ""
     premise: str | None = None
+    solver_seconds: float = 0.0
 
     def as_json(self) -> dict:
         return {"id": self.rule, "verdict": self.verdict, "bound": self.bound,
@@ -76,7 +79,7 @@ def _compare(solved_values: dict, st: State) -> list[str]:
     return out
 
 
-def check_rule(pack: Pack, rule: Rule, opts: CheckOptions) -> RuleResult:
+def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None) -> RuleResult:
     from verifier.smt import solve  # the only way into z3
 
     bound = pack.bound_for(rule, opts.legs)
@@ -86,9 +89,13 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions) -> RuleResult:
         kwargs["timeout"] = opts.timeout
     if opts.rlimit is not None:
         kwargs["rlimit"] = opts.rlimit
-    solved = solve.solve_rule(pack, rule, bound, witness=opts.witness, **kwargs)
+    if presolved is None:
+        solved = solve.solve_rule(pack, rule, bound, witness=opts.witness, **kwargs)
+    else:   # solved from SMT-LIB text or taken from the cache (verifier.parallel)
+        solved, t0 = presolved.solved, t0 - presolved.seconds
     base = dict(pack=pack.name, rule=rule.id, title=rule.title, line=rule.line, bound=bound,
                 rlimit=solved.rlimit, checks=solved.checks, solver=solved.solver,
+                solver_seconds=solved.solver_seconds,
                 premise=cexfile.implicit_premise(rule), minimal=solved.minimal)
 
     def result(verdict, **kw):
@@ -163,10 +170,13 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
             raise UsageError(f"no rule with id '{missing[0]}' in the packs given")
     todo = [(p, r) for p in packs for r in select_rules(p, opts.rules)]
     results: dict = {p.name: [] for p in packs}
+    from verifier.parallel import solve_in_order
+    presolved = solve_in_order(todo, legs=opts.legs, timeout=opts.timeout, rlimit=opts.rlimit,
+                               witness=opts.witness, jobs=opts.jobs, cache=opts.cache)
     for n, (pack, rule) in enumerate(todo, 1):
         if progress:
             progress(n, len(todo), pack, rule, None)
-        res = check_rule(pack, rule, opts)
+        res = check_rule(pack, rule, opts, next(presolved))
         results[pack.name].append(res)
         if progress:
             progress(n, len(todo), pack, rule, res)

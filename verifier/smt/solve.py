@@ -35,6 +35,7 @@ class Solved:
     rlimit: int = 0
     checks: int = 0
     solver: str = SOLVER
+    solver_seconds: float = 0.0       # wall time spent inside z3's check()
 
 
 class _Budget:
@@ -61,6 +62,7 @@ class _Session:
         self.budget = budget
         self.checks = 0
         self.used = 0
+        self.seconds = 0.0
         self.facts: list = []
         self.s = None
 
@@ -70,9 +72,12 @@ class _Session:
         s.set("timeout", self.budget.left_ms())
         s.add(*self.enc.constraints, *self.facts, *assumptions)
         self.checks += 1
+        t0 = time.perf_counter()
         r = s.check()
+        self.seconds += time.perf_counter() - t0
         try:
-            self.used += int(s.statistics().get_key_value("rlimit count"))
+            # the count is kept per context, so the latest value is the total so far
+            self.used = max(self.used, int(s.statistics().get_key_value("rlimit count")))
         except z3.Z3Exception:
             pass
         self.s = s
@@ -276,15 +281,27 @@ def solve_rule(pack: Pack, rule: Rule, bound: int, *, rlimit: int = DEFAULT_RLIM
     expect = enc.expect(rule)
     for name in COMPARED:
         enc.name(name)
+    return decide(enc, given, expect, rlimit=rlimit, budget=budget, witness=witness)
+
+
+def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: _Budget | None = None,
+           witness: bool = True) -> Solved:
+    """The verdict, witness and minimal world of ``given and not expect`` over ``enc``.
+
+    ``enc`` is an :class:`Encoding` or anything with its ``ctx``, ``K``, ``constraints``,
+    ``inputs``, ``terms["legs.count"]``, ``terms["cab_changes"]`` and ``name()`` (for
+    example a problem parsed back from SMT-LIB text, see :mod:`verifier.smt.smtlib`)."""
+    budget = budget or _Budget(DEFAULT_TIMEOUT)
     # Two solvers: the first asks for a violation in one non-incremental check (z3's fastest
     # mode here); the second decides vacuity and finds the witness.
     ses = _Session(enc, rlimit, budget)
     ses.add(given, z3.Not(expect))
     checks = rl = 0
+    secs = 0.0
 
     def finish(verdict, *, world=None, values=None, minimal=True, reason="", last=ses):
-        return Solved(verdict, world, values, minimal, reason, rl + last.rlimit_used(),
-                      checks + last.checks)
+        return Solved(verdict, world, values, minimal, reason, max(rl, last.rlimit_used()),
+                      checks + last.checks, SOLVER, secs + last.seconds)
 
     r = ses.check()
     if r == z3.sat:
@@ -297,7 +314,7 @@ def solve_rule(pack: Pack, rule: Rule, bound: int, *, rlimit: int = DEFAULT_RLIM
                       reason="" if decided else "minimisation stopped by the budget")
     if r == z3.unknown:
         return finish("unknown", reason=ses.s.reason_unknown() or "budget exhausted")
-    checks, rl = ses.checks, ses.rlimit_used()
+    checks, rl, secs = ses.checks, ses.rlimit_used(), ses.seconds
     wit = _Session(enc, rlimit, budget)
     wit.add(given)
     r = wit.check()

@@ -1,0 +1,67 @@
+"""Benchmark: how long the shipped packs take, how much of it is the solver, and how the time
+grows with the bound. Prints figures side by side in one run; it is not a test.
+
+    .venv/bin/python bench/benchmark.py            # all of rules/, K = 1, 2, 4
+    .venv/bin/python bench/benchmark.py --quick    # K = 1, 2 only
+
+Ratios, not absolute times, are what to compare between machines.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+
+from verifier.engine import CheckOptions, check_packs  # noqa: E402
+from verifier.loader import load_all  # noqa: E402
+
+
+def run(packs, legs=None):
+    t0 = time.perf_counter()
+    results = check_packs(packs, CheckOptions(legs=legs, out=None))
+    total = time.perf_counter() - t0
+    rules = [r for p in results for r in p.results]
+    solver = sum(r.solver_seconds for r in rules)
+    verdicts = {}
+    for r in rules:
+        verdicts[r.verdict] = verdicts.get(r.verdict, 0) + 1
+    return total, solver, len(rules), verdicts
+
+
+def main() -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("paths", nargs="*", default=[str(ROOT / "rules")])
+    ap.add_argument("--quick", action="store_true", help="bounds 1 and 2 only")
+    args = ap.parse_args()
+    packs, diags = load_all(args.paths)
+    if any(d.severity == "error" for d in diags):
+        for d in diags:
+            print(d.render(), file=sys.stderr)
+        return 2
+    print(f"packs: {', '.join(p.name for p in packs)}")
+    total, solver, n, verdicts = run(packs)
+    print(f"default bounds: {n} rules in {total:.2f} s; inside the solver {solver:.2f} s; "
+          f"solver / total = {solver / total:.2f}; {verdicts}")
+    bounds = (1, 2) if args.quick else (1, 2, 4)
+    times = {}
+    for k in bounds:
+        t, s, n, v = run(packs, legs=k)
+        times[k] = t
+        print(f"K = {k}: {t:7.2f} s total, {s:7.2f} s solver ({s / t:.2f}), {v}")
+    base = times[bounds[0]]
+    print("growth: " + ", ".join(f"K={k}: x{times[k] / base:.1f}" for k in bounds))
+    try:
+        from bench_edits import report as edits_report  # added by the cache/jobs work
+    except ImportError:
+        return 0
+    edits_report(packs)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
