@@ -78,6 +78,16 @@ def _table(results, input_diags) -> str:
     return "\n".join(lines)
 
 
+def _with_jobs_and_cache(opts, args):
+    """--jobs and --no-cache (see verifier.parallel and verifier.cache)."""
+    import attrs
+
+    from verifier.cache import Cache
+    from verifier.parallel import check_jobs
+    cache = None if args.no_cache else Cache(warn=lambda w: print(f"verifier: warning: {w}", file=sys.stderr))
+    return attrs.evolve(opts, jobs=check_jobs(args.jobs), cache=cache)
+
+
 def cmd_check(args) -> int:
     from verifier.engine import CheckOptions, check_packs, exit_code
     from verifier.loader import load_all
@@ -87,6 +97,7 @@ def cmd_check(args) -> int:
     input_errors = any(d.severity == "error" for d in diags)
     opts = CheckOptions(legs=args.legs, rules=tuple(args.rule or ()), timeout=args.timeout,
                         rlimit=args.rlimit, out=None if args.no_files else Path(args.out))
+    opts = _with_jobs_and_cache(opts, args)
     fmt = "json" if args.json else args.format
     if args.report:
         from verifier.evidence.report import ensure_ours
@@ -176,6 +187,8 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--rlimit", type=int, metavar="N", help="deterministic solver budget per check (default 500000000)")
     c.add_argument("--out", default="counterexamples", metavar="DIR", help="where counterexample files go (default: counterexamples/)")
     c.add_argument("--no-files", action="store_true", help="write no counterexample files")
+    c.add_argument("--jobs", type=int, default=1, metavar="N", help="solve rules in N worker processes (same results and files as 1, the default)")
+    c.add_argument("--no-cache", action="store_true", help="solve every rule again; neither read nor write .verifier-cache/")
     c.add_argument("--format", choices=("table", "json", "junit", "sarif"), default="table",
                    help="output on stdout: table (default), json (as --json), junit (XML, one test "
                         "case per rule) or sarif (SARIF 2.1.0)")

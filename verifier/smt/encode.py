@@ -28,8 +28,11 @@ _DIR_CODE = {Direction.NOMINAL: 1, Direction.REVERSE: -1, Direction.UNKNOWN: 0}
 class Encoding:
     """The world of one pack, up to ``bound`` legs, in one z3 context."""
 
-    def __init__(self, pack: Pack, bound: int, ctx: z3.Context):
+    def __init__(self, pack: Pack, bound: int, ctx: z3.Context, prefix: str = ""):
         self.pack = pack
+        # prefixed to every derived constant (never to inputs), so that two encodings of two
+        # versions of a pack can share one context and one set of inputs (verifier diff)
+        self.prefix = prefix
         self.K = bound
         self.ctx = ctx
         self.constraints: list = []
@@ -59,14 +62,14 @@ class Encoding:
 
     def define(self, name: str, term, sort: str = "real"):
         """A named constant equal to ``term`` (keeps terms small, models readable)."""
-        c = {"real": self.real, "int": self.int, "bool": self.boolean}[sort](name)
+        c = {"real": self.real, "int": self.int, "bool": self.boolean}[sort](self.prefix + name)
         self.constraints.append(c == term)
         return c
 
     def floor_int(self, t):
         """A fresh Int k with k <= t < k + 1."""
         self._fresh += 1
-        k = self.int(f"floor!{self._fresh}")
+        k = self.int(f"{self.prefix}floor!{self._fresh}")
         self.constraints.append(z3.ToReal(k) <= t)
         self.constraints.append(t < z3.ToReal(k) + 1)
         return k
@@ -215,7 +218,7 @@ class Encoding:
                 kd_at[c], w_at[c] = kd, w
                 fits[c] = z3.And(kd >= 0, kd <= MAX_CODE,
                                  *[z3.And(x + w > -q, x + w <= lim * q) for x in (over, under)])
-        c = self.int("report.step")
+        c = self.int(self.prefix + "report.step")
         self.step_choice = c
         if len(steps) == 1:
             C.append(c == steps[0])
@@ -287,10 +290,10 @@ class Encoding:
         ty = LEG[field].ty
         self._fresh += 1
         if ty == "Bool" or ty == "Running":
-            return self.boolean(f"absent!{self._fresh}")
+            return self.boolean(f"{self.prefix}absent!{self._fresh}")
         if ty in ("Count", "Direction"):
-            return self.int(f"absent!{self._fresh}")
-        return self.real(f"absent!{self._fresh}")
+            return self.int(f"{self.prefix}absent!{self._fresh}")
+        return self.real(f"{self.prefix}absent!{self._fresh}")
 
     def expr(self, node: ast.Node, env: dict):
         """The z3 term of a typed expression; ``env`` binds leg variables to leg numbers."""

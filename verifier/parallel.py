@@ -1,0 +1,108 @@
+"""Solving many rules: the cache first, then SMT-LIB queries, serially or in worker processes.
+
+Every rule that the cache does not answer is encoded in this process and printed as SMT-LIB
+text (:func:`verifier.smt.smtlib.export_rule`); the text is solved in a fresh z3 context by
+:func:`verifier.smt.smtlib.solve_query`, here (``jobs == 1``) or in a worker process. Text goes
+in, plain data comes out, and both paths solve the same text the same way, so the results, and
+the files the engine writes from them, do not depend on ``jobs``. Results are handed back in
+the order of the rules, whatever order the workers finish in.
+"""
+
+from __future__ import annotations
+
+import multiprocessing
+import time
+from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
+
+import attrs
+
+from verifier.errors import InternalError, UsageError
+
+MAX_JOBS = 64
+
+
+@attrs.frozen
+class Presolved:
+    """A solver result for the engine, with where it came from."""
+
+    solved: object          # verifier.smt.solve.Solved
+    seconds: float          # time spent encoding and solving (0 for a cache hit)
+    cached: bool = False
+
+
+def _work(query, limits: dict):
+    """The worker: SMT-LIB text in, plain data out."""
+    from verifier.smt import smtlib
+    t0 = time.monotonic()
+    solved = smtlib.solve_query(query, **limits)
+    return solved, time.monotonic() - t0
+
+
+def check_jobs(jobs: int) -> int:
+    if not isinstance(jobs, int) or not 1 <= jobs <= MAX_JOBS:
+        raise UsageError(f"--jobs must be 1..{MAX_JOBS}")
+    return jobs
+
+
+def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, jobs=1,
+                   cache=None):
+    """Yield a :class:`Presolved` for each (pack, rule) of ``todo``, in order.
+
+    ``cache`` is a :class:`verifier.cache.Cache` or None. With ``jobs == 1`` each rule is
+    solved when its result is asked for (so progress reports stay live)."""
+    from verifier.cache import rule_key
+    from verifier.smt import smtlib
+    check_jobs(jobs)
+    limits = {"witness": witness}
+    if timeout is not None:
+        limits["timeout"] = timeout
+    if rlimit is not None:
+        limits["rlimit"] = rlimit
+    plan = []
+    for pack, rule in todo:
+        bound = pack.bound_for(rule, legs)
+        key = rule_key(pack, rule, bound, witness) if cache is not None else None
+        hit = cache.get(key) if key is not None else None
+        plan.append((pack, rule, bound, key, hit))
+
+    def done(key, solved, seconds) -> Presolved:
+        if cache is not None:
+            cache.put(key, solved, witness)
+        return Presolved(solved, seconds)
+
+    if jobs == 1 or sum(1 for p in plan if p[4] is None) <= 1:
+        for pack, rule, bound, key, hit in plan:
+            if hit is not None:
+                yield Presolved(hit, 0.0, True)
+                continue
+            t0 = time.monotonic()
+            query = smtlib.export_rule(pack, rule, bound)
+            solved, _ = _work(query, limits)
+            yield done(key, solved, time.monotonic() - t0)
+        return
+
+    ctx = multiprocessing.get_context("spawn")   # no z3 state inherited from this process
+    with ProcessPoolExecutor(max_workers=jobs, mp_context=ctx) as pool:
+        futures = {}
+        try:
+            for i, (pack, rule, bound, key, hit) in enumerate(plan):
+                if hit is None:
+                    t0 = time.monotonic()
+                    query = smtlib.export_rule(pack, rule, bound)
+                    futures[i] = (pool.submit(_work, query, limits), time.monotonic() - t0)
+            for i, (pack, rule, bound, key, hit) in enumerate(plan):
+                if hit is not None:
+                    yield Presolved(hit, 0.0, True)
+                    continue
+                future, export_seconds = futures[i]
+                try:
+                    solved, seconds = future.result()
+                except BrokenProcessPool as exc:
+                    raise InternalError(f"a worker process died while solving "
+                                        f"{pack.name}/{rule.id}: {exc}") from None
+                yield done(key, solved, export_seconds + seconds)
+        except BaseException:
+            for future, _ in futures.values():
+                future.cancel()
+            raise
