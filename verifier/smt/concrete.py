@@ -1,0 +1,170 @@
+"""The SMT encoding evaluated on one concrete world (for differential testing).
+
+The encoding of :mod:`verifier.smt.encode` describes every world of a pack at once. Here its
+inputs are fixed to one plain world (the ``world`` data of a scenario, DESIGN 6) and the solver
+is asked for the values of every vocabulary name, per-leg field, ``let``, and every rule's
+``given`` and ``expect``. The answer is plain data (Fractions, bools, words), so that it can be
+compared with the simulator by code that never sees a z3 term.
+
+One :class:`Evaluator` per (pack, bound) encodes everything once and answers each world with a
+single solver check under assumptions, so thousands of worlds can be evaluated quickly.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+import attrs
+import z3
+
+from verifier.check.model import Pack
+from verifier.smt.encode import Encoding
+from verifier.smt.solve import _fraction
+from verifier.world.vocab import GLOBAL, LEG
+
+_DIR_WORD = {1: "nominal", -1: "reverse", 0: "unknown"}
+
+
+@attrs.frozen
+class Concrete:
+    """The encoding's values in one world (plain data).
+
+    ``scope_ok`` is False when the encoding's constraints reject the world's inputs (the world
+    is outside the scope as the encoding sees it); then everything else is empty. ``unique`` is
+    None when uniqueness was not asked, else whether the inputs determine every value.
+    """
+
+    scope_ok: bool
+    values: dict = {}
+    legs: tuple = ()
+    lets: dict = {}
+    given: dict = {}          # rule id -> bool (with the implicit premise)
+    expect: dict = {}         # rule id -> bool
+    unique: bool | None = None
+    ambiguous: tuple = ()     # names whose value the inputs do not determine
+
+
+def _plain(v, ty: str):
+    if ty == "Bool":
+        return z3.is_true(v)
+    if ty == "Running":
+        return "forward" if z3.is_true(v) else "backward"
+    if ty == "Direction":
+        return _DIR_WORD[v.as_long()]
+    return _fraction(v)
+
+
+def _num(x) -> Fraction:
+    return x if isinstance(x, Fraction) else Fraction(str(x))
+
+
+class Evaluator:
+    """The encoding of one pack up to ``bound`` legs, ready to be evaluated world by world."""
+
+    def __init__(self, pack: Pack, bound: int, timeout: float = 20.0):
+        self.pack = pack
+        self.bound = bound
+        self.ctx = z3.Context()
+        enc = self.enc = Encoding(pack, bound, self.ctx)
+        self.terms: list = []          # (kind, key, type, term)
+        for name, entry in GLOBAL.items():
+            self.terms.append(("name", name, entry.ty, enc.name(name)))
+        for i in range(1, bound + 1):
+            for field, entry in LEG.items():
+                self.terms.append(("leg", (i, field), entry.ty, enc.legs[i - 1][field]))
+        for let, formula in pack.lets.items():
+            self.terms.append(("let", let, formula.node.ty, enc.definition(("let", let))))
+        for rule in pack.rules:
+            self.terms.append(("given", rule.id, "Bool", enc.given(rule)))
+            self.terms.append(("expect", rule.id, "Bool", enc.expect(rule)))
+        # With every input fixed, eliminating the defined constants first (solve-eqs) and then
+        # deciding what is left (the floor variables) is about twice as fast as the default
+        # incremental solver; the tactics preserve satisfiability and the model converter
+        # restores every eliminated constant, so the values are the encoding's own.
+        tactic = z3.Then(z3.Tactic("solve-eqs", ctx=self.ctx), z3.Tactic("smt", ctx=self.ctx),
+                         ctx=self.ctx)
+        self.solver = tactic.solver()
+        self.solver.set("timeout", int(timeout * 1000))
+        self.solver.add(*enc.constraints)
+
+    def _assumptions(self, world: dict) -> list:
+        I, ctx = self.enc.inputs, self.ctx
+        legs = world.get("legs", [])
+        if len(legs) > self.bound:
+            raise ValueError(f"{len(legs)} legs, above the bound {self.bound}")
+
+        def real(x):
+            return z3.RealVal(str(_num(x)), ctx)
+
+        a = [I["lrbg.balises"] == int(world["balises"]), I["lrbg.read"] == int(world["read"]),
+             I["lrbg.linked"] == z3.BoolVal(bool(world["linked"]), ctx),
+             z3.ToReal(I["lrbg.locacc"]) == real(world["locacc"]),
+             I["lrbg.offset"] == real(world["offset"]),
+             I["train.length"] == real(world["length"]), I["train.antenna"] == real(world["antenna"]),
+             I["passage.direction"] == {"nominal": 1, "reverse": -1}[world["direction"]],
+             I["passage.running"] == z3.BoolVal(world["running"] == "forward", ctx),
+             I["passage.detect_error"] == real(world["detect_error"]),
+             I["legs.count"] == len(legs)]
+        for i, leg in enumerate(legs, 1):
+            a += [I[f"legs.{i}.cab_change"] == z3.BoolVal(bool(leg["cab_change"]), ctx),
+                  I[f"legs.{i}.running"] == z3.BoolVal(leg["running"] == "forward", ctx),
+                  I[f"legs.{i}.distance"] == real(leg["distance"]),
+                  I[f"legs.{i}.odometer"] == real(leg["odometer"])]
+        return a
+
+    def evaluate(self, world: dict, *, unique: bool = False) -> Concrete:
+        """The encoding's values in ``world`` (the flat form: balises, read, linked, locacc,
+        offset, length, antenna, direction, running, detect_error, legs[cab_change, running,
+        distance, odometer]; numbers as Fractions or exact text).
+
+        With ``unique``, a second check asks whether any compared value could differ with the
+        same inputs (it must not: the encoding is a function of its inputs)."""
+        s = self.solver
+        assumptions = self._assumptions(world)
+        s.push()
+        try:
+            return self._evaluate(world, assumptions, unique)
+        finally:
+            s.pop()
+
+    def _evaluate(self, world: dict, assumptions: list, unique: bool) -> Concrete:
+        s = self.solver
+        s.add(*assumptions)
+        r = s.check()
+        if r == z3.unsat:
+            return Concrete(scope_ok=False)
+        if r != z3.sat:
+            raise RuntimeError(f"solver gave up on a concrete world: {s.reason_unknown()}")
+        model = s.model()
+        count = len(world.get("legs", []))
+        values, lets, given, expect = {}, {}, {}, {}
+        legs = [dict() for _ in range(count)]
+        fixed = []
+        for kind, key, ty, term in self.terms:
+            if kind == "leg" and key[0] > count:
+                continue
+            v = model.eval(term, model_completion=True)
+            fixed.append((kind, key, term, v))
+            plain = _plain(v, ty)
+            if kind == "name":
+                values[key] = plain
+            elif kind == "leg":
+                legs[key[0] - 1][key[1]] = plain
+            elif kind == "let":
+                lets[key] = plain
+            elif kind == "given":
+                given[key] = plain
+            else:
+                expect[key] = plain
+        is_unique, ambiguous = None, ()
+        if unique:
+            s.add(z3.Or([t != v for _, _, t, v in fixed]))
+            r2 = s.check()
+            if r2 == z3.sat:
+                m2 = s.model()
+                ambiguous = tuple(str(key) for _, key, t, v in fixed
+                                  if not m2.eval(t == v, model_completion=True))
+            if r2 == z3.unknown:
+                raise RuntimeError(f"solver gave up on uniqueness: {s.reason_unknown()}")
+            is_unique = r2 == z3.unsat
+        return Concrete(True, values, tuple(legs), lets, given, expect, is_unique, ambiguous)

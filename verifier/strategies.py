@@ -1,0 +1,440 @@
+"""Hypothesis strategies for worlds inside a pack's scope, with their corners (DESIGN 4.1).
+
+Reusable by users who want to test their own code against the simulator::
+
+    from hypothesis import given
+    from verifier.strategies import worlds
+    from verifier.loader import load_pack
+
+    pack = load_pack("rules/position-report.toml")
+
+    @given(worlds(pack.scope, pack.legs))
+    def test_something(world): ...
+
+Every world drawn is inside the scope (``scope_problems`` is empty): the prefix-closed odometry
+bound is respected by construction, leg by leg. Plain uniform drawing almost never lands on the
+places where implementations differ, so the strategies lean on the corners:
+
+- bounds of every range (balises, Q_LOCACC, train length, antenna, leg distance), zero-length
+  legs, single-balise groups, cab changes on the first and the last leg;
+- errors at their bounds: ``lrbg.offset = +-locacc``, the detection error at its bound, each
+  leg's odometer at the edge of what the reading error bound still allows;
+- the wire: the last leg's odometer (or the antenna) chosen so that the estimate, or the
+  over-reading bound, lands on a rounding tie ``(n + 1/2) * step``, on ``32766``, ``32766.5``
+  or ``32767`` steps of a Q_SCALE step (SUBSET-026 7.5.1.13, 7.5.1.129), or on exactly 0.
+
+:func:`corners` names the corners a given world hits (computed from the world and the simulator,
+not from how it was drawn), and :class:`CornerTally` counts them over a run.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import Counter
+from fractions import Fraction
+
+import attrs
+from hypothesis import strategies as st
+
+from verifier.world.scope import Scope
+from verifier.world.sim import Leg, State, World
+from verifier.world.vocab import MAX_CODE, Direction, Running
+
+F = Fraction
+STEPS = (F(1, 10), F(1), F(10))      # Q_SCALE steps (SUBSET-026 7.5.1.129)
+
+# Every corner this module aims at, with what it means. A run reports how often each was hit.
+CORNERS = {
+    "zero-length leg": "some active leg has distance 0",
+    "leg distance at scope low": "some leg distance equals world.leg_distance low",
+    "leg distance at scope high": "some leg distance equals world.leg_distance high",
+    "train length at scope low": "train.length equals world.train_length low",
+    "train length at scope high": "train.length equals world.train_length high",
+    "antenna at scope low": "train.antenna equals world.antenna low",
+    "antenna at scope high": "train.antenna equals its upper limit (scope high or the train length)",
+    "locacc at scope low": "lrbg.locacc equals world.locacc low",
+    "locacc at scope high": "lrbg.locacc equals world.locacc high",
+    "balises at scope high": "lrbg.balises equals world.balises high",
+    "single-balise group": "lrbg.balises is 1",
+    "passage unknown": "passage.seen is unknown",
+    "offset at bound": "|lrbg.offset| equals lrbg.locacc > 0",
+    "detection error at bound": "|passage.detect_error| equals the largest value the scope allows",
+    "over-reading at bound": "the over-reading after some prefix equals its bound",
+    "under-reading at bound": "the under-reading after some prefix equals its bound",
+    "rounding tie": "an unrounded distance (d_lrbg or a doubt) is (n + 1/2) steps of some Q_SCALE step",
+    "rounding tie at the step used": "an unrounded distance is (n + 1/2) times the step the report used",
+    "32766.5 steps": "an unrounded distance is 32766.5 times some Q_SCALE step",
+    "32766 steps": "an unrounded distance is exactly 32766 times some Q_SCALE step (largest code)",
+    "estimate exactly 0": "est.front is 0",
+    "no legs": "legs.count is 0",
+    "legs at the bound": "legs.count equals the bound",
+    "cab change on the first leg": "legs[1].cab_change",
+    "cab change on the last leg": "the last of at least two legs has a cab change",
+    "report out of range": "some distance code is 32767 with a known passage",
+}
+
+
+# ---- numbers ---------------------------------------------------------------------------------
+
+def _int(draw, lo: int, hi: int) -> int:
+    return draw(st.integers(lo, hi))
+
+
+def _choice(draw, items):
+    return items[draw(st.integers(0, len(items) - 1))]
+
+
+def draw_between(draw, lo: Fraction, hi: Fraction) -> Fraction:
+    """A Fraction in [lo, hi]: a bound, a point of the 1 m or 1 mm grid, or a rational with a
+    small denominator (1/3 m and the like, which no decimal writer shows exactly).
+
+    Only integer draws, so that drawing stays cheap (no strategy objects built per draw)."""
+    lo, hi = F(lo), F(hi)
+    if lo >= hi:
+        return lo
+    how = _int(draw, 0, 4)
+    if how == 0:
+        return lo
+    if how == 1:
+        return hi
+    if how == 2 and math.ceil(lo) <= math.floor(hi):
+        return F(_int(draw, math.ceil(lo), math.floor(hi)))
+    if how == 3:
+        return F(_int(draw, math.ceil(lo * 1000), math.floor(hi * 1000)), 1000)
+    den = _int(draw, 1, 48)
+    a, b = math.ceil(lo * den), math.floor(hi * den)
+    return F(_int(draw, a, b), den) if a <= b else lo
+
+
+@st.composite
+def between(draw, lo: Fraction, hi: Fraction) -> Fraction:
+    """The strategy form of :func:`draw_between`."""
+    return draw_between(draw, lo, hi)
+
+
+def _odometer_range(scope: Scope, over: F, under: F, measured: F, dist: F) -> tuple[F, F]:
+    """The odometer readings of a leg of real length ``dist`` that keep the reading error bound
+    (DESIGN 4.1) after this leg, given the errors and the measure ``measured`` so far."""
+    ob, ub = scope.odometry_over, scope.odometry_under
+    if scope.odometry_basis == "measured":
+        hi = (ob.fixed + ob.rate * measured - over + dist) / (1 - ob.rate)
+        lo = (under + dist - ub.fixed - ub.rate * measured) / (1 + ub.rate)
+    else:
+        hi = dist + ob.fixed + ob.rate * (measured + dist) - over
+        lo = dist - (ub.fixed + ub.rate * (measured + dist) - under)
+    return max(F(0), lo), hi
+
+
+def _distance_range(scope: Scope, over: F, under: F, measured: F, odo: F) -> tuple[F, F]:
+    """The real distances compatible with an odometer reading ``odo`` (the converse)."""
+    ob, ub = scope.odometry_over, scope.odometry_under
+    if scope.odometry_basis == "measured":
+        e = measured + odo
+        lo = odo - (ob.fixed + ob.rate * e - over)
+        hi = odo + (ub.fixed + ub.rate * e - under)
+    else:
+        lo = (odo + over - ob.fixed - ob.rate * measured) / (1 + ob.rate)
+        hi = (ub.fixed + ub.rate * measured - under + odo) / (1 - ub.rate)
+    return max(lo, scope.leg_distance[0]), min(hi, scope.leg_distance[1])
+
+
+def _errors_after(scope: Scope, world_legs, detect: F) -> tuple[F, F, F]:
+    over, under, measured = max(F(0), -detect), max(F(0), detect), F(0)
+    for leg in world_legs:
+        over += max(F(0), leg.odometer - leg.distance)
+        under += max(F(0), leg.distance - leg.odometer)
+        measured += leg.odometer if scope.odometry_basis == "measured" else leg.distance
+    return over, under, measured
+
+
+# ---- worlds ----------------------------------------------------------------------------------
+
+def _bool(draw) -> bool:
+    return _int(draw, 0, 1) == 1
+
+
+def _one_of_or(draw, specials, lo, hi):
+    """One of the special values (a third of the time), else a value in [lo, hi]."""
+    if _int(draw, 0, 2) == 0:
+        return _choice(draw, specials)
+    return draw_between(draw, lo, hi)
+
+
+def _draw_legs(draw, scope: Scope, bound: int, detect: F) -> tuple:
+    how_many = _int(draw, 0, 2)
+    n = 0 if how_many == 0 else bound if how_many == 1 else _int(draw, 0, bound)
+    legs: list = []
+    dlo, dhi = scope.leg_distance
+    near = min(dhi, max(dlo, F(50)))
+    for _ in range(n):
+        over, under, measured = _errors_after(scope, legs, detect)
+        k = _int(draw, 0, 2)
+        if k == 0:
+            dist = _choice(draw, [dlo, dhi])
+        elif k == 1:
+            dist = draw_between(draw, dlo, near)
+        else:
+            dist = draw_between(draw, dlo, dhi)
+        olo, ohi = _odometer_range(scope, over, under, measured, dist)
+        how = _int(draw, 0, 3)
+        if how == 0 and olo <= dist <= ohi:
+            odo = dist              # no error in this leg
+        elif how == 1:
+            odo = olo               # under-reading at its bound
+        elif how == 2:
+            odo = ohi               # over-reading at its bound
+        else:
+            odo = draw_between(draw, olo, ohi)
+        legs.append(Leg(cab_change=_bool(draw),
+                        running=_choice(draw, [Running.FORWARD, Running.BACKWARD]),
+                        distance=dist, odometer=odo))
+    return tuple(legs)
+
+
+def _est_passage(world: World, legs) -> F:
+    """The estimate in the passage frame after ``legs`` (DESIGN 4.3), written out here so that
+    a target can be solved for; the simulator remains the reference."""
+    op = 1 if world.running is Running.FORWARD else -1
+    est = op * world.antenna
+    for leg in legs:
+        if leg.cab_change:
+            est -= op * world.length
+            op = -op
+        est += (op if leg.running is Running.FORWARD else -op) * leg.odometer
+    return est
+
+
+def _target(draw, scope: Scope) -> F:
+    """A distance worth hitting: a rounding tie, 32766 / 32766.5 / 32767 steps, or 0."""
+    kind = _choice(draw, ["tie", "tie", "32766.5", "32766.5", "32766", "32767", "zero"])
+    # beyond 32766 steps only the 10 cm step is within reach of the default scope
+    step = _choice(draw, STEPS) if kind == "tie" or _bool(draw) else STEPS[0]
+    if kind == "zero":
+        return F(0)
+    if kind == "tie":
+        reach = scope.antenna[1] + scope.train_length[1] + scope.leg_distance[1]
+        top = 40 if _bool(draw) else max(0, int(reach / step))
+        return (_int(draw, 0, top) + F(1, 2)) * step
+    return F(kind) * step
+
+
+def _aim(draw, scope: Scope, world: World) -> World:
+    """Re-draw the last leg so that the estimate (or the travelled measure behind the doubts)
+    lands on a target value; the world is left as it was when the target is out of reach."""
+    if not world.legs:
+        # no legs: est.front is +-antenna; aim the antenna itself at a tie of the 10 cm or 1 m step
+        lo, hi = scope.antenna[0], min(scope.antenna[1], world.length)
+        step = _choice(draw, STEPS[:2])
+        n0 = math.floor(lo / step)
+        a = (_int(draw, n0, max(n0, math.floor(hi / step))) + F(1, 2)) * step
+        return attrs.evolve(world, antenna=a) if lo <= a <= hi else world
+    *first, last = world.legs
+    over, under, measured = _errors_after(scope, first, world.detect_error)
+    if _int(draw, 0, 2):
+        # the estimate: |est.front| = target
+        target = _target(draw, scope)
+        rest = _est_passage(world, first + [attrs.evolve(last, distance=F(0), odometer=F(0))])
+        goal = target if _bool(draw) else -target
+        odo = abs(goal - rest)
+        op = 1 if world.running is Running.FORWARD else -1
+        for leg in world.legs:
+            if leg.cab_change:
+                op = -op
+        # the running sense that moves the estimate towards the goal
+        running = Running.FORWARD if (goal - rest) * op >= 0 else Running.BACKWARD
+    else:
+        # the travelled measure: the over-reading bound + locacc on a tie of some step
+        ob = scope.odometry_over
+        if ob.rate == 0 or scope.odometry_basis != "measured":
+            return world
+        step = _choice(draw, STEPS)
+        base = world.locacc + ob.fixed + ob.rate * measured
+        n = math.ceil(base / step - F(1, 2)) + _int(draw, 0, 200)
+        odo = ((n + F(1, 2)) * step - base) / ob.rate
+        running = last.running
+    if odo < 0:
+        return world
+    dlo, dhi = _distance_range(scope, over, under, measured, odo)
+    if dlo > dhi:
+        return world
+    dist = _choice(draw, [dlo, dhi, min(max(odo, dlo), dhi)])
+    return attrs.evolve(world, legs=tuple(first) + (attrs.evolve(last, running=running, distance=dist,
+                                                                  odometer=odo),))
+
+
+@st.composite
+def worlds(draw, scope: Scope = Scope(), bound: int = 3, aim: bool = True) -> World:
+    """A world inside ``scope`` with at most ``bound`` legs, leaning on the corners."""
+    blo, bhi = scope.balises
+    balises = _choice(draw, [blo, bhi]) if _bool(draw) else _int(draw, blo, bhi)
+    read = _choice(draw, [1, balises]) if _bool(draw) else _int(draw, 1, balises)
+    llo, lhi = int(scope.locacc[0]), int(scope.locacc[1])
+    locacc = F(_choice(draw, [llo, lhi]) if _bool(draw) else _int(draw, llo, lhi))
+    offset = _one_of_or(draw, [-locacc, locacc, F(0)], -locacc, locacc)
+    length = draw_between(draw, max(scope.train_length[0], scope.antenna[0]), scope.train_length[1])
+    antenna = draw_between(draw, scope.antenna[0], min(scope.antenna[1], length))
+    # |d| <= detection, and the bound at the passage itself: max(0, -d) <= over.fixed, ...
+    dneg = min(scope.detection, scope.odometry_over.fixed)
+    dpos = min(scope.detection, scope.odometry_under.fixed)
+    detect = _one_of_or(draw, [-dneg, dpos, F(0)], -dneg, dpos)
+    world = World(
+        balises=balises, read=read, linked=_bool(draw), locacc=locacc, offset=offset,
+        length=length, antenna=antenna,
+        direction=_choice(draw, [Direction.NOMINAL, Direction.REVERSE]),
+        running=_choice(draw, [Running.FORWARD, Running.BACKWARD]),
+        detect_error=detect, legs=_draw_legs(draw, scope, bound, detect))
+    if aim and _bool(draw):
+        world = _aim(draw, scope, world)
+    return world
+
+
+def pack_worlds(packs, bound: int | None = None) -> st.SearchStrategy:
+    """A (pack, world) pair: a pack drawn from ``packs``, then a world in its scope, up to its
+    largest bound (the pack's, or any of its rules', or ``bound``)."""
+    packs = list(packs)
+
+    @st.composite
+    def pair(draw):
+        pack = _choice(draw, packs)
+        k = bound if bound is not None else largest_bound(pack)
+        return pack, draw(worlds(pack.scope, k))
+    return pair()
+
+
+def largest_bound(pack) -> int:
+    return max([pack.legs] + [r.legs for r in pack.rules if r.legs is not None])
+
+
+# ---- corners ---------------------------------------------------------------------------------
+
+def _is_tie(x: F, step: F) -> bool:
+    return (x / step - F(1, 2)).denominator == 1
+
+
+def corners(world: World, scope: Scope, bound: int, state: State | None = None) -> set[str]:
+    """The corners of :data:`CORNERS` that ``world`` hits (the wire ones need a ``state``)."""
+    out = set()
+    legs = world.legs
+    dlo, dhi = scope.leg_distance
+    if any(leg.distance == 0 for leg in legs):
+        out.add("zero-length leg")
+    if any(leg.distance == dlo for leg in legs):
+        out.add("leg distance at scope low")
+    if any(leg.distance == dhi for leg in legs):
+        out.add("leg distance at scope high")
+    for name, value, (lo, hi) in (("train length", world.length, scope.train_length),
+                                  ("locacc", world.locacc, scope.locacc)):
+        if value == lo:
+            out.add(f"{name} at scope low")
+        if value == hi:
+            out.add(f"{name} at scope high")
+    if world.antenna == scope.antenna[0]:
+        out.add("antenna at scope low")
+    if world.antenna == min(scope.antenna[1], world.length):
+        out.add("antenna at scope high")
+    if world.balises == scope.balises[1]:
+        out.add("balises at scope high")
+    if world.balises == 1:
+        out.add("single-balise group")
+    if world.locacc > 0 and abs(world.offset) == world.locacc:
+        out.add("offset at bound")
+    d = world.detect_error
+    if (d < 0 and -d == min(scope.detection, scope.odometry_over.fixed)) or (
+            d > 0 and d == min(scope.detection, scope.odometry_under.fixed)):
+        out.add("detection error at bound")
+    over, under, measured = max(F(0), -d), max(F(0), d), F(0)
+    for j in range(len(legs) + 1):
+        if j:
+            leg = legs[j - 1]
+            over += max(F(0), leg.odometer - leg.distance)
+            under += max(F(0), leg.distance - leg.odometer)
+            measured += leg.odometer if scope.odometry_basis == "measured" else leg.distance
+        if over > 0 and over == scope.odometry_over.at(measured):
+            out.add("over-reading at bound")
+        if under > 0 and under == scope.odometry_under.at(measured):
+            out.add("under-reading at bound")
+    if not legs:
+        out.add("no legs")
+    if len(legs) == bound:
+        out.add("legs at the bound")
+    if legs and legs[0].cab_change:
+        out.add("cab change on the first leg")
+    if len(legs) >= 2 and legs[-1].cab_change:
+        out.add("cab change on the last leg")
+    if state is not None:
+        if state.get("passage.seen") is Direction.UNKNOWN:
+            out.add("passage unknown")
+        if state.get("est.front") == 0:
+            out.add("estimate exactly 0")
+        xs = [state.get(n) for n in ("est.d_lrbg", "est.l_doubtover", "est.l_doubtunder")]
+        used = state.get("report.q_scale")
+        for x in xs:
+            if any(_is_tie(x, s) for s in STEPS):
+                out.add("rounding tie")
+            if _is_tie(x, used):
+                out.add("rounding tie at the step used")
+            if any(x == F(65533, 2) * s for s in STEPS):
+                out.add("32766.5 steps")
+            if any(x == MAX_CODE * s for s in STEPS):
+                out.add("32766 steps")
+        if state.get("passage.seen") is not Direction.UNKNOWN and not state.get("report.in_range"):
+            out.add("report out of range")
+    return out
+
+
+class CornerTally:
+    """How often each corner was hit over a run (plain counts, printable)."""
+
+    def __init__(self):
+        self.counts: Counter = Counter()
+        self.worlds = 0
+
+    def add(self, hit) -> None:
+        self.worlds += 1
+        self.counts.update(hit)
+
+    def merge(self, other: "CornerTally") -> None:
+        self.worlds += other.worlds
+        self.counts.update(other.counts)
+
+    def missed(self) -> list[str]:
+        return [c for c in CORNERS if not self.counts[c]]
+
+    def as_json(self) -> dict:
+        return {"worlds": self.worlds, "corners": {c: self.counts[c] for c in CORNERS}}
+
+    def as_text(self) -> str:
+        lines = [f"{self.worlds} worlds; corner hits:"]
+        for c in CORNERS:
+            n = self.counts[c]
+            share = 100 * n / self.worlds if self.worlds else 0
+            lines.append(f"  {n:7d} {share:5.1f} %  {c}")
+        return "\n".join(lines)
+
+
+# ---- profiles --------------------------------------------------------------------------------
+
+# How much the validation suite runs (VERIFIER_PROFILE=ci by default, or thorough). The "ci"
+# numbers keep the differential, fuzz and mutation tests within a few minutes on 2 cores; the
+# "thorough" run is for releases and its last result is recorded in docs/validation.md.
+PROFILES = {
+    "ci": {"worlds": 20_000, "fuzz": 10_000, "seed": 20_260_101, "workers": 2},
+    "thorough": {"worlds": 100_000, "fuzz": 50_000, "seed": None, "workers": 2},
+}
+
+
+def profile(name: str | None = None) -> dict:
+    """The settings of a validation profile (``VERIFIER_PROFILE``, default ``ci``), also
+    registered as a Hypothesis settings profile of the same name."""
+    import os
+
+    from hypothesis import HealthCheck, settings
+    name = name or os.environ.get("VERIFIER_PROFILE", "ci")
+    if name not in PROFILES:
+        raise ValueError(f"VERIFIER_PROFILE must be one of {', '.join(PROFILES)}, got {name!r}")
+    for key, p in PROFILES.items():
+        settings.register_profile(
+            key, max_examples=p["worlds"], deadline=None, database=None,
+            derandomize=p["seed"] is not None, suppress_health_check=list(HealthCheck),
+            print_blob=True)
+    return {"name": name, **PROFILES[name]}
