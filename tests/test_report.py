@@ -99,7 +99,7 @@ def test_manifest_lists_packs_rules_assumptions(site):
     # the scope actually used, with the pack's narrowing and the default error bounds
     world = pack["assumptions"]["world"]
     assert world["train_length"] == ["20", "400"]
-    assert world["odometry_over"] == {"fixed": "5", "rate": "1/20"}   # DESIGN 4.1 defaults
+    assert world["odometry_over"] == {"fixed": "5", "rate": "0.05"}   # DESIGN 4.1 defaults
     assert pack["assumptions"]["onboard"]["l_doubtover"]["source"] == "default"
     # the counterexamples are copied with their hashes and diagrams
     for rid in VIOLATED:

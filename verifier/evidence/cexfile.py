@@ -10,6 +10,7 @@ import tempfile
 from fractions import Fraction
 from pathlib import Path
 
+from verifier import CAUTION as _TOOL_CAUTION
 from verifier import __version__
 from verifier.check.model import Pack, Rule
 from verifier.lang import ast
@@ -19,9 +20,8 @@ from verifier.world.scenario import fmt, world_to_data
 from verifier.world.sim import State, evaluate
 
 FORMAT = "verifier-counterexample/1"
-CAUTION = ("This file records a world of the stated model in which the rule is false. The model "
-           "is not a real train: verdicts support, and never replace, the safety case under "
-           "EN 50126/50128/50129, local rules and licensed practice.")
+CAUTION = ("This file records a world of the stated model in which the rule is false. "
+           + _TOOL_CAUTION)
 
 
 def sha256_text(text: str) -> str:

@@ -52,8 +52,7 @@ class Scope:
 
     def as_json(self) -> dict:
         """The scope as plain data (for counterexample files and reports)."""
-        def q(x):
-            return str(x)
+        from verifier.world.scenario import fmt as q
         return {
             "balises": list(self.balises),
             "locacc": [q(x) for x in self.locacc],

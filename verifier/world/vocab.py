@@ -172,3 +172,38 @@ Q_SCALES = {"10 cm": 0, "1 m": 1, "10 m": 2}  # Q_SCALE codes, SUBSET-026 7.5.1.
 ROUNDINGS = ("widen", "nearest", "down")
 MAX_CODE = 32766  # largest valid distance code; 32767 = unknown (SUBSET-026 7.5.1.13)
 UNKNOWN_CODE = 32767
+
+
+def markdown() -> str:
+    """docs/vocabulary.md, generated from the tables above (a test keeps the file in step)."""
+    def readers(e):
+        return ", ".join(sorted(e.readers)) if e.readers else "rules only (hidden)"
+    lines = ["# Vocabulary", "",
+             "Generated from `verifier/world/vocab.py` by `python -m verifier.world.vocab`; do not edit.",
+             "Every name may be read by rules (`given`, `expect`, `[let]`). *Readers* says which",
+             "design formulas may read it too (`[onboard]`, `[trackside]`); the others carry",
+             "truth that equipment cannot know.", "",
+             "## Names of one world", "", "| name | type | readers | meaning |", "|---|---|---|---|"]
+    for e in GLOBAL.values():
+        lines.append(f"| `{e.name}` | {e.ty} | {readers(e)} | {e.meaning} |")
+    lines += ["", "## Per leg", "",
+              "Read as `leg.FIELD` inside `all/any/count/sum(leg in legs: ...)` (any variable name),",
+              "or as `legs[i].FIELD` (i from 1; implies `legs.count >= i`).", "",
+              "| field | type | readers | meaning |", "|---|---|---|---|"]
+    for e in LEG.values():
+        lines.append(f"| `{e.name}` | {e.ty} | {readers(e)} | {e.meaning} |")
+    lines += ["", "## Constants", "",
+              "`nominal`, `reverse`, `unknown` (Direction); `forward`, `backward` (Running);",
+              "`params.NAME` from `[params]`; `world.balises.low/high`, `world.locacc.low/high`,",
+              "`world.train_length.low/high`, `world.antenna.low/high`, `world.leg_distance.low/high`,",
+              "`world.odometry_over.fixed/rate`, `world.odometry_under.fixed/rate`, `world.detection`.",
+              "", "## Default designs", "", "| output | default formula |", "|---|---|"]
+    for k, v in DEFAULT_ONBOARD.items():
+        lines.append(f"| `[onboard] {k}` | `{v}` |")
+    for k, v in DEFAULT_TRACKSIDE.items():
+        lines.append(f"| `[trackside] {k}` | `{v}` |")
+    return "\n".join(lines) + "\n"
+
+
+if __name__ == "__main__":  # pragma: no cover
+    print(markdown(), end="")
