@@ -127,6 +127,10 @@ def cmd_check(args) -> int:
         from verifier.evidence.report import write_report
         page = write_report(Path(args.report), packs, results, diags, opts)
         print(f"report: {page.as_posix()}", file=sys.stderr)
+    if args.smt2:
+        from verifier.smt.export import write_for_results
+        n = len(write_for_results(Path(args.smt2), packs, results))
+        print(f"smt2: {n} SMT-LIB files in {Path(args.smt2).as_posix()}", file=sys.stderr)
     return exit_code(results, input_errors)
 
 
@@ -194,6 +198,8 @@ def build_parser() -> argparse.ArgumentParser:
                         "case per rule) or sarif (SARIF 2.1.0)")
     c.add_argument("--report", metavar="DIR", help="also write an evidence report (index.html, "
                    "manifest.json, counterexamples) into DIR, which must be new, empty or a report")
+    c.add_argument("--smt2", metavar="DIR", help="write each rule's proof obligations as portable "
+                   "SMT-LIB 2.6 files (DIR/<pack>/<rule>.smt2 and .given.smt2) for any solver")
     c.set_defaults(func=cmd_check)
 
     r = sub.add_parser("replay", help="re-run archived counterexamples against today's rules",
