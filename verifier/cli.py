@@ -107,6 +107,10 @@ def cmd_check(args) -> int:
         results = check_packs(packs, opts, progress)
     finally:
         progress.clear()
+    cross = None
+    if args.crosscheck:
+        from verifier.crosscheck import crosscheck_results
+        results, cross = crosscheck_results(packs, results, opts)
     if fmt in ("junit", "sarif"):
         from verifier.evidence.ciformats import render
         print(render(fmt, results, diags), end="")
@@ -120,9 +124,13 @@ def cmd_check(args) -> int:
                           "rules": [r.as_json() for r in p.results]} for p in results],
                "errors": [d.as_json() for d in diags if d.severity == "error"],
                "summary": counts}
+        if cross is not None:
+            doc["crosscheck"] = cross.as_json()
         print(json.dumps(doc, indent=2, sort_keys=True))
     else:
         print(_table(results, diags))
+    if cross is not None and fmt != "json":
+        print(cross.summary(), file=sys.stderr if fmt in ("junit", "sarif") else sys.stdout)
     if args.report:
         from verifier.evidence.report import write_report
         page = write_report(Path(args.report), packs, results, diags, opts)
@@ -198,6 +206,9 @@ def build_parser() -> argparse.ArgumentParser:
                         "case per rule) or sarif (SARIF 2.1.0)")
     c.add_argument("--report", metavar="DIR", help="also write an evidence report (index.html, "
                    "manifest.json, counterexamples) into DIR, which must be new, empty or a report")
+    c.add_argument("--crosscheck", action="store_true", help="re-solve every obligation with cvc5 "
+                   "(same obligation, second solver) and replay solver-chosen boundary worlds in the "
+                   "simulator; a disagreement is an internal error (exit 4). Needs verifier[crosscheck]")
     c.add_argument("--smt2", metavar="DIR", help="write each rule's proof obligations as portable "
                    "SMT-LIB 2.6 files (DIR/<pack>/<rule>.smt2 and .given.smt2) for any solver")
     c.set_defaults(func=cmd_check)

@@ -168,3 +168,75 @@ class Evaluator:
                 raise RuntimeError(f"solver gave up on uniqueness: {s.reason_unknown()}")
             is_unique = r2 == z3.unsat
         return Concrete(True, values, tuple(legs), lets, given, expect, is_unique, ambiguous)
+
+
+# ---- worlds near a rule's decision boundary (for verifier check --crosscheck) -----------------
+
+@attrs.frozen
+class Sample:
+    """A world of a rule's given found by the solver, with the encoding's values of given and
+    expect in it (plain data) and why it was asked for."""
+
+    world: dict           # flat inputs, as solve._read_world gives them
+    given: bool
+    expect: bool
+    why: str
+
+
+def _atoms(node, out: list) -> None:
+    """Comparisons of the expression tree outside quantifiers, in text order."""
+    from verifier.lang import ast
+    if isinstance(node, ast.Quant):
+        return
+    if isinstance(node, ast.Chain):
+        out.append(node)
+    for child in ast.children(node):
+        _atoms(child, out)
+
+
+def boundary_worlds(pack: Pack, rule, bound: int, *, count: int = 4, timeout: float = 10.0,
+                    rlimit: int = 100_000_000) -> list[Sample]:
+    """Up to ``count`` distinct worlds of the rule's ``given`` near the edge of its ``expect``.
+
+    Asked for, in order: for each comparison ``a op b`` of the expect (outside quantifiers),
+    a world where a == b (on the boundary) and one where a and b differ by at most 1 mm (just
+    beside it); then a world where the expect is false and one where it is true. Each world found
+    is excluded from the later questions, so the worlds are distinct. A question the solver
+    cannot answer within its budget is skipped (no world is invented)."""
+    from verifier.smt.solve import _read_world
+    ctx = z3.Context()
+    enc = Encoding(pack, bound, ctx)
+    given, expect = enc.given(rule), enc.expect(rule)
+    s = z3.Solver(ctx=ctx)
+    s.set("rlimit", rlimit)
+    s.set("timeout", int(timeout * 1000))
+    questions = []
+    atoms: list = []
+    _atoms(rule.expect.node, atoms)
+    mm = z3.RealVal("1/1000", ctx)
+    for atom in atoms[:3]:
+        for left, right in zip(atom.operands, atom.operands[1:]):
+            a, b = enc.expr(left, {}), enc.expr(right, {})
+            text = rule.expect.text[left.start:right.end]
+            questions.append((a == b, f"on the boundary of {text}"))
+            if z3.is_arith(a):
+                d = z3.ToReal(a - b) if z3.is_int(a - b) else a - b
+                questions.append((z3.And(d != 0, d <= mm, d >= -mm), f"within 1 mm of the boundary of {text}"))
+    questions += [(z3.Not(expect), "expect false"), (expect, "expect true")]
+    s.add(*enc.constraints)
+    s.add(given)
+    inputs = list(enc.inputs.values())
+    out: list[Sample] = []
+    for q, why in questions:
+        if len(out) >= count:
+            break
+        r = s.check(q)
+        if r != z3.sat:
+            continue
+        m = s.model()
+        world = _read_world(m, enc)
+        g = z3.is_true(m.eval(given, model_completion=True))
+        e = z3.is_true(m.eval(expect, model_completion=True))
+        out.append(Sample(world, g, e, why))
+        s.add(z3.Or([c != m.eval(c, model_completion=True) for c in inputs]))
+    return out

@@ -1,0 +1,150 @@
+"""In-run cross-checks of ``verifier check --crosscheck`` (DESIGN 5).
+
+(a) Same obligation, second solver: every rule's exported SMT-LIB obligations
+    (:mod:`verifier.smt.export`) are re-solved by cvc5 (:mod:`verifier.smt.second`) and must
+    give the same answer as z3's verdict. This checks the solver only: a bug in the shared
+    encoding would pass both.
+(b) Boundary replay: the solver is asked for several distinct worlds of each rule's ``given``
+    near the edge of its ``expect`` (:func:`verifier.smt.concrete.boundary_worlds`); each is
+    replayed in the simulator, which must find it in scope, satisfying the given, and agree with
+    the encoding on the expect and with the verdict (no failing world for a rule that holds, no
+    world at all for a vacuous one). This checks the encoding against the simulator.
+(c) Replay of every counterexample and witness, which the engine always does.
+
+A disagreement turns the rule's verdict into ``error`` (kind ``internal``, exit code 4) with
+both answers in the message. An undecided second solver is recorded, never counted as
+agreement or disagreement.
+"""
+
+from __future__ import annotations
+
+import attrs
+
+from verifier.errors import UsageError
+from verifier.world.scenario import world_from_flat
+from verifier.world.sim import State, applies, evaluate, scope_problems
+
+CHECKED = ("holds", "violated", "vacuous")
+
+
+@attrs.frozen
+class RuleCross:
+    pack: str
+    rule: str
+    verdict: str                  # the engine's verdict
+    second: dict                  # obligation -> cvc5 answer (sat/unsat/unknown)
+    second_expected: dict         # obligation -> the answer the verdict implies
+    samples: int                  # boundary worlds replayed
+    problems: tuple               # disagreements, as text
+
+
+@attrs.frozen
+class CrossReport:
+    checks: tuple                 # which checks ran, in words
+    rules: tuple                  # RuleCross
+    second_solver: str
+
+    def counts(self) -> dict:
+        answers = [(v, self_exp) for r in self.rules for k, v in r.second.items()
+                   for self_exp in [r.second_expected[k]]]
+        return {
+            "rules": len(self.rules),
+            "obligations": len(answers),
+            "second_agree": sum(1 for a, e in answers if a == e),
+            "second_undecided": sum(1 for a, _ in answers if a == "unknown"),
+            "second_disagree": sum(1 for a, e in answers if a != "unknown" and a != e),
+            "boundary_worlds": sum(r.samples for r in self.rules),
+            "disagreements": sum(len(r.problems) for r in self.rules),
+        }
+
+    def summary(self) -> str:
+        c = self.counts()
+        return (f"crosscheck: {'; '.join(self.checks)}\n"
+                f"crosscheck: {c['rules']} rules; second solver ({self.second_solver}) agreed on "
+                f"{c['second_agree']} of {c['obligations']} obligations, undecided on "
+                f"{c['second_undecided']}, disagreed on {c['second_disagree']}; "
+                f"{c['boundary_worlds']} boundary worlds replayed; {c['disagreements']} disagreements")
+
+    def as_json(self) -> dict:
+        return {"checks": list(self.checks), "second_solver": self.second_solver,
+                "counts": self.counts(),
+                "rules": [{"pack": r.pack, "id": r.rule, "verdict": r.verdict, "second": r.second,
+                           "boundary_worlds": r.samples, "problems": list(r.problems)}
+                          for r in self.rules]}
+
+
+def _second(pack, rule, bound, verdict, timeout) -> tuple[dict, dict, list]:
+    from verifier.smt import export, second
+    texts = export.obligations(pack, rule, bound, verdict)
+    want = dict(zip(("violation", "given"), export.STATUS[verdict]))
+    got, problems = {}, []
+    for kind in ("violation", "given"):
+        if verdict == "violated" and kind == "given":
+            continue           # implied by the violation answer
+        ans = second.solve_text(texts[kind], timeout=timeout)
+        got[kind] = ans.status
+        if ans.status != "unknown" and ans.status != want[kind]:
+            problems.append(f"same obligation, second solver: z3 verdict {verdict} means the "
+                            f"{kind} obligation is {want[kind]}, {second.version()} says {ans.status}")
+    return got, {k: want[k] for k in got}, problems
+
+
+def _boundary(pack, rule, bound, verdict, count, timeout) -> tuple[int, list]:
+    from verifier.smt.concrete import boundary_worlds
+    samples = boundary_worlds(pack, rule, bound, count=count, timeout=timeout)
+    problems = []
+    for s in samples:
+        world = world_from_flat(s.world)
+        where = f"boundary world ({s.why})"
+        if verdict == "vacuous":
+            problems.append(f"{where}: the verdict is vacuous but the solver found a world of the given")
+        outside = scope_problems(world, pack.scope, bound)
+        if outside:
+            problems.append(f"{where} is outside the scope for the simulator: {'; '.join(outside)}")
+            continue
+        st = State(pack, world)
+        try:
+            fires = applies(rule, st)
+            value = bool(evaluate(rule.expect.node, st, {})) if fires else None
+        except Exception as exc:  # noqa: BLE001 - reported, never hidden
+            problems.append(f"{where}: the simulator failed: {exc!r}")
+            continue
+        if not fires:
+            problems.append(f"{where}: solver says the given holds, simulator says it does not")
+        elif value != s.expect:
+            problems.append(f"{where}: solver says expect is {s.expect}, simulator says {value}")
+        elif verdict == "holds" and not value:
+            problems.append(f"{where}: the verdict is holds but the simulator finds expect false")
+    return len(samples), problems
+
+
+def crosscheck_results(packs, results, opts, *, boundary: int = 4, second_timeout: float | None = None):
+    """Run the cross-checks on the results of ``check_packs``; return the results (a rule with
+    a disagreement becomes ``error``, kind ``internal``) and a :class:`CrossReport`."""
+    from verifier.smt import second
+    if not second.available():
+        raise UsageError("--crosscheck needs cvc5: pip install 'verifier[crosscheck]'")
+    timeout = second_timeout or (opts.timeout if opts.timeout else 60.0)
+    by_name = {p.name: p for p in packs}
+    new_results, crosses = [], []
+    for pr in results:
+        pack = by_name[pr.name]
+        rules = []
+        for r in pr.results:
+            if r.verdict not in CHECKED:
+                rules.append(r)
+                continue
+            rule = pack.rule(r.rule)
+            got, want, problems = _second(pack, rule, r.bound, r.verdict, timeout)
+            n, more = _boundary(pack, rule, r.bound, r.verdict, boundary, min(timeout, 20.0))
+            problems += more
+            crosses.append(RuleCross(pack.name, rule.id, r.verdict, got, want, n, tuple(problems)))
+            if problems:
+                r = attrs.evolve(r, verdict="error", kind="internal",
+                                 message=f"cross-check failed (verdict was {r.verdict}): " + "; ".join(problems))
+            rules.append(r)
+        new_results.append(attrs.evolve(pr, results=tuple(rules)))
+    checks = (f"(a) same obligation, second solver: {second.version()} re-solved the exported SMT-LIB",
+              f"(b) up to {boundary} boundary worlds per rule replayed in the simulator",
+              "(c) every counterexample and witness replayed in the simulator (engine)")
+    return new_results, CrossReport(checks, tuple(crosses), second.version())
