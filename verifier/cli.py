@@ -142,6 +142,23 @@ def cmd_check(args) -> int:
     return exit_code(results, input_errors)
 
 
+def cmd_diff(args) -> int:
+    """verifier diff OLD NEW (logic in verifier.diff)."""
+    from verifier import diff
+    from verifier.cache import Cache
+    from verifier.parallel import check_jobs
+    cache = None if args.no_cache else Cache(warn=lambda w: print(f"verifier: warning: {w}", file=sys.stderr))
+    opts = diff.DiffOptions(legs=args.legs, rlimit=args.rlimit, timeout=args.timeout,
+                            jobs=check_jobs(args.jobs), cache=cache,
+                            out=Path(args.out) if args.out else None)
+    diffs = diff.diff_specs(args.old, args.new, opts)
+    if args.json:
+        print(json.dumps(diff.as_json(diffs, args.old, args.new), indent=2, sort_keys=True))
+    else:
+        print(diff.table(diffs, args.old, args.new))
+    return diff.exit_code(diffs)
+
+
 def cmd_replay(args) -> int:
     from verifier.replay import replay_paths
     outcomes = replay_paths(args.paths or ["counterexamples"])
@@ -212,6 +229,22 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--smt2", metavar="DIR", help="write each rule's proof obligations as portable "
                    "SMT-LIB 2.6 files (DIR/<pack>/<rule>.smt2 and .given.smt2) for any solver")
     c.set_defaults(func=cmd_check)
+
+    d = sub.add_parser("diff", help="compare two versions of a pack: verdicts, coverage, claims",
+                       description="Compare OLD and NEW (pack files, directories, or REV:PATH in the "
+                                   "working git repository). Exit code: 0 no verdict changes; 1 some "
+                                   "verdict changes; 2 bad input; 3 something unknown; 4 internal "
+                                   "cross-check failure. Writes files only with --out.")
+    d.add_argument("old", metavar="OLD")
+    d.add_argument("new", metavar="NEW")
+    d.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
+    d.add_argument("--legs", type=int, metavar="K", help="bound for both sides (overrides packs and rules)")
+    d.add_argument("--out", metavar="DIR", help="write distinguishing worlds and counterexamples under DIR (default: write nothing)")
+    d.add_argument("--timeout", type=float, metavar="SECONDS", help="wall-clock guard per question (default 120)")
+    d.add_argument("--rlimit", type=int, metavar="N", help="deterministic solver budget per check")
+    d.add_argument("--jobs", type=int, default=1, metavar="N", help="decide verdicts in N worker processes")
+    d.add_argument("--no-cache", action="store_true", help="neither read nor write .verifier-cache/")
+    d.set_defaults(func=cmd_diff)
 
     r = sub.add_parser("replay", help="re-run archived counterexamples against today's rules",
                        description="For each counterexample file: still violated, now holds, rule "

@@ -1,0 +1,86 @@
+"""The verdict cache: only what an edit reaches is solved again; bad files are never trusted."""
+
+from __future__ import annotations
+
+import json
+
+from verifier.cache import Cache, rule_key
+from verifier.check.typer import check_pack
+from verifier.engine import CheckOptions, check_packs
+from verifier.lang.pack import parse_pack_text
+from verifier.parallel import solve_in_order
+from verifier.smt.solve import Solved
+
+
+def _pack(short: str = "100 m"):
+    """50 rules, legs = 0 (cheap to solve); rules r03, r17, r41 use the let `short`."""
+    lines = ['[pack]\nname = "fifty"\ntitle = "fifty rules"\nlegs = 0\n',
+             f'[let]\nshort = "train.length <= {short}"\n']
+    for i in range(50):
+        if i in (3, 17, 41):
+            lines.append(f'[[rule]]\nid = "r{i:02}"\ntitle = "t"\ngiven = "short"\n'
+                         f'expect = "train.antenna <= train.length"\n')
+        else:
+            lines.append(f'[[rule]]\nid = "r{i:02}"\ntitle = "t"\n'
+                         f'expect = "train.length >= {i} m or lrbg.read >= 1"\n')
+    return check_pack(parse_pack_text("\n".join(lines), "fifty.toml"))
+
+
+def _solved_ids(pack, cache):
+    return [r.id for r, p in zip(pack.rules, solve_in_order([(pack, r) for r in pack.rules], cache=cache))
+            if not p.cached]
+
+
+def test_editing_one_let_resolves_only_its_rules(tmp_path):
+    base = _pack()
+    assert len(_solved_ids(base, Cache(tmp_path))) == 50           # cold: everything
+    assert _solved_ids(base, Cache(tmp_path)) == []                 # warm: nothing
+    edited = _pack("50 m")
+    assert _solved_ids(edited, Cache(tmp_path)) == ["r03", "r17", "r41"]
+    # and the cached run gives the very results of a cold run without cache
+    warm = check_packs([edited], CheckOptions(out=None, cache=Cache(tmp_path)))
+    cold = check_packs([edited], CheckOptions(out=None))
+    strip = lambda res: [(r.rule, r.verdict, r.witness, r.message) for p in res for r in p.results]  # noqa: E731
+    assert strip(warm) == strip(cold)
+
+
+def test_key_covers_what_decides_the_verdict():
+    a = _pack()
+    r = a.rules[3]
+    assert rule_key(a, r, 0) != rule_key(_pack("50 m"), _pack("50 m").rules[3], 0)   # its let
+    assert rule_key(a, r, 0) != rule_key(a, r, 1)                                     # the bound
+    assert rule_key(a, a.rules[0], 0) == rule_key(_pack("50 m"), _pack("50 m").rules[0], 0)  # unrelated let
+
+
+def test_unknown_and_cut_short_results_are_never_stored(tmp_path):
+    c = Cache(tmp_path)
+    assert not c.put("a" * 64, Solved("unknown", reason="timeout"))
+    assert not c.put("b" * 64, Solved("violated", world={}, minimal=False))
+    assert not list(tmp_path.rglob("*.json"))
+
+
+def test_corrupted_and_foreign_files_are_ignored_with_a_warning(tmp_path):
+    pack = _pack()
+    todo = [(pack, r) for r in pack.rules[:2]]
+    list(solve_in_order(todo, cache=Cache(tmp_path)))
+    assert len(list(tmp_path.rglob("*.json"))) == 2
+    files = [Cache(tmp_path)._file(rule_key(pack, r, 0)) for _, r in todo]
+    # 1: a tampered verdict with the checksum left as it was; 2: a file of another format
+    doc = json.loads(files[0].read_text())
+    doc["solved"]["verdict"] = "vacuous"
+    files[0].write_text(json.dumps(doc))
+    files[1].write_text(json.dumps({"format": "someone-else/3", "solved": {}}))
+    seen = []
+    cache = Cache(tmp_path, warn=seen.append)
+    again = list(solve_in_order(todo, cache=cache))
+    assert [p.cached for p in again] == [False, False]                 # both solved afresh
+    assert [p.solved.verdict for p in again] == ["holds", "holds"]
+    assert len(seen) == 2 and any("checksum" in w for w in seen) and any("foreign" in w for w in seen)
+    # 3: bytes that are not JSON at all
+    files[0].write_bytes(b"\x00\xff garbage")
+    seen.clear()
+    again = list(solve_in_order(todo, cache=Cache(tmp_path, warn=seen.append)))
+    assert [p.cached for p in again] == [False, True] and len(seen) == 1 and "not valid JSON" in seen[0]
+    seen.clear()
+    assert [p.cached for p in solve_in_order(todo, cache=Cache(tmp_path, warn=seen.append))] == [True, True]
+    assert seen == []        # rewritten by the run before

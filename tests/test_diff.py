@@ -1,0 +1,196 @@
+"""verifier diff: each edit classified as worked out by hand, with replayable worlds."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+from pathlib import Path
+
+import pytest
+
+from verifier import diff
+from verifier.cli import main
+from verifier.gitrev import load_side
+from verifier.loader import load_pack
+
+ROOT = Path(__file__).resolve().parent.parent
+PACKS = ROOT / "tests" / "packs"
+
+
+def _by_id(diffs):
+    return {r.id: r for d in diffs for r in d.rules}
+
+
+def _assert_replayable(rule_diff, old_pack, new_pack):
+    """Every world found is confirmed again by the simulator from its file content alone."""
+    found = [w for w in rule_diff.worlds if w.status == "found"]
+    for w in found:
+        doc = json.loads(json.dumps(w.doc))       # as written and read back
+        assert diff.replay_distinction(doc, old_pack, new_pack), (w.kind, w.direction)
+    return {(w.kind, w.direction): w.doc for w in found}
+
+
+def test_edited_given_and_expect_of_the_small_pack():
+    old, new = load_pack(PACKS / "edit-base.toml"), load_pack(PACKS / "edit-given-expect.toml")
+    diffs = diff.diff_packs([old], [new])
+    rules = _by_id(diffs)
+    # seen-when-read-twice: given read >= 2 became read >= 3. Every world with read >= 3 has
+    # read >= 2, not conversely (read = 2): coverage narrower. Both versions hold (two balises
+    # read always show the direction), so both claims are valid: equivalent.
+    r = rules["seen-when-read-twice"]
+    assert (r.status, r.edits, r.coverage, r.claim) == ("edited", ("given",), "narrower", "equivalent")
+    assert (r.old.verdict, r.new.verdict, r.verdict_changed) == ("holds", "holds", False)
+    worlds = _assert_replayable(r, old, new)
+    assert set(worlds) == {("coverage", "old-only")}
+    # minimal: fewest balises that allow read = 2, read itself 2
+    assert worlds[("coverage", "old-only")]["world"]["lrbg"] == {
+        "balises": 2, "read": 2, "linked": False, "locacc": "0", "offset": "0"}
+    # length-floor: expect length >= 20 m became >= 10 m, given empty. length >= 20 implies
+    # length >= 10, not conversely: the new claim is implied by the old one, i.e. weaker, and
+    # a world with 10 <= length < 20 tells them apart; the least on the grid is 10 m (the
+    # scope's lowest length). Old violated (10 m trains exist), new holds: verdict changes.
+    r = rules["length-floor"]
+    assert (r.edits, r.coverage, r.claim) == (("expect",), "same", "weaker")
+    assert (r.old.verdict, r.new.verdict, r.verdict_changed) == ("violated", "holds", True)
+    worlds = _assert_replayable(r, old, new)
+    assert set(worlds) == {("claim", "new-only")}
+    doc = worlds[("claim", "new-only")]
+    assert doc["world"]["train"]["length"] == "10"
+    assert doc["outcome"]["old"] == {"given": True, "expect": False, "claim": False}
+    assert doc["outcome"]["new"] == {"given": True, "expect": True, "claim": True}
+    assert r.old.world["train"]["length"] == "10"        # the old counterexample
+    assert rules["short-is-short"].status == rules["antenna-inside-train"].status == "unchanged"
+    assert diff.exit_code(diffs) == 1
+    assert diffs[0].sections == ()      # only rules were edited
+
+
+def test_edited_let_reaches_only_its_rules():
+    old, new = load_pack(PACKS / "edit-base.toml"), load_pack(PACKS / "edit-let.toml")
+    diffs = diff.diff_packs([old], [new])
+    rules = _by_id(diffs)
+    # short_train: length <= 100 m became <= 50 m. short-is-short's given narrows (a 51 m
+    # train, the least whole-metre length above 50, is covered only by the old one); its
+    # expect (length <= 100 m) holds under both, so both claims are valid: equivalent.
+    r = rules["short-is-short"]
+    assert (r.status, r.edits, r.coverage, r.claim) == ("edited", ("let.short_train",), "narrower", "equivalent")
+    worlds = _assert_replayable(r, old, new)
+    assert worlds[("coverage", "old-only")]["world"]["train"]["length"] == "51"
+    assert [x.id for x in diffs[0].rules if x.status == "edited"] == ["short-is-short"]
+    (sec,) = diffs[0].sections
+    assert (sec.key, sec.change, sec.reaches, sec.changes_verdict) == (
+        "let.short_train", "edited", ("short-is-short",), ())
+    assert diff.exit_code(diffs) == 0
+
+
+def test_shipped_position_report_edits(tmp_path):
+    text = (ROOT / "rules" / "position-report.toml").read_text(encoding="utf-8")
+    old_given = 'given = "passage.seen != unknown and passage.running == forward and cab_changes == 0"'
+    assert old_given in text
+    edited = text.replace(old_given, 'given = "passage.seen != unknown and passage.running == forward"')
+    edited = edited.replace('given = "lrbg.read >= 2"\n', 'given = "lrbg.read >= 2 or lrbg.linked"\n', 1)
+    (tmp_path / "pr.toml").write_text(edited, encoding="utf-8")
+    old, new = load_pack(ROOT / "rules" / "position-report.toml"), load_pack(tmp_path / "pr.toml")
+    diffs = diff.diff_packs([old], [new], diff.DiffOptions(legs=1))
+    rules = _by_id(diffs)
+    # front-first-keeps-orientation lost "cab_changes == 0": coverage wider (a world with a
+    # cab change is newly covered). The new claim (fewer conditions, same conclusion) implies
+    # the old one; the old does not imply the new, since after a cab change the orientation
+    # flips: stronger, and the new version is violated (holds -> violated).
+    r = rules["front-first-keeps-orientation"]
+    assert (r.coverage, r.claim, r.old.verdict, r.new.verdict) == ("wider", "stronger", "holds", "violated")
+    worlds = _assert_replayable(r, old, new)
+    assert set(worlds) == {("coverage", "new-only"), ("claim", "old-only")}
+    cex = worlds[("claim", "old-only")]
+    assert [leg["cab_change"] for leg in cex["world"]["legs"]] == [True]   # one leg, one cab change
+    assert cex["outcome"]["new"]["claim"] is False
+    # seen-from-reading-order gained "or lrbg.linked": wider (read 1, linked is new); linking
+    # also gives the direction, so both versions hold: equivalent.
+    r = rules["seen-from-reading-order"]
+    assert (r.coverage, r.claim, r.old.verdict, r.new.verdict) == ("wider", "equivalent", "holds", "holds")
+    w = _assert_replayable(r, old, new)[("coverage", "new-only")]["world"]["lrbg"]
+    assert (w["read"], w["linked"]) == (1, True)
+    assert sum(1 for x in rules.values() if x.status == "edited") == 2
+    assert diff.exit_code(diffs) == 1
+
+
+def test_demo_pack_edit_and_cli_output(tmp_path, monkeypatch, capsys):
+    text = (ROOT / "rules" / "demo" / "kestrel-quay.toml").read_text(encoding="utf-8")
+    edited = text.replace('given = "lrbg.read >= 2"\n', 'given = "lrbg.read >= 2 or lrbg.linked"\n', 1)
+    assert edited != text
+    (tmp_path / "kq.toml").write_text(edited, encoding="utf-8")
+    import shutil
+    shutil.copy(ROOT / "rules" / "demo" / "kestrel-quay.toml", tmp_path / "kq-old.toml")
+    monkeypatch.chdir(tmp_path)
+    # group-direction-known: read >= 2 widened by "or linked" (a linked single reading is new);
+    # the design takes the direction from linking too, so both hold: equivalent claims.
+    code = main(["diff", "kq-old.toml", "kq.toml", "--json", "--no-cache"])
+    doc = json.loads(capsys.readouterr().out)
+    assert code == 0
+    (pack,) = doc["packs"]
+    rules = {r["id"]: r for r in pack["rules"]}
+    r = rules["group-direction-known"]
+    assert (r["status"], r["coverage"], r["claim"], r["verdict_changed"]) == ("edited", "wider", "equivalent", False)
+    assert [w["direction"] for w in r["worlds"]] == ["new-only"]
+    assert sum(1 for x in rules.values() if x["status"] == "unchanged") == 5
+    assert not (tmp_path / "counterexamples").exists()     # a diff writes nothing unless asked
+    assert not (tmp_path / "out").exists()
+    code = main(["diff", "kq-old.toml", "kq.toml", "--no-cache", "--out", "out"])
+    table = capsys.readouterr().out
+    assert code == 0 and "coverage wider  claim equivalent" in table
+    files = sorted(p.name for p in (tmp_path / "out").rglob("*.json"))
+    assert files == ["group-direction-known.coverage-new-only.json"]
+    assert not (tmp_path / "counterexamples").exists()
+
+
+def _git(cwd, *args):
+    subprocess.run(["git", *args], cwd=cwd, check=True, capture_output=True)
+
+
+def test_git_revisions_and_bad_input(tmp_path, monkeypatch, capsys):
+    base = (PACKS / "edit-base.toml").read_text(encoding="utf-8")
+    (tmp_path / "p.toml").write_text(base, encoding="utf-8")
+    _git(tmp_path, "init", "-q")
+    _git(tmp_path, "add", "p.toml")
+    _git(tmp_path, "-c", "user.name=t", "-c", "user.email=t@example.invalid", "commit", "-q", "-m", "base")
+    (tmp_path / "p.toml").write_text((PACKS / "edit-let.toml").read_text(encoding="utf-8"), encoding="utf-8")
+    monkeypatch.chdir(tmp_path)
+    (old,) = load_side("HEAD:p.toml", "OLD")
+    assert old.path == "HEAD:p.toml" and old.rule("short-is-short").given.text == "short_train"
+    assert main(["diff", "HEAD:p.toml", "p.toml", "--no-cache"]) == 0
+    assert "section edited   let.short_train: reaches short-is-short" in capsys.readouterr().out
+    # a missing revision: exit 2, the side named
+    assert main(["diff", "nosuchrev:p.toml", "p.toml", "--no-cache"]) == 2
+    err = capsys.readouterr().err
+    assert "OLD" in err and "nosuchrev" in err
+    # a file that fails to load on one side
+    (tmp_path / "bad.toml").write_text(base.replace('expect = "train.length >= 20 m"', 'expect = "train.lenght >= 20 m"'),
+                                       encoding="utf-8")
+    assert main(["diff", "p.toml", "bad.toml", "--no-cache"]) == 2
+    err = capsys.readouterr().err
+    assert "bad.toml" in err and "NEW:" in err and "OLD" not in err
+    # two packs with different names
+    (tmp_path / "other.toml").write_text(base.replace('name = "edit-demo"', 'name = "other"'), encoding="utf-8")
+    assert main(["diff", "p.toml", "other.toml", "--no-cache"]) == 2
+    assert "'edit-demo'" in capsys.readouterr().err
+    assert not (tmp_path / "counterexamples").exists()
+
+
+def test_added_and_removed_rules_change_verdicts():
+    old = load_pack(PACKS / "edit-base.toml")
+    text = (PACKS / "edit-base.toml").read_text(encoding="utf-8")
+    cut = text.index('[[rule]]\nid = "antenna-inside-train"')
+    from verifier.check.typer import check_pack
+    from verifier.lang.pack import parse_pack_text
+    new = check_pack(parse_pack_text(text[:cut] + '[[rule]]\nid = "read-at-most-balises"\ntitle = "t"\n'
+                                     'expect = "lrbg.read <= lrbg.balises"\n', "new.toml"))
+    rules = _by_id(diff.diff_packs([old], [new]))
+    assert (rules["antenna-inside-train"].status, rules["antenna-inside-train"].old.verdict) == ("removed", "holds")
+    assert (rules["read-at-most-balises"].status, rules["read-at-most-balises"].new.verdict) == ("added", "holds")
+    assert rules["read-at-most-balises"].verdict_changed and rules["antenna-inside-train"].verdict_changed
+
+
+@pytest.mark.parametrize("spec", ["nosuch.toml", "HEAD:nosuch/dir"])
+def test_missing_sides_are_usage_errors(spec, capsys, monkeypatch):
+    monkeypatch.chdir(ROOT)
+    assert main(["diff", spec, str(PACKS / "edit-base.toml"), "--no-cache"]) == 2
+    assert "OLD" in capsys.readouterr().err
