@@ -62,7 +62,8 @@ def _table(results, input_diags) -> str:
         for r in p.results:
             counts[r.verdict] += 1
             verdict = r.verdict if r.verdict != "error" else f"error ({r.kind})"
-            lines.append(f"  {verdict:<9} {r.rule:<{width}}  {_bound_words(r.bound):<13} {r.seconds:6.2f} s")
+            lines.append(f"  {verdict:<9} {r.rule:<{width}}  {_bound_words(r.bound):<13} {r.seconds:6.2f} s"
+                         + ("  (cached)" if r.cached else ""))
             if r.premise:
                 lines.append(f"            implicit premise: {r.premise}")
             if r.counterexample:

@@ -53,6 +53,7 @@ class RuleResult:
     solver: str = ""
     premise: str | None = None
     solver_seconds: float = 0.0
+    cached: bool = False    # the solver's answer came from .verifier-cache/ (replayed all the same)
 
     def as_json(self) -> dict:
         return {"id": self.rule, "verdict": self.verdict, "bound": self.bound,
@@ -96,7 +97,8 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None) -> Ru
     base = dict(pack=pack.name, rule=rule.id, title=rule.title, line=rule.line, bound=bound,
                 rlimit=solved.rlimit, checks=solved.checks, solver=solved.solver,
                 solver_seconds=solved.solver_seconds,
-                premise=cexfile.implicit_premise(rule), minimal=solved.minimal)
+                premise=cexfile.implicit_premise(rule), minimal=solved.minimal,
+                cached=bool(getattr(presolved, "cached", False)))
 
     def result(verdict, **kw):
         return RuleResult(verdict=verdict, seconds=time.monotonic() - t0, **{**base, **kw})
