@@ -491,15 +491,8 @@ def interval_words(real, lo, hi) -> str:
 
 
 def _front_at_detection(st: State) -> tuple:
-    """Real and estimated front at the detection instant (DESIGN 4.2, 4.3): the simulator keeps
-    only the state after each leg, so this one is computed here from the inputs."""
-    w = st.world
-    s = -1 if w.direction.word == "reverse" else 1
-    o = s if w.running.word == "forward" else -s
-    real = w.offset + s * w.detect_error + o * w.antenna
-    known = st.get("passage.seen").word != "unknown"
-    est = (o if known else (1 if w.running.word == "forward" else -1)) * w.antenna
-    return real, est
+    """Real and estimated front at the detection instant (DESIGN 4.2, 4.3)."""
+    return st.get("passage.actual_front"), st.get("passage.est_front")
 
 
 def show(file: str, pack_path: str | None = None, svg: str | None = None) -> tuple[str, str | None]:

@@ -115,6 +115,8 @@ class Encoding:
         est_p = self.define("est.front_passage@0", self.along(op, antenna))
         known = self.define("passage.known", z3.Or(read >= 2, linked), "bool")
         frame = z3.If(known, direction, 1)
+        self.terms["passage.actual_front"] = front
+        self.terms["passage.est_front"] = self.along(frame, est_p)
         motion = direction
         over = self.pos(-det)
         under = self.pos(det)

@@ -261,7 +261,7 @@ def read_values(model, enc: Encoding, names) -> dict:
 
 
 # The derived names compared between the encoding and the simulator after each solve.
-COMPARED = ("passage.seen", "cab_changes", "actual.front", "actual.rear", "actual.orientation",
+COMPARED = ("passage.seen", "passage.actual_front", "passage.est_front", "cab_changes", "actual.front", "actual.rear", "actual.orientation",
             "actual.motion", "actual.travelled", "est.front", "est.rear", "est.orientation", "est.motion",
             "est.travelled", "est.d_lrbg", "est.l_doubtover", "est.l_doubtunder",
             "report.q_dlrbg", "report.q_dirlrbg", "report.q_dirtrain", "report.d_lrbg",

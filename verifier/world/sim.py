@@ -135,6 +135,7 @@ class State:
         op = 1 if w.running is FWD else -1
         est_p = op * w.antenna
         frame = s if known else 1     # passage frame -> frame of est.front
+        v["passage.actual_front"], v["passage.est_front"] = front, frame * est_p
         motion = s
         travelled = measured = F(0)
         cab_changes = 0

@@ -74,6 +74,8 @@ GLOBAL = {e.name: e for e in [
     _e("passage.direction", DIRECTION, NOBODY, "hidden-input", "real direction of movement over the group"),
     _e("passage.running", RUNNING, OB, "input", "front end first (forward) or rear first (backward) over the group"),
     _e("passage.detect_error", LENGTH, NOBODY, "hidden-input", "error locating the reference mark (positive: antenna further along than believed)"),
+    _e("passage.actual_front", LENGTH, NOBODY, "derived", "real front end at the detection instant"),
+    _e("passage.est_front", LENGTH, OB, "derived", "estimated front end at the detection instant (o * antenna; passage frame when the passage is unknown)"),
     _e("passage.seen", DIRECTION, OB, "derived", "passage direction as the onboard knows it (unknown for one unlinked balise)"),
     _e("legs.count", COUNT, OB, "input", "movement legs after the passage"),
     _e("cab_changes", COUNT, OB, "derived", "cab changes over the active legs"),
