@@ -240,3 +240,37 @@ def boundary_worlds(pack: Pack, rule, bound: int, *, count: int = 4, timeout: fl
         out.append(Sample(world, g, e, why))
         s.add(z3.Or([c != m.eval(c, model_completion=True) for c in inputs]))
     return out
+
+
+def violation_status(pack: Pack, rule, bound: int, *, rlimit: int = 20_000_000,
+                     timeout: float = 5.0) -> str:
+    """One solver question, without minimisation or replay: is there a world in scope where
+    the rule's given holds and its expect does not? ``sat``, ``unsat`` or ``unknown``.
+    (For fuzzing the encoder cheaply; verdicts come from :mod:`verifier.engine`.)"""
+    ctx = z3.Context()
+    enc = Encoding(pack, bound, ctx)
+    given, expect = enc.given(rule), enc.expect(rule)
+    s = z3.Solver(ctx=ctx)
+    s.set("rlimit", rlimit)
+    s.set("timeout", int(timeout * 1000))
+    s.add(*enc.constraints)
+    s.add(given, z3.Not(expect))
+    return str(s.check())
+
+
+def same_outputs(original: Pack, mutant: Pack, bound: int, names, *, rlimit: int = 50_000_000,
+                 timeout: float = 20.0) -> str:
+    """Whether two versions of a pack give the same value to every name of ``names`` in every
+    world in scope up to ``bound`` legs: ``equivalent`` (proved), ``different`` (a world
+    tells them apart) or ``unknown``. Both are encoded over one set of inputs."""
+    ctx = z3.Context()
+    a = Encoding(original, bound, ctx)
+    b = Encoding(mutant, bound, ctx, prefix="mutant!")
+    differ = [a.name(n) != b.name(n) for n in names]
+    s = z3.Solver(ctx=ctx)
+    s.set("rlimit", rlimit)
+    s.set("timeout", int(timeout * 1000))
+    s.add(*a.constraints, *b.constraints)
+    s.add(z3.Or(differ))
+    r = s.check()
+    return {"unsat": "equivalent", "sat": "different"}.get(str(r), "unknown")
