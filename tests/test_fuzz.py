@@ -20,18 +20,9 @@ from verifier.strategies import profile
 ROOT = Path(__file__).resolve().parent.parent
 LIMIT = 30.0       # seconds per input, a hang guard (each solver question has a 5 s budget)
 
-# Failures found by this fuzzer in code this suite does not own, reported to the maintainers of
-# verifier/lang/. Each is reproduced by a strict xfail test below; once fixed, that test passes
-# unexpectedly and the entry must be removed from here.
-KNOWN = {
-    # signature (every part must appear in the failure's detail) -> what it is
-    "integer string conversion": "a number with more than 4300 digits escapes as ValueError "
-                                 "(tomllib and the expression parser)",
-    "maximum recursion depth": "a chain of ~1000 nested if-then-else escapes as RecursionError "
-                               "in the expression parser (the depth guard does not count them)",
-    "KeyError|check/typer.py": "a [params] value that names a let escapes as KeyError from the "
-                                "type checker",
-}
+# Failures this fuzzer found (and that are now fixed) are pinned as regression tests at the end
+# of this file. A new failure signature can be listed here while it is being fixed.
+KNOWN: dict = {}
 
 
 def _known(detail: str) -> bool:
@@ -105,24 +96,21 @@ def test_clean_errors_render_with_a_place(tmp_path):
     assert out.result == "error" and out.stage == "type-checker"
 
 
-@pytest.mark.xfail(strict=True, reason=KNOWN["integer string conversion"])
-def test_known_bug_huge_integer_is_a_clean_error(tmp_path):
+def test_found_by_fuzzing_huge_integer_is_a_clean_error(tmp_path):
     f = tmp_path / "p.toml"
     f.write_text('[pack]\nname = "p"\ntitle = "t"\nlegs = ' + "9" * 5000 + "\n")
     with pytest.raises(PackError):
         load_pack(f)
 
 
-@pytest.mark.xfail(strict=True, reason=KNOWN["maximum recursion depth"])
-def test_known_bug_deep_if_chain_is_a_clean_error(tmp_path):
+def test_found_by_fuzzing_deep_if_chain_is_a_clean_error(tmp_path):
     f = tmp_path / "p.toml"
     f.write_text(_pack_around(random.Random(3), [(None, "if true then " * 1000 + "true" + " else false" * 1000)]))
     with pytest.raises(PackError):
         load_pack(f)
 
 
-@pytest.mark.xfail(strict=True, reason=KNOWN["KeyError|check/typer.py"])
-def test_known_bug_param_naming_a_let_is_a_clean_error(tmp_path):
+def test_found_by_fuzzing_param_naming_a_let_is_a_clean_error(tmp_path):
     f = tmp_path / "p.toml"
     f.write_text('[pack]\nname = "p"\ntitle = "t"\n\n[params]\nx = "if flag then 1 m else 0 m"\n\n'
                  '[let]\nflag = "true"\n\n[[rule]]\nid = "r"\ntitle = "t"\nexpect = "params.x >= 0 m"\n')

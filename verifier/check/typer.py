@@ -202,7 +202,12 @@ def _check(env: _Env, node: ast.Node) -> ast.Node:
     if isinstance(node, ast.Name):
         out = _resolve_name(env, node)
         if out.ref[0] == "let":
-            return _typed(out, env.let_types[out.ref[1]])
+            name = out.ref[1]
+            if name not in env.let_types:
+                raise env.error(node, f"a parameter is a constant: it cannot use let '{name}'")
+            if env.let_types[name] is None:
+                raise _Fail(name)   # the let's own error is already reported
+            return _typed(out, env.let_types[name])
         return out
     if isinstance(node, ast.Unary):
         operand = _check(env, node.operand)
@@ -427,6 +432,13 @@ _WIRE_PREFIXES = ("report.", "rbc.d_lrbg", "rbc.l_doubt", "rbc.placed")
 
 
 def check_pack(raw: RawPack) -> Pack:
+    try:
+        return _check_pack(raw)
+    except RecursionError:
+        raise PackError([Diagnostic(raw.path, 1, 1, "an expression is nested too deeply to check")]) from None
+
+
+def _check_pack(raw: RawPack) -> Pack:
     diags: list[Diagnostic] = [d for d in raw.diagnostics if d.severity == "error"]
     world = {k: v for k, v in raw.scope.constants().items()}
 

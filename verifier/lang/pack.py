@@ -259,6 +259,8 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise PackError([_toml_error(shown, text, exc)]) from None
+    except (ValueError, RecursionError) as exc:   # e.g. an integer of more than 4300 digits
+        raise PackError([Diagnostic(shown, 1, 1, f"malformed TOML: {exc}")]) from None
     src = SourceFile(shown, text)
     c = _Collector(src)
 

@@ -141,6 +141,22 @@ class _Build(lark.Transformer):
         return ast.Quant(str(kind), str(var), body, start=meta.start_pos, end=meta.end_pos)
 
 
+MAX_TREE_DEPTH = 4 * MAX_DEPTH
+
+
+def _tree_depth(tree) -> int:
+    """Depth of a lark tree, without recursion (if-then-else chains nest without brackets)."""
+    best = 0
+    stack = [(tree, 1)]
+    while stack:
+        node, depth = stack.pop()
+        best = max(best, depth)
+        for child in getattr(node, "children", ()):
+            if isinstance(child, lark.Tree):
+                stack.append((child, depth + 1))
+    return best
+
+
 def _nesting(text: str) -> int:
     depth = best = 0
     for ch in text:
@@ -182,10 +198,14 @@ def parse(text: str) -> ast.Node:
         raise ExprSyntaxError(f"expression nested deeper than {MAX_DEPTH} levels", 0)
     try:
         tree = _parser().parse(text)
+        if _tree_depth(tree) > MAX_TREE_DEPTH:
+            raise ExprSyntaxError(f"expression nested deeper than {MAX_DEPTH} levels", 0)
         return _Build().transform(tree)
     except lark.exceptions.VisitError as exc:  # raised inside a transformer method
         if isinstance(exc.orig_exc, ExprSyntaxError):
             raise exc.orig_exc from None
+        if isinstance(exc.orig_exc, ValueError):   # a literal beyond Python's integer-string limit
+            raise ExprSyntaxError(f"number cannot be read: {exc.orig_exc}", 0) from None
         raise
     except lark.UnexpectedCharacters as exc:
         raise ExprSyntaxError(f"unexpected character {text[exc.pos_in_stream]!r}",
@@ -202,3 +222,5 @@ def parse(text: str) -> ast.Node:
                               _describe_expected(exc.expected), len(text)) from None
     except RecursionError:
         raise ExprSyntaxError("expression too deeply nested", 0) from None
+    except ValueError as exc:   # e.g. a literal beyond Python's integer-string limit
+        raise ExprSyntaxError(f"number cannot be read: {exc}", 0) from None
