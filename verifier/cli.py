@@ -160,6 +160,31 @@ def cmd_diff(args) -> int:
     return diff.exit_code(diffs)
 
 
+def cmd_mutate(args) -> int:
+    """verifier mutate PACK... (logic in verifier.mutate)."""
+    from verifier.loader import load_pack
+    from verifier.mutate import run_catalogue
+    packs = [load_pack(p) for p in args.packs]
+    rep = run_catalogue(packs, timeout=args.timeout)
+    if args.json:
+        print(json.dumps(rep.as_json(), indent=2, sort_keys=True))
+    else:
+        print("\n".join(p.text() for p in rep.packs))
+        ratio = rep.ratio()
+        print(f"kill ratio over {len(packs)} pack(s): " + (f"{100 * ratio:.1f} %" if ratio is not None else "n/a"))
+    return EXIT_OK
+
+
+def cmd_selftest(args) -> int:
+    """verifier selftest --report DIR (logic in verifier.selftest)."""
+    from verifier import selftest
+    plan = selftest.default_plan(Path("."), args.profile)
+    data = selftest.run(plan, Path(args.report), progress=lambda m: print(m, file=sys.stderr))
+    print(f"selftest: {'all criteria met' if data['passed'] else 'some criteria NOT met'}; "
+          f"dossier: {(Path(args.report) / 'validation.md').as_posix()}")
+    return EXIT_OK if data["passed"] else EXIT_FAIL
+
+
 def cmd_replay(args) -> int:
     from verifier.replay import replay_paths
     outcomes = replay_paths(args.paths or ["counterexamples"])
@@ -246,6 +271,24 @@ def build_parser() -> argparse.ArgumentParser:
     d.add_argument("--jobs", type=int, default=1, metavar="N", help="decide verdicts in N worker processes")
     d.add_argument("--no-cache", action="store_true", help="neither read nor write .verifier-cache/")
     d.set_defaults(func=cmd_diff)
+
+    m = sub.add_parser("mutate", help="seed small errors into packs' designs and see which the rules catch",
+                       description="Mutate the onboard and trackside formulas of each PACK (flip a sign, "
+                                   "swap over and under, drop a term, change a rounding mode, travelled "
+                                   "distance for displacement, ...) and report killed, surviving, "
+                                   "equivalent and invalid mutants, and the kill ratio.")
+    m.add_argument("packs", nargs="+", metavar="PACK")
+    m.add_argument("--json", action="store_true", help="print one JSON object")
+    m.add_argument("--timeout", type=float, default=20.0, metavar="SECONDS", help="per solver question (default 20)")
+    m.set_defaults(func=cmd_mutate)
+
+    st = sub.add_parser("selftest", help="write the tool validation dossier",
+                        description="Run the differential suite, the second-solver re-check, the "
+                                    "mutation report and the fuzz summary; write them with the versions "
+                                    "used as DIR/validation.md (and .json). Exit 0 when every criterion is met.")
+    st.add_argument("--report", required=True, metavar="DIR")
+    st.add_argument("--profile", choices=("ci", "thorough"), help="validation profile (default: VERIFIER_PROFILE or ci)")
+    st.set_defaults(func=cmd_selftest)
 
     r = sub.add_parser("replay", help="re-run archived counterexamples against today's rules",
                        description="For each counterexample file: still violated, now holds, rule "
