@@ -183,11 +183,11 @@ def _worker(job: tuple) -> DiffReport:
             failure[:] = [{"pack": pack.name, "world": world_to_data(world),
                            "differences": ["generator left the scope: " + "; ".join(problems)]}]
             raise AssertionError(problems)
-        if pack.name not in evaluators:
-            evaluators[pack.name] = Evaluator(pack, bound)
+        if pack.path not in evaluators:   # by path: two versions of a pack share a name
+            evaluators[pack.path] = Evaluator(pack, bound)
         sim = simulate(pack, world)
         check_unique = unique_every and tally.worlds % unique_every == 0
-        enc = evaluators[pack.name].evaluate(flat(world), unique=bool(check_unique))
+        enc = evaluators[pack.path].evaluate(flat(world), unique=bool(check_unique))
         diffs = [str(d) for d in compare(sim, enc)]
         if enc.unique is False:
             diffs.append("the encoding does not determine: " + ", ".join(enc.ambiguous))
