@@ -125,10 +125,10 @@ def crosscheck_results(packs, results, opts, *, boundary: int = 4, second_timeou
     if not second.available():
         raise UsageError("--crosscheck needs cvc5: pip install 'verifier[crosscheck]'")
     timeout = second_timeout or (opts.timeout if opts.timeout else 60.0)
-    by_name = {p.name: p for p in packs}
     new_results, crosses = [], []
-    for pr in results:
-        pack = by_name[pr.name]
+    # results come in the order of the packs; two versions of a pack may share a name
+    for pack, pr in zip(packs, results):
+        assert pack.name == pr.name
         rules = []
         for r in pr.results:
             if r.verdict not in CHECKED:

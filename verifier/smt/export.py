@@ -191,10 +191,8 @@ def write_obligations(out_dir, checked) -> list[Path]:
 
 def write_for_results(out_dir, packs, results) -> list[Path]:
     """``--smt2 DIR`` of ``verifier check``: the obligations of every rule that was checked."""
-    by_name = {p.name: p for p in packs}
     todo = []
-    for pr in results:
-        pack = by_name[pr.name]
+    for pack, pr in zip(packs, results):      # in the order of the packs
         for r in pr.results:
             if r.verdict == "error" and r.kind == "input":
                 continue
