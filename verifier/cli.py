@@ -100,6 +100,10 @@ def cmd_check(args) -> int:
                         rlimit=args.rlimit, out=None if args.no_files else Path(args.out))
     opts = _with_jobs_and_cache(opts, args)
     fmt = "json" if args.json else args.format
+    if args.crosscheck:
+        import importlib.util
+        if importlib.util.find_spec("cvc5") is None:   # say so before any solving
+            raise UsageError("--crosscheck needs cvc5: pip install 'verifier[crosscheck]'")
     if args.report:
         from verifier.evidence.report import ensure_ours
         ensure_ours(Path(args.report))  # refuse a foreign directory before any work
@@ -342,6 +346,10 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("verifier: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:   # e.g. `verifier check | head`: the reader went away
+        import os
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
 
 
 if __name__ == "__main__":  # pragma: no cover

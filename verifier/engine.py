@@ -171,7 +171,7 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
         if missing:
             raise UsageError(f"no rule with id '{missing[0]}' in the packs given")
     todo = [(p, r) for p in packs for r in select_rules(p, opts.rules)]
-    results: dict = {p.name: [] for p in packs}
+    results: dict = {id(p): [] for p in packs}   # by identity: two packs may share a name
     from verifier.parallel import solve_in_order
     presolved = solve_in_order(todo, legs=opts.legs, timeout=opts.timeout, rlimit=opts.rlimit,
                                witness=opts.witness, jobs=opts.jobs, cache=opts.cache)
@@ -179,10 +179,10 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
         if progress:
             progress(n, len(todo), pack, rule, None)
         res = check_rule(pack, rule, opts, next(presolved))
-        results[pack.name].append(res)
+        results[id(pack)].append(res)
         if progress:
             progress(n, len(todo), pack, rule, res)
-    return [PackResult(p.name, p.path, tuple(results[p.name])) for p in packs]
+    return [PackResult(p.name, p.path, tuple(results[id(p)])) for p in packs]
 
 
 def exit_code(results: list[PackResult], input_errors: bool) -> int:

@@ -305,9 +305,14 @@ def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: _Budget 
 
     r = ses.check()
     if r == z3.sat:
+        # keep the first violating world: if the budget runs out while minimising, it is still
+        # a counterexample (reported as not minimal, and replayed like any other)
+        first = ses.s.model()
+        first_world, first_values = _read_world(first, enc), read_values(first, enc, COMPARED)
         decided = _ladder(ses, enc)
-        if ses.check() != z3.sat:  # pragma: no cover - the ladder only adds satisfiable facts
-            return finish("unknown", reason="minimisation lost the counterexample")
+        if ses.check() != z3.sat:   # the budget ran out on the final question
+            return finish("violated", world=first_world, values=first_values, minimal=False,
+                          reason="minimisation stopped by the budget")
         model = ses.s.model()
         return finish("violated", world=_read_world(model, enc),
                       values=read_values(model, enc, COMPARED), minimal=decided,
