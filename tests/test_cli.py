@@ -61,7 +61,7 @@ def test_replay_of_a_foreign_file_is_exit_2(tmp_path, monkeypatch, capsys):
 def test_simulate_toml_scenario(tmp_path, monkeypatch, capsys):
     monkeypatch.chdir(tmp_path)
     (tmp_path / "p.toml").write_text(pack_text(rule_toml("side", "report.q_dlrbg == nominal", "rbc.placed")))
-    # the terminus worked by hand (FACTS.md): 120 m in, change of cab: front at -3 - 120 + 100
+    # the terminus worked by hand (docs/facts.md): 120 m in, change of cab: front at -3 - 120 + 100
     (tmp_path / "s.toml").write_text(
         '[lrbg]\nbalises = 2\nread = 2\nlocacc = "5 m"\n'
         '[train]\nlength = "100 m"\nantenna = "3 m"\n'

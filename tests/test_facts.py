@@ -95,7 +95,7 @@ def test_default_detection_is_subset036_1_m():
 
 
 def test_terminus_reversal_worked_by_hand(write_pack):
-    # Common practice, worked by hand (FACTS.md): front first into a terminus over the group in
+    # Common practice, worked by hand (docs/facts.md): front first into a terminus over the group in
     # its reverse direction, stop, change cab, leave front first. Train 100 m, antenna 3 m.
     # At the passage the front is at -3 m. Running in x m puts it at -3 - x; after the change of
     # cab the front (the former rear) is at -3 - x + 100.

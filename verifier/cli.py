@@ -317,8 +317,8 @@ def build_parser() -> argparse.ArgumentParser:
     w.add_argument("file", metavar="FILE")
     w.add_argument("--pack", metavar="PACK", help="the pack the file was found with (default: "
                    "its recorded path, from here or a folder above the file)")
-    w.add_argument("--svg", nargs="?", const="", metavar="OUT", help="also write the diagram: "
-                   "beside FILE (no value), to OUT, or to stdout instead of the story (-)")
+    w.add_argument("--svg", metavar="OUT", help="also write the diagram to OUT (an .svg file), "
+                   "or to stdout instead of the story with '-'")
     w.set_defaults(func=cmd_show)
     return p
 

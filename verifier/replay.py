@@ -42,10 +42,16 @@ def replay_file(path: Path) -> Outcome:
     from verifier.loader import load_pack
     shown = path.as_posix()
     doc = read_counterexample(path)
-    pack_path = Path(doc["pack"]["path"])
-    if not pack_path.exists():
-        return Outcome(shown, "rule gone", f"pack {pack_path.as_posix()} no longer exists")
-    pack = load_pack(pack_path, pack_path.as_posix())
+    recorded = Path(doc["pack"]["path"])
+    # the recorded path is relative to where the check ran: look from here, then from every
+    # folder above the file (an archive keeps the checkout's layout)
+    candidates = [recorded] if recorded.is_absolute() else (
+        [Path.cwd() / recorded] + [a / recorded for a in path.resolve().parents])
+    pack_path = next((c for c in candidates if c.is_file()), None)
+    if pack_path is None:
+        return Outcome(shown, "rule gone", f"pack {recorded.as_posix()} not found (looked in the "
+                       "working directory and every folder above the file)")
+    pack = load_pack(pack_path, recorded.as_posix())
     rid = doc["rule"]["id"]
     try:
         rule = pack.rule(rid)

@@ -485,8 +485,9 @@ def interval_words(real, lo, hi) -> str:
         where = f"outside it, {m(a - real)} below its lower end"
     elif real > b:
         where = f"outside it, {m(real - b)} beyond its upper end"
-    order = "" if lo <= hi else (" (the train faces reverse, so in the LRBG frame the min safe "
-                                 "front lies above the max safe front)")
+    order = "" if lo <= hi else (" (the report gives the train orientation as reverse (Q_DIRLRBG), "
+                                 "so in the LRBG frame the min safe front lies above the max safe "
+                                 "front)")
     return f"The real front, at {m(real)}, is {where} [{m(a)}, {m(b)}]{order}."
 
 
