@@ -242,6 +242,12 @@ def render(doc: dict, rule: Rule, st: State) -> str:
         a, b = X(min(lo, hi)), X(max(lo, hi))
         add(_t(16, y_rep + 13, "reported interval,", size=11))
         add(_t(16, y_rep + 26, "real front", size=11))
+        # the orientation the report sends, beside the real one: an orientation error is
+        # otherwise invisible in the picture (the interval is drawn along the sent orientation)
+        sent, true = g("report.q_dirlrbg").word, g("actual.orientation").word
+        add(_t(16, y_rep + 39, f"sent Q_DIRLRBG: {sent}", size=11,
+               weight="bold" if sent != true else None))
+        add(_t(16, y_rep + 52, f"real orientation: {true}", size=11))
         add(f'<rect x="{P(a)}" y="{P(y_rep - 9)}" width="{P(max(b - a, 1))}" height="18" '
             f'fill="url(#{uid}-hatch)" stroke="{INK}" stroke-width="1.2"/>')
         for xv in (a, b):
