@@ -147,7 +147,8 @@ def build(packs, results, diags, opts, *, explained: dict) -> tuple[dict, dict]:
                 "solver": r.solver or SOLVER, "rlimit_budget": budget, "rlimit_used": r.rlimit,
                 "solver_checks": r.checks, "counterexample": cex, "witness": r.witness,
             })
-            timings.append({"pack": pr.name, "rule": r.rule, "seconds": round(r.seconds, 3)})
+            timings.append({"pack": pr.name, "rule": r.rule, "seconds": round(r.seconds, 3),
+                            "cached": r.cached})
         out_packs.append({"name": pack.name, "title": pack.title, "path": pack.path,
                           "sha256": pack.sha256, "assumptions": _assumptions(pack), "rules": rules})
     manifest = {
@@ -233,6 +234,7 @@ def _e(x) -> str:
 
 def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
     secs = {(t["pack"], t["rule"]): t["seconds"] for t in timings["rules"]}
+    cached = {(t["pack"], t["rule"]) for t in timings["rules"] if t.get("cached")}
     tool = manifest["tool"]
     h: list[str] = []
     a = h.append
@@ -281,7 +283,8 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
               f'<td><code>{_e(r["id"])}</code>{text}</td>'
               f'<td class="verdict"><span class="mark">{VERDICT_MARK[r["verdict"]]}</span>{_e(verdict)}</td>'
               f'<td class="num">{r["bound"]} leg{"s" if r["bound"] != 1 else ""}</td>'
-              f'<td class="num">{secs.get((p["name"], r["id"]), 0):.3f} s</td>'
+              f'<td class="num">{secs.get((p["name"], r["id"]), 0):.3f} s'
+              f'{" (cached verdict, replayed)" if (p["name"], r["id"]) in cached else ""}</td>'
               f'<td>{_e(r["solver"])}</td>'
               f'<td class="num">{r["rlimit_used"]} / {r["rlimit_budget"]}</td>'
               f'<td class="num">{r["solver_checks"]}</td>'
