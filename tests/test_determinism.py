@@ -3,7 +3,6 @@ exactly what a fresh run writes."""
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 from verifier.cli import main

@@ -13,7 +13,7 @@ import time
 from pathlib import Path
 
 from verifier import CAUTION, __version__
-from verifier.errors import Diagnostic, PackError, UsageError, VerifierError
+from verifier.errors import PackError, UsageError, VerifierError
 
 EXIT_OK, EXIT_FAIL, EXIT_INPUT, EXIT_UNKNOWN, EXIT_INTERNAL = 0, 1, 2, 3, 4
 

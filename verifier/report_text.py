@@ -3,8 +3,7 @@
 from __future__ import annotations
 
 from verifier.check.model import Pack
-from verifier.evidence.cexfile import failed_part, plain
-from verifier.world import vocab
+from verifier.evidence.cexfile import failed_part
 from verifier.world.scenario import fmt
 from verifier.world.sim import State, World, applies, evaluate, scope_problems
 

@@ -23,7 +23,7 @@ import attrs
 from verifier.check.model import Formula, Pack, Rule
 from verifier.errors import Diagnostic, PackError
 from verifier.lang import ast
-from verifier.lang.ast import (BOOL, COUNT, DIRECTION, LENGTH, NUMBER, NUMERIC, RUNNING, ZERO)
+from verifier.lang.ast import BOOL, COUNT, DIRECTION, LENGTH, NUMBER, NUMERIC, ZERO
 from verifier.lang.pack import RawExpr, RawPack
 from verifier.world import vocab
 

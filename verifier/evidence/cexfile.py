@@ -17,7 +17,7 @@ from verifier.lang import ast
 from verifier.lang.ast import COUNT
 from verifier.world import vocab
 from verifier.world.scenario import fmt, world_to_data
-from verifier.world.sim import State, evaluate
+from verifier.world.sim import State, compare, evaluate
 
 FORMAT = "verifier-counterexample/1"
 CAUTION = ("This file records a world of the stated model in which the rule is false. "
@@ -76,9 +76,9 @@ def _items(node: ast.Node) -> list:
     return [node]
 
 
-def failed_part(rule: Rule, st: State) -> dict | None:
-    """The first false item of expect's top-level ``and`` (or comparison chain), with the
-    values of both sides."""
+def failed_detail(rule: Rule, st: State) -> dict | None:
+    """The first false item of expect's top-level ``and``; for a comparison (chain) also its
+    first false pair: {text, op, left: (text, value, type), right: (...)}; None if expect holds."""
     text = rule.expect.text
     for item in _items(rule.expect.node):
         if evaluate(item, st, {}):
@@ -87,16 +87,28 @@ def failed_part(rule: Rule, st: State) -> dict | None:
         if isinstance(item, ast.Chain):
             for op, a, b in zip(item.ops, item.operands, item.operands[1:]):
                 va, vb = evaluate(a, st, {}), evaluate(b, st, {})
-                from verifier.world.sim import compare
                 if not compare(op, va, vb):
-                    out.update({"operator": op,
-                                "left": {"text": text[a.start:a.end], "value": plain(va, a.ty)},
-                                "right": {"text": text[b.start:b.end], "value": plain(vb, b.ty)}})
+                    out.update(op=op, left=(text[a.start:a.end], va, a.ty),
+                               right=(text[b.start:b.end], vb, b.ty))
                     break
-        else:
-            out["value"] = False
         return out
     return None
+
+
+def failed_part(rule: Rule, st: State) -> dict | None:
+    """The failed part as JSON data (DESIGN 6): the item's text and, for a comparison, the
+    operator and both sides with their values."""
+    d = failed_detail(rule, st)
+    if d is None:
+        return None
+    out = {"text": d["text"]}
+    if "op" in d:
+        (lt, lv, lty), (rt, rv, rty) = d["left"], d["right"]
+        out.update({"operator": d["op"], "left": {"text": lt, "value": plain(lv, lty)},
+                    "right": {"text": rt, "value": plain(rv, rty)}})
+    else:
+        out["value"] = False
+    return out
 
 
 def implicit_premise(rule: Rule) -> str | None:

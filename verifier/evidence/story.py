@@ -21,11 +21,10 @@ import attrs
 from verifier.check.model import Pack, Rule
 from verifier.errors import Diagnostic, PackError
 from verifier.evidence import cexfile
-from verifier.lang import ast
 from verifier.lang.ast import LENGTH
 from verifier.world.scenario import fmt, world_from_data
 from verifier.world.vocab import Direction
-from verifier.world.sim import State, applies, compare, evaluate, scope_problems
+from verifier.world.sim import State, applies, evaluate, scope_problems
 
 FORMAT_PREFIX = "verifier-counterexample/"
 # fields that are compared loosely: the tool that wrote the file and the caution wording may be
@@ -320,29 +319,7 @@ def signed(x) -> str:
     return ("+" if x > 0 else "") + m(x)
 
 
-def _items(node: ast.Node) -> list:
-    if isinstance(node, ast.Binary) and node.op == "and":
-        return _items(node.left) + _items(node.right)
-    return [node]
-
-
-def failed_detail(rule: Rule, st: State) -> dict | None:
-    """The failed part of expect with the types of both sides (for units and the diagram):
-    {text, op, left: (text, value, type), right: (...)} or {text} for a plain Boolean."""
-    text = rule.expect.text
-    for item in _items(rule.expect.node):
-        if evaluate(item, st, {}):
-            continue
-        out = {"text": text[item.start:item.end]}
-        if isinstance(item, ast.Chain):
-            for op, a, b in zip(item.ops, item.operands, item.operands[1:]):
-                va, vb = evaluate(a, st, {}), evaluate(b, st, {})
-                if not compare(op, va, vb):
-                    out.update(op=op, left=(text[a.start:a.end], va, a.ty),
-                               right=(text[b.start:b.end], vb, b.ty))
-                    break
-        return out
-    return None
+failed_detail = cexfile.failed_detail   # the one implementation, shared with the files
 
 
 def value_words(value, ty) -> str:

@@ -12,7 +12,7 @@ import enum
 
 import attrs
 
-from verifier.lang.ast import BOOL, COUNT, DIRECTION, LENGTH, NUMBER, RUNNING
+from verifier.lang.ast import BOOL, COUNT, DIRECTION, LENGTH, RUNNING
 
 
 class Direction(enum.Enum):
