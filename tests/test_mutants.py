@@ -10,7 +10,6 @@ from verifier.cli import main
 from verifier.errors import PackError
 from verifier.loader import load_pack
 from verifier.mutate import build, mutants, run_catalogue, run_mutants
-from verifier.strategies import profile
 
 ROOT = Path(__file__).resolve().parent.parent
 PACK = ROOT / "tests" / "packs" / "diff-mutants.toml"
