@@ -143,7 +143,7 @@ class Evaluator:
         for kind, key, ty, term in self.terms:
             if kind == "leg" and key[0] > count:
                 continue
-            v = model.eval(term, model_completion=True)
+            v = model.evaluate(term, model_completion=True)
             fixed.append((kind, key, term, v))
             plain = _plain(v, ty)
             if kind == "name":
@@ -163,7 +163,7 @@ class Evaluator:
             if r2 == z3.sat:
                 m2 = s.model()
                 ambiguous = tuple(str(key) for _, key, t, v in fixed
-                                  if not m2.eval(t == v, model_completion=True))
+                                  if not m2.evaluate(t == v, model_completion=True))
             if r2 == z3.unknown:
                 raise RuntimeError(f"solver gave up on uniqueness: {s.reason_unknown()}")
             is_unique = r2 == z3.unsat
@@ -235,10 +235,10 @@ def boundary_worlds(pack: Pack, rule, bound: int, *, count: int = 4, timeout: fl
             continue
         m = s.model()
         world = _read_world(m, enc)
-        g = z3.is_true(m.eval(given, model_completion=True))
-        e = z3.is_true(m.eval(expect, model_completion=True))
+        g = z3.is_true(m.evaluate(given, model_completion=True))
+        e = z3.is_true(m.evaluate(expect, model_completion=True))
         out.append(Sample(world, g, e, why))
-        s.add(z3.Or([c != m.eval(c, model_completion=True) for c in inputs]))
+        s.add(z3.Or([c != m.evaluate(c, model_completion=True) for c in inputs]))
     return out
 
 

@@ -122,7 +122,7 @@ def _ladder(ses: _Session, enc: Encoding) -> bool:
         return r == z3.sat
 
     def value_of(term) -> Fraction:
-        return _fraction(s.s.model().eval(term, model_completion=True))
+        return _fraction(s.s.model().evaluate(term, model_completion=True))
 
     def try_fix(c) -> bool:
         if sat(c):
@@ -212,7 +212,7 @@ def _ladder(ses: _Session, enc: Encoding) -> bool:
 
 def _read_world(model, enc: Encoding) -> dict:
     """The inputs of a model as plain data, legs beyond legs.count left out."""
-    ev = lambda t: model.eval(t, model_completion=True)  # noqa: E731
+    ev = lambda t: model.evaluate(t, model_completion=True)  # noqa: E731
     I = enc.inputs
     count = ev(I["legs.count"]).as_long()
     world = {
@@ -247,7 +247,7 @@ def read_values(model, enc: Encoding, names) -> dict:
     out = {}
     for name in names:
         term = enc.name(name)
-        v = model.eval(term, model_completion=True)
+        v = model.evaluate(term, model_completion=True)
         ty = GLOBAL[name].ty
         if ty == "Bool":
             out[name] = z3.is_true(v)
