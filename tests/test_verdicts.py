@@ -77,3 +77,16 @@ def test_bound_precedence(write_pack, tmp_path):
     assert check_rule(pack, a, CheckOptions(out=tmp_path)).verdict == "holds"
     assert check_rule(pack, b, CheckOptions(out=tmp_path)).verdict == "violated"
     assert check_rule(pack, a, CheckOptions(legs=2, out=tmp_path)).verdict == "violated"
+
+
+def test_vacuous_rule_names_the_conflicting_parts_of_its_given(write_pack, tmp_path):
+    # train.length is at most 1000 m in the default scope (DESIGN 4.1): the first item is
+    # impossible on its own; the two read counts contradict each other.
+    text = pack_text(rule_toml("long", "true", "passage.seen != unknown and train.length > 2 km")
+                     + rule_toml("clash", "true", "lrbg.read == 1 and cab_changes == 0 and lrbg.read >= 2"))
+    pack = load_pack(write_pack(text))
+    long_, clash = (check_rule(pack, r, CheckOptions(out=tmp_path)) for r in pack.rules)
+    assert long_.verdict == clash.verdict == "vacuous"
+    assert "'train.length > 2 km' is impossible" in long_.message
+    assert "'lrbg.read == 1' and 'lrbg.read >= 2' cannot hold together" in clash.message
+    assert "cab_changes" not in clash.message

@@ -103,7 +103,9 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None) -> Ru
     def result(verdict, **kw):
         return RuleResult(verdict=verdict, seconds=time.monotonic() - t0, **{**base, **kw})
 
-    if solved.verdict in ("vacuous", "unknown") or solved.world is None:
+    if solved.verdict == "vacuous":
+        return result("vacuous", message=_vacuity_message(pack, rule, bound, solved.reason))
+    if solved.verdict == "unknown" or solved.world is None:
         return result(solved.verdict, message=solved.reason)
 
     # replay in the simulator, which must agree
@@ -141,6 +143,18 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None) -> Ru
     if not solved.minimal:
         msg += " (not fully minimised: " + solved.reason + ")"
     return result("violated", counterexample=path, message=msg)
+
+
+def _vacuity_message(pack: Pack, rule: Rule, bound: int, reason: str) -> str:
+    """Say which parts of the given cannot hold (an unsat core over its top-level items)."""
+    from verifier.smt import solve
+    core = solve.vacuity_core(pack, rule, bound)
+    if not core:
+        return reason
+    if len(core) == 1:
+        return f"{reason}: '{core[0]}' is impossible within the scope (up to {bound} legs)"
+    return (f"{reason}: " + " and ".join(f"'{c}'" for c in core)
+            + f" cannot hold together within the scope (up to {bound} legs)")
 
 
 def describe_failure(failed: dict | None) -> str:

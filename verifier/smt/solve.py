@@ -338,3 +338,38 @@ def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: _Budget 
     model = wit.s.model()
     return finish("holds", world=_read_world(model, enc), values=read_values(model, enc, COMPARED),
                   minimal=decided, last=wit)
+
+
+def _and_items(node) -> list:
+    from verifier.lang import ast
+    if isinstance(node, ast.Binary) and node.op == "and":
+        return _and_items(node.left) + _and_items(node.right)
+    return [node]
+
+
+def vacuity_core(pack: Pack, rule: Rule, bound: int, *, rlimit: int = DEFAULT_RLIMIT,
+                 timeout: float = 10.0) -> list[str] | None:
+    """For a vacuous rule: the parts of its given (top-level ``and`` items, and the implicit
+    premise) that together cannot hold in the scope, as text; None if that is not decided."""
+    ctx = z3.Context()
+    enc = Encoding(pack, bound, ctx)
+    items = []
+    if rule.premise_legs:
+        items.append((f"legs.count >= {rule.premise_legs} (implicit, from legs[{rule.premise_legs}])",
+                      enc.terms["legs.count"] >= rule.premise_legs))
+    if rule.given is not None:
+        for node in _and_items(rule.given.node):
+            items.append((rule.given.text[node.start:node.end], enc.expr(node, {})))
+    s = z3.Solver(ctx=ctx)
+    s.set("rlimit", rlimit)
+    s.set("timeout", int(timeout * 1000))
+    s.add(*enc.constraints)
+    marks = []
+    for i, (_, term) in enumerate(items):
+        mark = z3.Bool(f"given!{i}", ctx)
+        s.add(z3.Implies(mark, term))
+        marks.append(mark)
+    if s.check(*marks) != z3.unsat:
+        return None
+    core = {str(c) for c in s.unsat_core()}
+    return [text for (text, _), mark in zip(items, marks) if str(mark) in core]
