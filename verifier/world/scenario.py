@@ -9,31 +9,9 @@ from fractions import Fraction
 from pathlib import Path
 
 from verifier.errors import Diagnostic, PackError
+from verifier.world.numbers import fmt  # noqa: F401 - re-exported: scenario.fmt is public
 from verifier.world.sim import Leg, World
 from verifier.world.vocab import Direction, Running
-
-
-def fmt(x: Fraction) -> str:
-    """An exact rational as text: a finite decimal when there is one, else ``p/q``."""
-    x = Fraction(x)
-    den = x.denominator
-    twos = fives = 0
-    while den % 2 == 0:
-        den //= 2
-        twos += 1
-    while den % 5 == 0:
-        den //= 5
-        fives += 1
-    if den != 1:
-        return f"{x.numerator}/{x.denominator}"
-    places = max(twos, fives)
-    if places == 0:
-        return str(x.numerator)
-    scaled = abs(x.numerator) * (10 ** places // x.denominator)
-    text = str(scaled).rjust(places + 1, "0")
-    out = text[:-places] + "." + text[-places:]
-    out = out.rstrip("0").rstrip(".")
-    return ("-" if x < 0 else "") + out
 
 
 def parse_length(value, where: str) -> Fraction:

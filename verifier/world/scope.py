@@ -52,7 +52,7 @@ class Scope:
 
     def as_json(self) -> dict:
         """The scope as plain data (for counterexample files and reports)."""
-        from verifier.world.scenario import fmt as q
+        from verifier.world.numbers import fmt as q
         return {
             "balises": list(self.balises),
             "locacc": [q(x) for x in self.locacc],

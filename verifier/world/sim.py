@@ -12,6 +12,7 @@ import attrs
 
 from verifier.check.model import Formula, Pack
 from verifier.lang import ast
+from verifier.world.numbers import fmt
 from verifier.world.scope import Scope
 from verifier.world.vocab import MAX_CODE, Q_SCALES, UNKNOWN_CODE, Direction, Running
 
@@ -67,6 +68,10 @@ def round_to(x: Fraction, step: Fraction) -> Fraction:
     return math.floor(x / step + F(1, 2)) * step
 
 
+def _m(x) -> str:
+    return f"{fmt(x)} m"
+
+
 def scope_problems(world: World, scope: Scope, bound: int) -> list[str]:
     """Why ``world`` is outside the scope (an empty list when it is inside)."""
     out = []
@@ -106,9 +111,9 @@ def scope_problems(world: World, scope: Scope, bound: int) -> list[str]:
             under += max(F(0), leg.distance - leg.odometer)
             measured += leg.odometer if scope.odometry_basis == "measured" else leg.distance
         if over > scope.odometry_over.at(measured):
-            out.append(f"over-reading {over} m after {j} legs exceeds the bound {scope.odometry_over.at(measured)} m")
+            out.append(f"over-reading {_m(over)} after {j} legs exceeds the bound {_m(scope.odometry_over.at(measured))}")
         if under > scope.odometry_under.at(measured):
-            out.append(f"under-reading {under} m after {j} legs exceeds the bound {scope.odometry_under.at(measured)} m")
+            out.append(f"under-reading {_m(under)} after {j} legs exceeds the bound {_m(scope.odometry_under.at(measured))}")
     return out
 
 
