@@ -380,7 +380,9 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
             c.at(base + ("id",), f"rule id must be a slug (lower-case letters, digits, '-'), got {rid!r}")
             ok = False
         elif isinstance(rid, str) and rid in seen_ids:
-            c.at(base + ("id",), f"duplicate rule id '{rid}' (first used by rule {seen_ids[rid] + 1})")
+            first = src.places.get(("rule", seen_ids[rid]))
+            where = f"line {first.line}" if first else f"rule {seen_ids[rid] + 1}"
+            c.at(base + ("id",), f"duplicate rule id '{rid}' (first used at {where})")
             ok = False
         elif isinstance(rid, str):
             seen_ids[rid] = i
