@@ -7,6 +7,7 @@ the same typed tree, each with its own semantics.
 
 from __future__ import annotations
 
+import operator
 from fractions import Fraction
 
 import attrs
@@ -16,6 +17,11 @@ import attrs
 BOOL, COUNT, NUMBER, LENGTH, DIRECTION, RUNNING, ZERO = (
     "Bool", "Count", "Number", "Length", "Direction", "Running", "Zero")
 NUMERIC = frozenset({COUNT, NUMBER, LENGTH, ZERO})
+
+# The comparison operators of the language. Python's operators apply to exact Fractions in
+# the simulator and build terms in the encoder, so both sides use this one table.
+COMPARISONS = {"==": operator.eq, "!=": operator.ne, "<": operator.lt, "<=": operator.le,
+               ">": operator.gt, ">=": operator.ge}
 
 
 @attrs.frozen

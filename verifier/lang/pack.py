@@ -237,6 +237,20 @@ def _unknown_keys(c: _Collector, prefix: tuple, table: dict, allowed: set, where
             c.at(prefix + (k,), f"unknown key '{k}' in {where}" + _suggest(k, allowed))
 
 
+def _design(c: _Collector, table: str, given: dict, outputs, defaults: dict) -> dict:
+    """The formulas of an [onboard] or [trackside] table, each output not set taking the
+    default design (DESIGN 4.4, 4.5)."""
+    out = {}
+    for k in outputs:
+        if k in given:
+            e = _expr(c, (table, k), given[k], what=f"{table} {k}")
+            if e:
+                out[k] = e
+        else:
+            out[k] = RawExpr(defaults[k], parse(defaults[k]), (table, k), default=True)
+    return out
+
+
 def read_pack(path: str | Path, display: str | None = None) -> RawPack:
     """Read and syntax-check one pack file. Raises PackError with every problem found."""
     path = Path(path)
@@ -328,15 +342,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
 
     ob_t = tables.get("onboard", {})
     _unknown_keys(c, ("onboard",), ob_t, TABLES["onboard"], "[onboard]")
-    onboard = {}
-    for k in vocab.ONBOARD_OUTPUTS:
-        if k in ob_t:
-            e = _expr(c, ("onboard", k), ob_t[k], what=f"onboard {k}")
-            if e:
-                onboard[k] = e
-        else:
-            onboard[k] = RawExpr(vocab.DEFAULT_ONBOARD[k], parse(vocab.DEFAULT_ONBOARD[k]),
-                                 ("onboard", k), default=True)
+    onboard = _design(c, "onboard", ob_t, vocab.ONBOARD_OUTPUTS, vocab.DEFAULT_ONBOARD)
     q_scale = ob_t.get("q_scale", "auto")
     if q_scale not in ("auto", *vocab.Q_SCALES):
         c.at(("onboard", "q_scale"), f"q_scale must be \"10 cm\", \"1 m\", \"10 m\" or \"auto\", got {q_scale!r}")
@@ -349,15 +355,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
 
     ts_t = tables.get("trackside", {})
     _unknown_keys(c, ("trackside",), ts_t, TABLES["trackside"], "[trackside]")
-    trackside = {}
-    for k in vocab.TRACKSIDE_OUTPUTS:
-        if k in ts_t:
-            e = _expr(c, ("trackside", k), ts_t[k], what=f"trackside {k}")
-            if e:
-                trackside[k] = e
-        else:
-            trackside[k] = RawExpr(vocab.DEFAULT_TRACKSIDE[k], parse(vocab.DEFAULT_TRACKSIDE[k]),
-                                   ("trackside", k), default=True)
+    trackside = _design(c, "trackside", ts_t, vocab.TRACKSIDE_OUTPUTS, vocab.DEFAULT_TRACKSIDE)
 
     rules = []
     seen_ids: dict[str, int] = {}

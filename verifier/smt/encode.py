@@ -349,7 +349,7 @@ class Encoding:
             return a * z3.simplify(1 / z3.ToReal(b) if z3.is_int(b) else 1 / b)
         if isinstance(node, ast.Chain):
             vals = [e(o, env) for o in node.operands]
-            parts = [_cmp(op, a, b) for op, a, b in zip(node.ops, vals, vals[1:])]
+            parts = [ast.COMPARISONS[op](a, b) for op, a, b in zip(node.ops, vals, vals[1:])]
             return parts[0] if len(parts) == 1 else z3.And(parts)
         if isinstance(node, ast.IfThen):
             return z3.If(e(node.cond, env), e(node.then, env), e(node.orelse, env))
@@ -421,17 +421,3 @@ def _is_const(node: ast.Node) -> bool:
     if isinstance(node, ast.Call) and node.func in ("abs", "min", "max"):
         return all(_is_const(a) for a in node.args)
     return False
-
-
-def _cmp(op, a, b):
-    if op == "==":
-        return a == b
-    if op == "!=":
-        return a != b
-    if op == "<":
-        return a < b
-    if op == "<=":
-        return a <= b
-    if op == ">":
-        return a > b
-    return a >= b

@@ -337,17 +337,7 @@ def evaluate(node: ast.Node, st: State, env: dict):
 
 
 def compare(op: str, a, b) -> bool:
-    if op == "==":
-        return a == b
-    if op == "!=":
-        return a != b
-    if op == "<":
-        return a < b
-    if op == "<=":
-        return a <= b
-    if op == ">":
-        return a > b
-    return a >= b
+    return bool(ast.COMPARISONS[op](a, b))
 
 
 def applies(rule, st: State) -> bool:
