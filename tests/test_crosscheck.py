@@ -9,7 +9,7 @@ import pytest
 from verifier import crosscheck
 from verifier.cli import main
 from verifier.loader import load_pack
-from verifier.smt import second
+from verifier.smt import export, second
 from verifier.smt.concrete import boundary_worlds
 from verifier.world.scenario import world_from_flat
 from verifier.world.sim import State, applies, evaluate, scope_problems
@@ -100,3 +100,86 @@ def test_a_vacuous_verdict_with_a_world_of_the_given_is_a_disagreement():
     pack = load_pack(PACK)
     n, problems = crosscheck._boundary(pack, pack.rule("travel-rounded"), 2, "vacuous", 1, 10.0)
     assert n == 1 and "verdict is vacuous" in problems[0]
+
+
+# ---- dividing an undecided obligation into cases -------------------------------------------
+
+def test_cases_of_a_split_cover_every_world():
+    """A Boolean split is the literal and its negation; any other split gets the extra case
+    where none of its alternatives holds, so no world is left out whatever the alternatives."""
+    assert second.cases_of(("legs.1.forward", "(not legs.1.forward)")) == \
+        ("legs.1.forward", "(not legs.1.forward)")
+    assert second.cases_of(("(= legs.count 0)", "(= legs.count 1)")) == \
+        ("(= legs.count 0)", "(= legs.count 1)", "(not (or (= legs.count 0) (= legs.count 1)))")
+
+
+def test_case_split_follows_the_legs_that_exist():
+    split = export.case_split(2)
+    assert split(()) == ("(= legs.count 0)", "(= legs.count 1)", "(= legs.count 2)")
+    assert split(("(= legs.count 0)",)) == ("passage.forward", "(not passage.forward)")
+    assert split(("(= legs.count 1)",)) == ("legs.1.cab_change", "(not legs.1.cab_change)")
+    assert split(("(= legs.count 1)", "legs.1.cab_change")) == ("legs.1.forward", "(not legs.1.forward)")
+    assert split(("(= legs.count 1)", "legs.1.cab_change", "(not legs.1.forward)")) == \
+        ("passage.forward", "(not passage.forward)")
+    # nothing is left to split in the case outside the allowed counts, or when all is fixed
+    assert split(("(not (or (= legs.count 0) (= legs.count 1) (= legs.count 2)))",)) is None
+    assert split(("(= legs.count 0)", "passage.forward")) is None
+
+
+def _undecided_whole(monkeypatch):
+    """Seeded limit: cvc5 'cannot' decide an obligation unless a case of a split is fixed, so
+    the split has to decide it, with the real cvc5 on each case."""
+    real = second.solve_text
+    seen = []
+
+    def only_cases(text, timeout=60.0, parse_only=False):
+        seen.append(text)
+        if "; case of a split" not in text:
+            return second.Answer("unknown", "timeout", 0.0)
+        return real(text, timeout, parse_only)
+    monkeypatch.setattr(second, "solve_text", only_cases)
+    return seen
+
+
+@pytest.mark.parametrize("rule, kind, want", [
+    ("seen-known-with-two-balises", "violation", "unsat"),   # holds: every case unsat
+    ("cab-change-flips", "violation", "sat"),                # violated: one case is sat
+    ("no-such-world", "given", "unsat"),                     # vacuous: every case unsat
+])
+def test_an_obligation_undecided_whole_is_decided_by_cases(monkeypatch, rule, kind, want):
+    pack = load_pack(PACK)
+    verdict = {"unsat": "holds", "sat": "violated"}[want] if kind == "violation" else "vacuous"
+    text = export.obligations(pack, pack.rule(rule), 2, verdict)[kind]
+    seen = _undecided_whole(monkeypatch)
+    ans = second.solve_split(text, export.case_split(2), case_timeout=30)
+    assert ans.status == want, ans.reason
+    assert ans.cases == len(seen) > 1 and " cases " in ans.how()
+    if want == "unsat":     # the whole, the three counts and the count outside the scope
+        assert ans.cases == 5
+        assert any("(not (or (= legs.count 0)" in t for t in seen)
+
+
+def test_a_case_left_undecided_leaves_the_answer_unknown(monkeypatch):
+    """If one case stays undecided when nothing is left to split, the answer is unknown and
+    names that case; it is never taken as unsat."""
+    pack = load_pack(PACK)
+    text = export.obligations(pack, pack.rule("seen-known-with-two-balises"), 2, "holds")["violation"]
+    real = second.solve_text
+
+    def stubborn(text, timeout=60.0, parse_only=False):
+        if "; case of a split" not in text or "(= legs.count 0)" in text:
+            return second.Answer("unknown", "timeout", 0.0)
+        return real(text, timeout, parse_only)
+    monkeypatch.setattr(second, "solve_text", stubborn)
+    ans = second.solve_split(text, export.case_split(2), case_timeout=30)
+    assert ans.status == "unknown"
+    assert "(= legs.count 0)" in ans.reason and "passage.forward" in ans.reason
+
+
+def test_the_budget_ends_a_split_with_unknown(monkeypatch):
+    monkeypatch.setattr(second, "solve_text", lambda text, timeout=60.0, parse_only=False:
+                        second.Answer("unknown", "timeout", 0.0))
+    pack = load_pack(PACK)
+    text = export.obligations(pack, pack.rule("travel-rounded"), 2, "holds")["violation"]
+    ans = second.solve_split(text, export.case_split(2), case_timeout=1, budget=0.0)
+    assert ans.status == "unknown" and "the whole obligation" in ans.reason

@@ -34,6 +34,7 @@ class RuleCross:
     verdict: str                  # the engine's verdict
     second: dict                  # obligation -> cvc5 answer (sat/unsat/unknown)
     second_expected: dict         # obligation -> the answer the verdict implies
+    second_how: dict              # obligation -> how cvc5 answered, in words
     samples: int                  # boundary worlds replayed
     problems: tuple               # disagreements, as text
 
@@ -53,6 +54,7 @@ class CrossReport:
             "second_agree": sum(1 for a, e in answers if a == e),
             "second_undecided": sum(1 for a, _ in answers if a == "unknown"),
             "second_disagree": sum(1 for a, e in answers if a != "unknown" and a != e),
+            "second_split": sum(1 for r in self.rules for h in r.second_how.values() if " cases " in h),
             "boundary_worlds": sum(r.samples for r in self.rules),
             "disagreements": sum(len(r.problems) for r in self.rules),
         }
@@ -61,7 +63,8 @@ class CrossReport:
         c = self.counts()
         return (f"crosscheck: {'; '.join(self.checks)}\n"
                 f"crosscheck: {c['rules']} rules; second solver ({self.second_solver}) agreed on "
-                f"{c['second_agree']} of {c['obligations']} obligations, undecided on "
+                f"{c['second_agree']} of {c['obligations']} obligations ({c['second_split']} divided "
+                f"into cases), undecided on "
                 f"{c['second_undecided']}, disagreed on {c['second_disagree']}; "
                 f"{c['boundary_worlds']} boundary worlds replayed; {c['disagreements']} disagreements")
 
@@ -69,24 +72,26 @@ class CrossReport:
         return {"checks": list(self.checks), "second_solver": self.second_solver,
                 "counts": self.counts(),
                 "rules": [{"pack": r.pack, "id": r.rule, "verdict": r.verdict, "second": r.second,
+                           "second_how": r.second_how,
                            "boundary_worlds": r.samples, "problems": list(r.problems)}
                           for r in self.rules]}
 
 
-def _second(pack, rule, bound, verdict, timeout) -> tuple[dict, dict, list]:
+def _second(pack, rule, bound, verdict, timeout) -> tuple[dict, dict, dict, list]:
     from verifier.smt import export, second
     texts = export.obligations(pack, rule, bound, verdict)
     want = dict(zip(("violation", "given"), export.STATUS[verdict]))
-    got, problems = {}, []
+    got, how, problems = {}, {}, []
     for kind in ("violation", "given"):
         if verdict == "violated" and kind == "given":
             continue           # implied by the violation answer
-        ans = second.solve_text(texts[kind], timeout=timeout)
-        got[kind] = ans.status
+        ans = second.solve_split(texts[kind], export.case_split(bound),
+                                 case_timeout=min(timeout, 20.0), budget=10 * timeout)
+        got[kind], how[kind] = ans.status, ans.how() + (f" ({ans.reason})" if ans.reason else "")
         if ans.status != "unknown" and ans.status != want[kind]:
             problems.append(f"same obligation, second solver: z3 verdict {verdict} means the "
                             f"{kind} obligation is {want[kind]}, {second.version()} says {ans.status}")
-    return got, {k: want[k] for k in got}, problems
+    return got, {k: want[k] for k in got}, how, problems
 
 
 def _boundary(pack, rule, bound, verdict, count, timeout) -> tuple[int, list]:
@@ -135,16 +140,17 @@ def crosscheck_results(packs, results, opts, *, boundary: int = 4, second_timeou
                 rules.append(r)
                 continue
             rule = pack.rule(r.rule)
-            got, want, problems = _second(pack, rule, r.bound, r.verdict, timeout)
+            got, want, how, problems = _second(pack, rule, r.bound, r.verdict, timeout)
             n, more = _boundary(pack, rule, r.bound, r.verdict, boundary, min(timeout, 20.0))
             problems += more
-            crosses.append(RuleCross(pack.name, rule.id, r.verdict, got, want, n, tuple(problems)))
+            crosses.append(RuleCross(pack.name, rule.id, r.verdict, got, want, how, n, tuple(problems)))
             if problems:
                 r = attrs.evolve(r, verdict="error", kind="internal",
                                  message=f"cross-check failed (verdict was {r.verdict}): " + "; ".join(problems))
             rules.append(r)
         new_results.append(attrs.evolve(pr, results=tuple(rules)))
-    checks = (f"(a) same obligation, second solver: {second.version()} re-solved the exported SMT-LIB",
+    checks = (f"(a) same obligation, second solver: {second.version()} re-solved the exported SMT-LIB "
+              "(an obligation it cannot decide whole is divided into cases that cover every world)",
               f"(b) up to {boundary} boundary worlds per rule replayed in the simulator",
               "(c) every counterexample and witness replayed in the simulator (engine)")
     return new_results, CrossReport(checks, tuple(crosses), second.version())

@@ -164,6 +164,26 @@ def obligations(pack: Pack, rule: Rule, bound: int, verdict: str | None = None) 
     return out
 
 
+def case_split(bound: int):
+    """How an obligation the second solver cannot decide whole is divided into cases
+    (:func:`verifier.smt.second.solve_split`): first by the number of legs, then, for each leg
+    that exists, by its cab change and its direction, then by the direction of the passage.
+    These are the world's own choice variables (declared in every obligation), so each case is
+    the same question about a smaller set of worlds."""
+    counts = tuple(f"(= legs.count {k})" for k in range(bound + 1))
+
+    def next_split(fixed: tuple[str, ...]) -> tuple[str, ...] | None:
+        count = next((k for k, lit in enumerate(counts) if lit in fixed), None)
+        if count is None:
+            return None if any(lit.startswith("(not (or (= legs.count") for lit in fixed) else counts
+        names = [f"legs.{i}.{f}" for i in range(1, count + 1) for f in ("cab_change", "forward")]
+        for name in names + ["passage.forward"]:
+            if name not in fixed and f"(not {name})" not in fixed:
+                return (name, f"(not {name})")
+        return None
+    return next_split
+
+
 def _line(text: str) -> str:
     """Rule text on one comment line (a newline would end the comment)."""
     return " ".join(text.split())
