@@ -183,3 +183,23 @@ def test_the_budget_ends_a_split_with_unknown(monkeypatch):
     text = export.obligations(pack, pack.rule("travel-rounded"), 2, "holds")["violation"]
     ans = second.solve_split(text, export.case_split(2), case_timeout=1, budget=0.0)
     assert ans.status == "unknown" and "the whole obligation" in ans.reason
+
+
+def test_the_second_configuration_answers_when_the_defaults_do_not(monkeypatch):
+    """Seeded limit: cvc5 with its defaults gives up; the ite-simp configuration must then be
+    tried on the same text, with the rest of the time, and its answer says so."""
+    pack = load_pack(PACK)
+    text = export.obligations(pack, pack.rule("travel-rounded"), 2, "holds")["violation"]
+    real, tried = second._solve_once, []
+
+    def defaults_give_up(text, timeout, parse_only, options):
+        tried.append((dict(options), timeout))
+        if not options:
+            return second.Answer("unknown", "timeout", 0.0)
+        return real(text, timeout, parse_only, options)
+    monkeypatch.setattr(second, "_solve_once", defaults_give_up)
+    ans = second.solve_text(text, timeout=40)
+    assert ans.status == "unsat" and ans.options == "--ite-simp=true"
+    assert ans.how().startswith("unsat with --ite-simp=true in ")
+    assert [t[0] for t in tried] == [{}, {"ite-simp": "true"}]
+    assert tried[0][1] == second.FIRST_TRY and 30 < tried[1][1] <= 40

@@ -163,8 +163,11 @@ def solve_split(text: str, next_split: Callable[[tuple[str, ...]], tuple[str, ..
         ans = solve_text(with_case(text, fixed), timeout=min(case_timeout, left))
         solved += 1
         if ans.status == "sat":           # a case is a subset of the worlds: the whole is sat
-            return Answer("sat", "", time.monotonic() - t0, solved)
+            return attrs.evolve(ans, seconds=time.monotonic() - t0, cases=solved,
+                                options=ans.options if solved == 1 else "")
         if ans.status == "unsat":
+            if solved == 1:               # decided whole
+                return attrs.evolve(ans, seconds=time.monotonic() - t0)
             continue
         if ans.reason.startswith("cvc5"):  # cvc5 could not read the text: no split will help
             return Answer("unknown", ans.reason, time.monotonic() - t0, solved)
