@@ -111,6 +111,8 @@ def test_shipped_position_report_edits(tmp_path):
     assert (w["read"], w["linked"]) == (1, True)
     assert sum(1 for x in rules.values() if x.status == "edited") == 2
     assert diff.exit_code(diffs) == 1
+    assert "claim stronger: the new version is true in fewer worlds: it asks more" in \
+        diff.table(diffs, "old", "new")
 
 
 def test_demo_pack_edit_and_cli_output(tmp_path, monkeypatch, capsys):
@@ -194,3 +196,26 @@ def test_missing_sides_are_usage_errors(spec, capsys, monkeypatch):
     monkeypatch.chdir(ROOT)
     assert main(["diff", spec, str(PACKS / "edit-base.toml"), "--no-cache"]) == 2
     assert "OLD" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("edits, claim, words", [
+    # an edit of the rule's own text: the new version asks more / less
+    (("expect",), "stronger", "the new version is true in fewer worlds: it asks more"),
+    (("given", "let.x"), "weaker", "the new version is true in more worlds: it asks less"),
+    # only the design was edited: the same rule is met in fewer worlds (the design got worse)
+    (("onboard.l_doubtover",), "stronger",
+     "after the edit of onboard.l_doubtover, the new version is true in fewer worlds: "
+     "the design meets this rule in fewer worlds"),
+    (("trackside.min_safe_front",), "weaker",
+     "after the edit of trackside.min_safe_front, the new version is true in more worlds: "
+     "the design meets this rule in more worlds"),
+    (("expect",), "incomparable", "each version is true in some world where the other is false"),
+    (("expect",), "equivalent", ""),
+])
+def test_claim_meaning_says_what_stronger_means(edits, claim, words):
+    """'Stronger' is true in fewer worlds (the definition in verifier/diff.py, worked by hand):
+    for an edited design that is the design getting worse, and the words must say so."""
+    side = diff.SideVerdict("holds", 1)
+    r = diff.RuleDiff("r", "edited", side, side, edits=edits, claim=claim)
+    assert r.claim_meaning() == words
+    assert r.as_json()["claim_meaning"] == (words or None)

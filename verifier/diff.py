@@ -113,6 +113,22 @@ class RuleDiff:
     claim: str | None = None
     worlds: tuple = ()              # World, for the four questions
 
+    def claim_meaning(self) -> str:
+        """The claim relation in words. "Stronger" reads like an improvement, but it only means
+        the new version is true in fewer worlds: when the rule's own text was edited, it asks
+        more; when only a definition or the design it depends on was edited, the design now
+        meets the same rule in fewer worlds, which is the way a design gets worse."""
+        own = any(e in ("given", "expect") for e in self.edits)
+        others = [e for e in self.edits if e not in ("given", "expect")]
+        via = f"after the edit of {', '.join(others)}, " if others and not own else ""
+        return {
+            "stronger": (f"{via}the new version is true in fewer worlds: "
+                         + ("it asks more" if own else "the design meets this rule in fewer worlds")),
+            "weaker": (f"{via}the new version is true in more worlds: "
+                       + ("it asks less" if own else "the design meets this rule in more worlds")),
+            "incomparable": "each version is true in some world where the other is false",
+        }.get(self.claim or "", "")
+
     @property
     def verdict_changed(self) -> bool:
         if self.status in ("added", "removed"):
@@ -124,7 +140,8 @@ class RuleDiff:
                 "old": self.old.as_json() if self.old else None,
                 "new": self.new.as_json() if self.new else None,
                 "edits": list(self.edits), "bound": self.bound, "coverage": self.coverage,
-                "claim": self.claim, "worlds": [w.as_json() for w in self.worlds if w.status != "none"]}
+                "claim": self.claim, "claim_meaning": self.claim_meaning() or None,
+                "worlds": [w.as_json() for w in self.worlds if w.status != "none"]}
 
 
 @attrs.frozen
@@ -451,6 +468,8 @@ def table(diffs: list[PackDiff], old: str, new: str) -> str:
             lines.append(head)
             if r.edits:
                 lines.append(f"            edited: {', '.join(r.edits)}")
+            if r.status == "edited" and r.claim_meaning():
+                lines.append(f"            claim {r.claim}: {r.claim_meaning()}")
             for side, v in (("old", r.old), ("new", r.new)):
                 if v is None or not r.verdict_changed:
                     continue
