@@ -157,3 +157,28 @@ def test_unplaced_report_says_so(pack):
     assert not st.get("rbc.placed")
     texts = _texts(ET.fromstring(svg))
     assert any("does not place the train" in t for t in texts)
+
+
+@pytest.mark.parametrize("world", [NEAR, FAR])
+def test_whole_train_as_the_trackside_places_it(pack, world):
+    """The dashed outline runs from the min safe rear end to the max safe front end, and the
+    real rear is marked where it is. Min safe rear end = min safe front end - train length along
+    the reported orientation (SUBSET-026 3.6.1.7, docs/facts.md), worked here in Fractions."""
+    svg, st = _render(pack, world)
+    root = ET.fromstring(svg)
+    length = Fraction(world["train"]["length"])
+    sign = 1 if st.get("report.q_dirlrbg").word == "nominal" else -1
+    min_rear = st.get("rbc.min_safe_front") - sign * length
+    assert st.get("rbc.min_safe_rear") == min_rear
+    texts = _texts(root)
+    assert f"min safe rear {diagram.m(min_rear)}" in texts
+    assert f"real rear {diagram.m(st.get('actual.rear'))}" in texts
+    # geometry: the outline's ends sit at min safe rear and max safe front on the metre axis
+    (outline,) = [r for r in root.iter(SVG + "rect") if r.get("stroke-dasharray") == "5 3"
+                  and r.get("height") == "26"]
+    lo, hi, _ = _interval_and_real(root)
+    x0, x1 = Fraction(outline.get("x")), Fraction(outline.get("x")) + Fraction(outline.get("width"))
+    assert x0 <= lo and hi <= x1                 # the interval lies inside the whole train
+    ends = sorted((min_rear, st.get("rbc.max_safe_front")))
+    span = (x1 - x0) / (ends[1] - ends[0])       # pixels per metre, from the outline itself
+    assert abs((lo - x0) - span * (min(st.get("rbc.min_safe_front"), st.get("rbc.max_safe_front")) - ends[0])) < 1

@@ -136,8 +136,9 @@ def render(doc: dict, rule: Rule, st: State) -> str:
         if est is not None:
             positions.append(est)
     if placed:
-        positions += [g("rbc.min_safe_front"), g("rbc.max_safe_front"), g("rbc.est_front")]
-    positions.append(g("actual.front"))
+        positions += [g("rbc.min_safe_front"), g("rbc.max_safe_front"), g("rbc.est_front"),
+                      g("rbc.min_safe_rear")]
+    positions += [g("actual.front"), g("actual.rear")]
     axis = Axis(positions)
     X = axis.x
 
@@ -248,6 +249,12 @@ def render(doc: dict, rule: Rule, st: State) -> str:
         add(_t(16, y_rep + 39, f"sent Q_DIRLRBG: {sent}", size=11,
                weight="bold" if sent != true else None))
         add(_t(16, y_rep + 52, f"real orientation: {true}", size=11))
+        # the whole train as the trackside places it: min safe rear end to max safe front end,
+        # dashed, behind the interval (min safe rear end: SUBSET-026 3.6.1.7, per docs/facts.md)
+        rear_safe = g("rbc.min_safe_rear")
+        wa, wb = X(min(rear_safe, lo, hi)), X(max(rear_safe, lo, hi))
+        add(f'<rect x="{P(wa)}" y="{P(y_rep - 13)}" width="{P(max(wb - wa, 1))}" height="26" '
+            f'fill="none" stroke="{INK}" stroke-width="1" stroke-dasharray="5 3"/>')
         add(f'<rect x="{P(a)}" y="{P(y_rep - 9)}" width="{P(max(b - a, 1))}" height="18" '
             f'fill="url(#{uid}-hatch)" stroke="{INK}" stroke-width="1.2"/>')
         for xv in (a, b):
@@ -255,7 +262,7 @@ def render(doc: dict, rule: Rule, st: State) -> str:
         xe = X(g("rbc.est_front"))
         add(_diamond(xe, y_rep))
         labels = [(X(lo), f"min safe front {m(lo)}"), (X(hi), f"max safe front {m(hi)}"),
-                  (xe, f"est. {m(g('rbc.est_front'))}")]
+                  (xe, f"est. {m(g('rbc.est_front'))}"), (X(rear_safe), f"min safe rear {m(rear_safe)}")]
     else:
         add(_t(16, y_rep + 13, "no interval:", size=11))
         add(_t(X0, y_rep + 4, "The report does not place the train (a code is 32767 or a qualifier "
@@ -266,6 +273,13 @@ def render(doc: dict, rule: Rule, st: State) -> str:
         f'stroke="{INK}" stroke-width="3"/>')
     add(f'<circle cx="{P(xr)}" cy="{P(y_rep)}" r="4.5" fill="#ffffff" stroke="{INK}" stroke-width="2"/>')
     labels.append((xr, f"real front {m(real)}"))
+    real_rear = g("actual.rear")
+    xrr = X(real_rear)
+    add(f'<line x1="{P(xrr)}" y1="{P(y_rep - 18)}" x2="{P(xrr)}" y2="{P(y_rep + 18)}" '
+        f'stroke="{INK}" stroke-width="1.5"/>')
+    add(f'<rect x="{P(xrr - 4)}" y="{P(y_rep - 4)}" width="8" height="8" fill="#ffffff" '
+        f'stroke="{INK}" stroke-width="1.5"/>')
+    labels.append((xrr, f"real rear {m(real_rear)}"))
     deepest = 0
     for lx, level, text in _label_layout(labels, X0 - 10, WIDTH - 4):
         bold = "bold" if text.startswith("real front") else None
@@ -388,6 +402,8 @@ def _legend(out, uid, y):
         ("diamond", "estimated front (onboard, or trackside in the last row)"),
         ("hatch", "reported interval: min safe front to max safe front"),
         ("real", "real front at the end"),
+        ("whole", "trackside's whole train: min safe rear to max safe front"),
+        ("rear", "real rear at the end"),
         ("balise", "balise, numbered by N_PIG (spacing not to scale)"),
         ("arrow", "the group's nominal direction (N_PIG increasing)"),
         ("origin", "origin: engineered location of balise N_PIG 0"),
@@ -406,6 +422,11 @@ def _legend(out, uid, y):
         elif shape == "real":
             out.append(f'<line x1="{cx + 17}" y1="{cy - 9}" x2="{cx + 17}" y2="{cy + 9}" stroke="{INK}" stroke-width="3"/>')
             out.append(f'<circle cx="{cx + 17}" cy="{cy}" r="4.5" fill="#ffffff" stroke="{INK}" stroke-width="2"/>')
+        elif shape == "rear":
+            out.append(f'<line x1="{cx + 17}" y1="{cy - 9}" x2="{cx + 17}" y2="{cy + 9}" stroke="{INK}" stroke-width="1.5"/>')
+            out.append(f'<rect x="{cx + 13}" y="{cy - 4}" width="8" height="8" fill="#ffffff" stroke="{INK}" stroke-width="1.5"/>')
+        elif shape == "whole":
+            out.append(f'<rect x="{cx}" y="{cy - 9}" width="34" height="18" fill="none" stroke="{INK}" stroke-dasharray="5 3"/>')
         elif shape == "balise":
             out.append(f'<rect x="{cx + 11}" y="{cy - 6}" width="12" height="12" fill="#ffffff" stroke="{INK}" stroke-width="1.4"/>')
             out.append(_t(cx + 17, cy + 4, "0", size=9, anchor="middle"))
