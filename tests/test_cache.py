@@ -84,3 +84,66 @@ def test_corrupted_and_foreign_files_are_ignored_with_a_warning(tmp_path):
     seen.clear()
     assert [p.cached for p in solve_in_order(todo, cache=Cache(tmp_path, warn=seen.append))] == [True, True]
     assert seen == []        # rewritten by the run before
+
+
+def test_editing_a_design_formula_resolves_only_the_rules_that_reach_it(tmp_path):
+    """The demo's mistake 3 (q_dirlrbg blind to cab changes) mended: only the rules whose
+    dependency closure reaches onboard q_dirlrbg are solved again. The two doubt and group rules
+    do not read the orientation; their cached answers are reused, with the compared values
+    worked out again by today's encoding (the engine checks them against the simulator, so a
+    stale value would be an internal error)."""
+    from pathlib import Path
+
+    from verifier.loader import load_pack
+    root = Path(__file__).resolve().parent.parent
+    text = (root / "rules" / "demo" / "kestrel-quay.toml").read_text(encoding="utf-8")
+    old_line = 'q_dirlrbg = "if passage.running == forward then passage.seen else flip(passage.seen)"'
+    assert old_line in text
+    (tmp_path / "a").mkdir()
+    (tmp_path / "b").mkdir()
+    (tmp_path / "a" / "kq.toml").write_text(text, encoding="utf-8")
+    (tmp_path / "b" / "kq.toml").write_text(text.replace(old_line, 'q_dirlrbg = "if (passage.running == '
+                                            'forward) == (cab_changes != 1) then passage.seen else '
+                                            'flip(passage.seen)"'), encoding="utf-8")
+    base, edited = load_pack(tmp_path / "a" / "kq.toml"), load_pack(tmp_path / "b" / "kq.toml")
+    cache = Cache(tmp_path / "cache")
+    _solved_ids(base, cache)
+    again = _solved_ids(edited, Cache(tmp_path / "cache"))
+    reach = [r.id for r in edited.rules if ("onboard", "q_dirlrbg") in r.deps]
+    assert again == reach
+    assert "doubt-covers-travelled-distance" not in again and "group-direction-known" not in again
+    assert "orientation-after-turning-back" in again
+    warm = check_packs([edited], CheckOptions(out=None, cache=Cache(tmp_path / "cache")))
+    cold = check_packs([edited], CheckOptions(out=None))
+    strip = lambda res: [(r.rule, r.verdict, r.witness, r.message) for p in res for r in p.results]  # noqa: E731
+    assert strip(warm) == strip(cold)
+    assert "error" not in {r.verdict for p in warm for r in p.results}
+    verdicts = {r.rule: r.verdict for p in warm for r in p.results}
+    assert verdicts["orientation-after-turning-back"] == "holds"     # the mended mistake
+
+
+def test_stale_compared_values_from_the_cache_would_be_caught(tmp_path, monkeypatch):
+    """Seeded fault: reuse the cached compared values as they were stored (under the old
+    design). The engine's comparison with the simulator must then fail on a reused rule whose
+    report values the edit changed, which is why a hit recomputes them."""
+    from pathlib import Path
+
+    from verifier import parallel
+    from verifier.loader import load_pack
+    root = Path(__file__).resolve().parent.parent
+    text = (root / "rules" / "demo" / "kestrel-quay.toml").read_text(encoding="utf-8")
+    (tmp_path / "a").mkdir()
+    (tmp_path / "b").mkdir()
+    (tmp_path / "a" / "kq.toml").write_text(text, encoding="utf-8")
+    # mistake 1 mended: the over-reading doubt from the distance travelled. It changes the
+    # report's L_DOUBTOVER in most worlds, and the group rule does not read it
+    old_line = "world.odometry_over.rate * est.d_lrbg"
+    assert old_line in text
+    (tmp_path / "b" / "kq.toml").write_text(
+        text.replace(old_line, "world.odometry_over.rate * est.travelled"), encoding="utf-8")
+    base, edited = load_pack(tmp_path / "a" / "kq.toml"), load_pack(tmp_path / "b" / "kq.toml")
+    _solved_ids(base, Cache(tmp_path / "cache"))
+    monkeypatch.setattr(parallel, "_today", lambda hit, pack, bound, evaluators: hit)
+    res = check_packs([edited], CheckOptions(out=None, cache=Cache(tmp_path / "cache")))
+    bad = {r.rule: r.message for p in res for r in p.results if r.verdict == "error"}
+    assert bad and all("simulator and solver disagree" in m for m in bad.values())

@@ -3,13 +3,19 @@
 A key is the sha256 of everything that decides a rule's solver result:
 
 - the rule's ``given`` (with its implicit premise) and ``expect`` text;
-- the text of every definition in its dependency closure (``let``, onboard, trackside);
-- the text of every onboard and trackside formula, used or not: the result carries the
-  solver's values of the report and trackside names, which the engine compares with the
-  simulator after every solve, so they must be the ones of today's designs;
+- the text of every definition in its dependency closure (``let``, onboard, trackside): the
+  worlds that satisfy the rule's ``given`` and break its ``expect`` depend on nothing else, so
+  neither do the verdict, the minimal counterexample or the witness. An edit of an onboard or
+  trackside formula the rule does not reach leaves its key alone;
 - the pack settings (``[world]`` scope, ``[params]`` values, ``q_scale``, ``rounding``);
 - the bound and whether a witness is asked for;
 - the tool version, the solver version and a digest of the encoder's own source.
+
+A result also carries the encoding's values of every compared name in its world (the report,
+the trackside outputs), which the engine checks against the simulator; those do depend on
+designs outside the closure. So they are not taken from the cache: on a hit they are computed
+again by today's encoding in the cached world (:func:`verifier.smt.concrete.compared_values`),
+and a world today's encoding cannot evaluate makes the hit a miss.
 
 Only fully decided results are stored (holds, violated, vacuous, minimised to the end):
 ``unknown`` and anything cut short by a budget are never cached, because another run with more
@@ -34,7 +40,7 @@ from verifier import __version__
 from verifier.check.model import Pack, Rule
 from verifier.world.scenario import fmt
 
-FORMAT = "verifier-cache/1"
+FORMAT = "verifier-cache/2"   # 2: designs outside the closure left out of the key
 DEFAULT_DIR = Path(".verifier-cache")
 _VERDICTS = ("holds", "violated", "vacuous")
 
@@ -53,8 +59,6 @@ def _sha(text: str) -> str:
 def rule_key(pack: Pack, rule: Rule, bound: int, witness: bool = True) -> str:
     """The cache key of one rule's solver result (see the module docstring)."""
     defs = {f"{k} {n}": pack.definition((k, n)).text for k, n in sorted(rule.deps)}
-    designs = {f"onboard {n}": f.text for n, f in sorted(pack.onboard.items())}
-    designs.update({f"trackside {n}": f.text for n, f in sorted(pack.trackside.items())})
     doc = {
         "format": FORMAT,
         "versions": _versions(),
@@ -64,7 +68,6 @@ def rule_key(pack: Pack, rule: Rule, bound: int, witness: bool = True) -> str:
         "premise_legs": rule.premise_legs,
         "expect": rule.expect.text,
         "definitions": defs,
-        "designs": designs,
         "settings": {"q_scale": pack.q_scale, "rounding": pack.rounding,
                      "world": pack.scope.as_json(),
                      "params": {k: [str(v[0]), fmt(v[1])] for k, v in sorted(pack.params.items())}},

@@ -39,6 +39,17 @@ def _work(query, limits: dict):
     return solved, time.monotonic() - t0
 
 
+def _today(hit, pack, bound, evaluators: dict):
+    """A cached result with its compared values computed again by today's encoding in its
+    world (they depend on designs the cache key leaves out); None if that fails."""
+    from verifier.smt.concrete import Evaluator, compared_values
+    k = (id(pack), bound)
+    if k not in evaluators:
+        evaluators[k] = Evaluator(pack, bound)
+    values = compared_values(evaluators[k], hit.world)
+    return None if values is None else attrs.evolve(hit, smt_values=values)
+
+
 def check_jobs(jobs: int) -> int:
     if not isinstance(jobs, int) or not 1 <= jobs <= MAX_JOBS:
         raise UsageError(f"--jobs must be 1..{MAX_JOBS}")
@@ -60,10 +71,15 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
     if rlimit is not None:
         limits["rlimit"] = rlimit
     plan = []
+    evaluators: dict = {}
     for pack, rule in todo:
         bound = pack.bound_for(rule, legs)
         key = rule_key(pack, rule, bound, witness) if cache is not None else None
         hit = cache.get(key) if key is not None else None
+        if hit is not None and hit.world is not None:
+            hit = _today(hit, pack, bound, evaluators)
+            if hit is None:
+                cache.hits, cache.misses = cache.hits - 1, cache.misses + 1
         plan.append((pack, rule, bound, key, hit))
 
     def done(key, solved, seconds) -> Presolved:

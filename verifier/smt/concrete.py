@@ -170,6 +170,20 @@ class Evaluator:
         return Concrete(True, values, tuple(legs), lets, given, expect, is_unique, ambiguous)
 
 
+def compared_values(evaluator: Evaluator, world: dict) -> dict | None:
+    """The encoding's values of the names the engine compares with the simulator
+    (:data:`verifier.smt.solve.COMPARED`) in ``world`` (flat form), as a solve would report
+    them; None when the encoding rejects the world or cannot evaluate it."""
+    from verifier.smt.solve import COMPARED
+    try:
+        c = evaluator.evaluate(world)
+    except (RuntimeError, ValueError, KeyError, z3.Z3Exception):
+        return None
+    if not c.scope_ok:
+        return None
+    return {n: c.values[n] for n in COMPARED}
+
+
 # ---- worlds near a rule's decision boundary (for verifier check --crosscheck) -----------------
 
 @attrs.frozen
