@@ -1,6 +1,7 @@
 """Benchmark figures for rule edits, called by bench/benchmark.py (``report(packs)``):
 
 - the re-check time after a one-rule edit, with and without the verdict cache;
+- the same after an edit of one onboard formula (only the rules that reach it are solved again);
 - the speed-up of ``--jobs 2`` over ``--jobs 1`` on a full check without cache.
 
 Also runnable on its own: ``.venv/bin/python bench/bench_edits.py [PATH...]``.
@@ -40,6 +41,28 @@ def edit_one_rule(packs):
     raise SystemExit("bench_edits: no rule with a one-line expect to edit")
 
 
+def edit_one_design(packs):
+    """The packs with the first pack-written onboard formula X rewritten as (X): same meaning,
+    new text. Returns (packs, "pack/onboard.name") or None when no pack writes one."""
+    for i, pack in enumerate(packs):
+        for name, formula in sorted(pack.onboard.items()):
+            old = f'{name} = "{formula.text}"'
+            if pack.text.count(old) != 1:
+                continue
+            text = pack.text.replace(old, f'{name} = "({formula.text})"')
+            edited = check_pack(parse_pack_text(text, pack.path))
+            return packs[:i] + [edited] + packs[i + 1:], f"{pack.name}/onboard.{name}"
+    return None
+
+
+def _cached_recheck(packs, edited):
+    with tempfile.TemporaryDirectory(prefix="verifier-bench-cache-") as tmp:
+        _timed(packs, cache=Cache(Path(tmp)))                       # fills the cache
+        cached = Cache(Path(tmp))
+        t, results = _timed(edited, cache=cached)
+    return t, results, cached
+
+
 def _timed(packs, **kw):
     t0 = time.perf_counter()
     results = check_packs(packs, CheckOptions(out=None, **kw))
@@ -64,6 +87,14 @@ def report(packs) -> None:
     print(f"--jobs 2: {t_jobs2:.2f} s against {t_plain:.2f} s for --jobs 1: "
           f"speed-up x{t_plain / t_jobs2:.2f}")
     print(f"identical verdicts and witnesses in the three runs: {same}")
+    design = edit_one_design(packs)
+    if design is not None:
+        edited, which = design
+        t_cache, with_cache, cached = _cached_recheck(packs, edited)
+        t_plain, without = _timed(edited)
+        print(f"re-check after editing {which}: {t_cache:.2f} s with the cache "
+              f"({cached.misses} solved, {cached.hits} from the cache), {t_plain:.2f} s without; "
+              f"cache / no cache = {t_cache / t_plain:.3f}; identical results: {with_cache == without}")
 
 
 def main() -> int:
