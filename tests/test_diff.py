@@ -219,3 +219,34 @@ def test_claim_meaning_says_what_stronger_means(edits, claim, words):
     r = diff.RuleDiff("r", "edited", side, side, edits=edits, claim=claim)
     assert r.claim_meaning() == words
     assert r.as_json()["claim_meaning"] == (words or None)
+
+
+def test_an_undecided_claim_is_narrowed_by_the_versions_own_worlds(tmp_path, monkeypatch):
+    """Seeded limit: the solver leaves both claim questions undecided. The new version's own
+    counterexample (a cab change after a front-first passage, worked by hand in the test above)
+    has the old claim true and the new one false, so the simulator confirms 'old-only' from it;
+    the converse stays undecided: 'stronger or incomparable', never a guess."""
+    from verifier.smt import relate
+    text = (ROOT / "rules" / "position-report.toml").read_text(encoding="utf-8")
+    old_given = 'given = "passage.seen != unknown and passage.running == forward and cab_changes == 0"'
+    (tmp_path / "pr.toml").write_text(
+        text.replace(old_given, 'given = "passage.seen != unknown and passage.running == forward"'),
+        encoding="utf-8")
+    old, new = load_pack(ROOT / "rules" / "position-report.toml"), load_pack(tmp_path / "pr.toml")
+    real = relate.relate
+
+    def undecided_claims(*args, **kw):
+        return tuple(d if d.kind == "coverage" else relate.Distinction(d.kind, d.direction, "unknown",
+                                                                       reason="canceled")
+                     for d in real(*args, **kw))
+    monkeypatch.setattr(relate, "relate", undecided_claims)
+    diffs = diff.diff_packs([old], [new], diff.DiffOptions(legs=1))
+    r = _by_id(diffs)["front-first-keeps-orientation"]
+    assert (r.old.verdict, r.new.verdict, r.coverage, r.claim) == \
+        ("holds", "violated", "wider", "stronger or incomparable")
+    claims = {w.direction: w for w in r.worlds if w.kind == "claim"}
+    assert claims["old-only"].status == "found" and claims["old-only"].doc["minimal"] is False
+    assert "not minimised" in claims["old-only"].reason
+    assert claims["new-only"].status == "unknown"
+    assert diff.replay_distinction(json.loads(json.dumps(claims["old-only"].doc)), old, new)
+    assert "whether the converse also happens was not decided" in r.claim_meaning()

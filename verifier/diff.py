@@ -13,7 +13,10 @@ Packs are matched by name, rules by id. A rule is
   coverage of the ``given`` parts (same, narrower, wider, different) and the claims
   ``given implies expect`` (equivalent, stronger, weaker, incomparable). For every direction
   that differs a minimal distinguishing world is found by the counterexample ladder and
-  replayed in the simulator on both sides, which must confirm it.
+  replayed in the simulator on both sides, which must confirm it. When the solver leaves a
+  question undecided, the two versions' own counterexamples and witnesses are tried in the
+  simulator; one that shows the difference decides it (marked not minimal), and the relation
+  is then said as far as it is known ("stronger or incomparable"), never guessed.
 
 Section edits (``[world]``, ``[params]``, ``[let]``, ``[onboard]``, ``[trackside]``) are listed
 with the rules they reach and those whose verdict they change.
@@ -127,6 +130,10 @@ class RuleDiff:
             "weaker": (f"{via}the new version is true in more worlds: "
                        + ("it asks less" if own else "the design meets this rule in more worlds")),
             "incomparable": "each version is true in some world where the other is false",
+            "stronger or incomparable": ("the new version is false in some world where the old one "
+                                         "is true; whether the converse also happens was not decided"),
+            "weaker or incomparable": ("the new version is true in some world where the old one is "
+                                       "false; whether the converse also happens was not decided"),
         }.get(self.claim or "", "")
 
     @property
@@ -290,7 +297,27 @@ def replay_distinction(doc: dict, old_pack: Pack, new_pack: Pack) -> bool:
                     _outcome(new_rule, State(new_pack, w)))
 
 
-def _relations(old_pack, old_rule, new_pack, new_rule, bound, opts) -> tuple:
+# When one question of a relation is undecided, what the other one found still narrows it.
+PARTIAL = {("coverage", "old-only"): "narrower or different", ("coverage", "new-only"): "wider or different",
+           ("claim", "old-only"): "stronger or incomparable", ("claim", "new-only"): "weaker or incomparable"}
+
+
+def _seeded(kind, direction, seeds, old_pack, old_rule, new_pack, new_rule, bound):
+    """A world from ``seeds`` (the two versions' own counterexamples and witnesses, as data)
+    that the simulator confirms as a distinction, or None. Used when the solver leaves the
+    question undecided: such a world decides that the distinction exists, though not minimal."""
+    for data in seeds:
+        w = world_from_data(data)
+        if len(w.legs) > bound or scope_problems(w, old_pack.scope, bound) \
+                or scope_problems(w, new_pack.scope, bound):
+            continue
+        if confirms(kind, direction, _outcome(old_rule, State(old_pack, w)),
+                    _outcome(new_rule, State(new_pack, w))):
+            return w
+    return None
+
+
+def _relations(old_pack, old_rule, new_pack, new_rule, bound, opts, seeds=()) -> tuple:
     from verifier.smt import relate
     kw = {}
     if opts.rlimit is not None:
@@ -300,10 +327,17 @@ def _relations(old_pack, old_rule, new_pack, new_rule, bound, opts) -> tuple:
     found = relate.relate(old_pack, old_rule, new_pack, new_rule, bound, **kw)
     worlds = []
     for d in found:
+        if d.status == "unknown":
+            w = _seeded(d.kind, d.direction, seeds, old_pack, old_rule, new_pack, new_rule, bound)
+            if w is not None:
+                d = attrs.evolve(d, status="found", world=None, minimal=False,
+                                 reason=f"the solver did not decide this question ({d.reason}); "
+                                        "this world is one version's own counterexample or witness, "
+                                        "confirmed by the simulator, not minimised")
         if d.status != "found":
             worlds.append(World(d.kind, d.direction, d.status, reason=d.reason))
             continue
-        w = world_from_flat(d.world)
+        w = world_from_flat(d.world) if d.world is not None else w
         doc = distinction_doc(old_pack, old_rule, new_pack, new_rule, d.kind, d.direction, w,
                               bound, d.minimal)
         ok = confirms(d.kind, d.direction, doc["outcome"]["old"], doc["outcome"]["new"])
@@ -325,7 +359,8 @@ def _relations(old_pack, old_rule, new_pack, new_rule, bound, opts) -> tuple:
         if any(w.status == "error" for w in ws):
             return "error"
         if any(w.status == "unknown" for w in ws):
-            return "unknown"
+            known = [w for w in ws if w.status == "found"]
+            return PARTIAL[(kind, known[0].direction)] if known else "unknown"
         return table[tuple(w.status == "found" for w in ws)]
     return word("coverage", COVERAGE), word("claim", CLAIM), tuple(worlds)
 
@@ -375,7 +410,8 @@ def diff_packs(old_packs: list[Pack], new_packs: list[Pack], opts: DiffOptions =
                 continue
             orule, nrule = op.rule(rid), np_.rule(rid)
             bound = min(op.bound_for(orule, opts.legs), np_.bound_for(nrule, opts.legs))
-            cov, claim, worlds = _relations(op, orule, np_, nrule, bound, opts)
+            seeds = [v.world for v in (old_v, new_v) if v is not None and v.world is not None]
+            cov, claim, worlds = _relations(op, orule, np_, nrule, bound, opts, seeds)
             rules.append(RuleDiff(rid, status, old_v, new_v, edits, bound, cov, claim, worlds))
         secs = []
         if op and np_:
@@ -483,6 +519,8 @@ def table(diffs: list[PackDiff], old: str, new: str) -> str:
                 if w.status == "none":
                     continue
                 text = _world_line(w.doc) if w.doc and w.status == "found" else w.reason
+                if w.doc and w.status == "found" and not w.doc.get("minimal", True):
+                    text += " [not minimal: " + (w.reason or "the budget ran out") + "]"
                 lines.append(f"            {w.kind} {w.direction} ({MEANING[(w.kind, w.direction)]}): "
                              f"{text}" + (f" ({w.file})" if w.file else ""))
     summary = as_json(diffs, old, new)["summary"]
