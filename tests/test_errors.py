@@ -58,6 +58,28 @@ def test_hidden_truth_through_a_let_is_caught(write_pack):
     assert "cannot read 'actual.front' (hidden truth), read through let 'cheat'" in msg
 
 
+def test_hidden_truth_through_a_let_points_at_the_let_once(write_pack):
+    """The caret sits on the let's name inside the formula, a let used through another let is
+    named, and the default trackside formulas that read the faulty one are not blamed again."""
+    text = pack_text(rule_toml("a", "true"),
+                     extra='[let]\ntruth = "inner"\ninner = "actual.front > 0 m"\n'
+                           '[trackside]\nest_front = "if truth then rbc.d_lrbg else 0 m"')
+    (msg,) = _errors(write_pack, text)
+    assert msg == (
+        "p.toml:10:17: error: trackside est_front: the trackside cannot read 'actual.front' "
+        "(hidden truth), read through let 'truth' (which uses let 'inner')\n"
+        '    est_front = "if truth then rbc.d_lrbg else 0 m"\n'
+        "                    ^~~~~")
+
+
+def test_the_exact_report_length_names_what_the_trackside_reads(write_pack):
+    text = pack_text(rule_toml("a", "true"),
+                     extra='[trackside]\nest_front = "report.d_lrbg"')
+    (msg,) = _errors(write_pack, text)
+    assert "cannot read 'report.d_lrbg' (the exact length before coding, read by nobody; " \
+           "the trackside reads 'rbc.d_lrbg')" in msg
+
+
 def test_all_errors_reported_not_just_the_first(write_pack):
     text = pack_text(rule_toml("a", "nominal + 1 m > 0 m") + rule_toml("a", "true")
                      + rule_toml("c", "legs[1].odometr > 0 m"), world='train_length = ["20 m", "10 m"]')

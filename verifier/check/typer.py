@@ -15,6 +15,8 @@ Resolved names carry a ``ref``:
 
 from __future__ import annotations
 
+import re
+
 import difflib
 from fractions import Fraction
 
@@ -370,6 +372,18 @@ def _check_call(env: _Env, node: ast.Call) -> ast.Node:
 
 # ---- the pack ------------------------------------------------------------------------
 
+def _unreadable(entry, reader: str) -> str:
+    """Why ``reader`` cannot read a vocabulary entry, with the name it may read instead."""
+    if entry.readers:
+        return f"readable only by the {' and '.join(sorted(entry.readers))}"
+    if entry.kind == "wire" and entry.name.startswith("report."):
+        alt = "rbc." + entry.name[len("report."):]
+        if alt in vocab.GLOBAL and reader in vocab.GLOBAL[alt].readers:
+            return f"the exact length before coding, read by nobody; the {reader} reads '{alt}'"
+        return "the exact length before coding, read by nobody"
+    return "hidden truth"
+
+
 def _closure(start: set, direct: dict) -> set:
     seen = set()
     todo = list(start)
@@ -520,26 +534,45 @@ def _check_pack(raw: RawPack) -> Pack:
                     out.setdefault(r, dep)
         return out
 
-    # observability of design formulas (through their whole dependency closure)
+    let_graph_only = {k: {d for d in v if d[0] == "let"} for k, v in graph.items()}
+
+    def let_reads(let: tuple) -> dict:
+        """What a let reads, itself or through the lets it uses: name -> the let that reads it."""
+        out: dict = {}
+        for dep in sorted(_closure({let}, let_graph_only)):
+            if dep in checked:
+                for r in checked[dep][1]:
+                    out.setdefault(r, dep)
+        return out
+
+    # Observability of design formulas: what they read, themselves or through lets. A design
+    # formula that reads another one is not blamed for what that one reads: the other is
+    # checked on its own, and blaming every reader repeats one mistake many times.
     for (kind, name), (formula, reads, _) in sorted(checked.items()):
         if kind == "let":
             continue
         readers = vocab.ONBOARD if kind == "onboard" else vocab.TRACKSIDE
-        via = {r: None for r in reads}
-        for r, dep in closure_reads(formula.deps).items():
-            via.setdefault(r, dep)
-        for r, dep in sorted(via.items(), key=lambda kv: kv[0]):
+        via = {r: (None, None) for r in reads}
+        for used in sorted(d for d in formula.deps if d[0] == "let"):
+            for r, reader in let_reads(used).items():
+                via.setdefault(r, (used, reader))
+        for r, (used, reader) in sorted(via.items(), key=lambda kv: kv[0]):
             entry = vocab.LEG[r[4:]] if r.startswith("leg.") else vocab.GLOBAL[r]
             if readers in entry.readers:
                 continue
-            hidden = "hidden truth" if not entry.readers else f"readable only by the {' and '.join(sorted(entry.readers))}"
-            if dep is None:
+            hidden = _unreadable(entry, readers)
+            if used is None:
                 off, length = reads[r]
                 diags.append(raw.source.at_key(formula.key, f"{formula.name}: the {kind} cannot read "
                                                f"'{r}' ({hidden})", offset=off, length=length))
-            else:
-                diags.append(raw.source.at_key(formula.key, f"{formula.name}: the {kind} cannot read "
-                                               f"'{r}' ({hidden}), read through {dep[0]} '{dep[1]}'"))
+                continue
+            # point at the let's name where the formula uses it
+            m = re.search(rf"(?<![\w.]){re.escape(used[1])}(?![\w.])", formula.text)
+            deeper = f" (which uses let '{reader[1]}')" if reader != used else ""
+            diags.append(raw.source.at_key(
+                formula.key, f"{formula.name}: the {kind} cannot read '{r}' ({hidden}), read "
+                f"through let '{used[1]}'{deeper}", offset=m.start() if m else None,
+                length=len(used[1]) if m else 1))
 
     rules = []
     warnings = [d for d in raw.diagnostics if d.severity != "error"]
