@@ -147,6 +147,12 @@ def render(d: dict) -> str:
         if r["problems"] or "unknown" in r["second"].values():
             lines.append(f"  - {r['pack']}/{r['id']} ({r['verdict']}): second solver "
                          f"{r['second']}" + ("; " + "; ".join(r["problems"]) if r["problems"] else ""))
+    slow = [(r, k, h) for r in xc["rules"] for k, h in sorted(r.get("second_how", {}).items())
+            if " cases " in h or " with " in h]
+    if slow:
+        lines += ["", "Obligations cvc5 decided only with ite-simp or by cases (the others: with its "
+                  "defaults, whole):", ""]
+        lines += [f"- {r['pack']}/{r['id']} ({k}): {h}" for r, k, h in slow]
     mu = d["mutants"]
     mc = mu["counts"]
     ratio = mu["ratio"]
