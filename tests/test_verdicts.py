@@ -90,3 +90,47 @@ def test_vacuous_rule_names_the_conflicting_parts_of_its_given(write_pack, tmp_p
     assert "'train.length > 2 km' is impossible" in long_.message
     assert "'lrbg.read == 1' and 'lrbg.read >= 2' cannot hold together" in clash.message
     assert "cab_changes" not in clash.message
+
+
+def _whole_question_undecided(monkeypatch):
+    """Seeded limit: the first check of each session without assumptions (the whole violation
+    question, or the whole given) answers unknown, as when it runs out of budget. The checks
+    per number of legs then have to decide, with z3 itself."""
+    import z3
+
+    from verifier.smt import solve
+    real = solve._Session.check
+    refused = []
+
+    def check(self, *assumptions):
+        if not assumptions and not getattr(self, "_refused", False):
+            self._refused = True
+            refused.append(len(self.facts))
+            return z3.unknown
+        return real(self, *assumptions)
+    monkeypatch.setattr(solve._Session, "check", check)
+    return refused
+
+
+def test_an_undecided_question_is_decided_by_number_of_legs(write_pack, tmp_path, monkeypatch):
+    """Split by legs.count, fewest first, gives the very verdicts and minimal worlds of the
+    whole check: the least violating count is the first satisfiable case (DESIGN 6 ladder)."""
+    text = pack_text(rule_toml("hard", HARD, "rbc.placed")
+                     + rule_toml("two-legs-cab", "cab_changes <= 1", "legs.count == 2")
+                     + rule_toml("never", "true", "lrbg.read > lrbg.balises"), legs=2)
+    pack = load_pack(write_pack(text))
+    plain = {r.id: check_rule(pack, r, CheckOptions(out=tmp_path / "plain")) for r in pack.rules}
+    refused = _whole_question_undecided(monkeypatch)
+    split = {r.id: check_rule(pack, r, CheckOptions(out=tmp_path / "split")) for r in pack.rules}
+    assert refused                       # the seeded limit did bite
+    for rid in plain:
+        a, b = plain[rid], split[rid]
+        assert (a.verdict, a.witness, a.message) == (b.verdict, b.witness, b.message), rid
+    assert [split[r].verdict for r in ("hard", "two-legs-cab", "never")] == ["holds", "violated", "vacuous"]
+    # the counterexample needs both legs to change cab: 2 legs, 2 cab changes, found in case 2
+    files = sorted((tmp_path / "split").rglob("*.json"))
+    assert [f.name for f in files] == ["two-legs-cab.json"]
+    same = tmp_path / "plain" / files[0].relative_to(tmp_path / "split")
+    assert files[0].read_bytes() == same.read_bytes()          # byte for byte
+    legs = json.loads(files[0].read_text())["world"]["legs"]
+    assert len(legs) == 2 and all(leg["cab_change"] for leg in legs)

@@ -45,6 +45,9 @@ class _Budget:
     def left_ms(self) -> int:
         return max(1, int((self.deadline - time.monotonic()) * 1000))
 
+    def spent(self) -> bool:
+        return time.monotonic() >= self.deadline
+
 
 class _Session:
     """Budgeted checks over one encoding.
@@ -210,6 +213,26 @@ def _ladder(ses: _Session, enc: Encoding) -> bool:
     return decided
 
 
+def _check_by_legs(ses: _Session):
+    """The session's question when one check of the whole is left undecided: asked again for
+    each number of legs, fewest first, as separate one-shot checks (the cases cover every world
+    in scope, since 0 <= legs.count <= K is a world constraint). Returns ``(sat, k)`` with the
+    fewest legs of a violating world and ``legs.count == k`` added to the session, ``(unsat,
+    None)`` when every case is unsat, or ``(unknown, reason)``.
+
+    Measured on the confidence-interval envelope rules at K = 4: the whole question ran out of
+    the default rlimit (500M, 15 s) while the five cases took 0.0 to 10.6 s each (14 s in all)."""
+    count = ses.enc.terms["legs.count"]
+    for k in range(ses.enc.K + 1):
+        r = ses.check(count == k)
+        if r == z3.sat:
+            ses.add(count == k)      # the least count: every smaller case is unsat
+            return r, k
+        if r == z3.unknown:
+            return r, f"{ses.s.reason_unknown() or 'budget exhausted'} (case legs.count == {k})"
+    return z3.unsat, None
+
+
 def _read_world(model, enc: Encoding) -> dict:
     """The inputs of a model as plain data, legs beyond legs.count left out."""
     ev = lambda t: model.evaluate(t, model_completion=True)  # noqa: E731
@@ -304,6 +327,10 @@ def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: _Budget 
                       checks + last.checks, SOLVER, secs + last.seconds)
 
     r = ses.check()
+    if r == z3.unknown and ses.enc.K > 0 and not ses.budget.spent():
+        r, why = _check_by_legs(ses)
+        if r == z3.unknown:
+            return finish("unknown", reason=why)
     if r == z3.sat:
         # keep the first violating world: if the budget runs out while minimising, it is still
         # a counterexample (reported as not minimal, and replayed like any other)
@@ -323,6 +350,10 @@ def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: _Budget 
     wit = _Session(enc, rlimit, budget)
     wit.add(given)
     r = wit.check()
+    if r == z3.unknown and enc.K > 0 and not budget.spent():
+        r, why = _check_by_legs(wit)
+        if r == z3.unknown:
+            return finish("unknown", reason=f"given: {why}", last=wit)
     if r == z3.unknown:
         return finish("unknown", reason=f"given: {wit.s.reason_unknown()}", last=wit)
     if r == z3.unsat:
