@@ -250,3 +250,36 @@ def test_an_undecided_claim_is_narrowed_by_the_versions_own_worlds(tmp_path, mon
     assert claims["new-only"].status == "unknown"
     assert diff.replay_distinction(json.loads(json.dumps(claims["old-only"].doc)), old, new)
     assert "whether the converse also happens was not decided" in r.claim_meaning()
+
+
+def test_relations_undecided_whole_are_decided_per_number_of_legs(tmp_path, monkeypatch):
+    """Seeded limit: each question's first whole check answers unknown. Asked again per number
+    of legs (fewest first), the relations and minimal worlds are those of the whole checks."""
+    import z3
+
+    from verifier.smt import solve
+    text = (ROOT / "rules" / "position-report.toml").read_text(encoding="utf-8")
+    old_given = 'given = "passage.seen != unknown and passage.running == forward and cab_changes == 0"'
+    (tmp_path / "pr.toml").write_text(
+        text.replace(old_given, 'given = "passage.seen != unknown and passage.running == forward"'),
+        encoding="utf-8")
+    old, new = load_pack(ROOT / "rules" / "position-report.toml"), load_pack(tmp_path / "pr.toml")
+    rule = "front-first-keeps-orientation"
+
+    def relations():
+        r = _by_id(diff.diff_packs([old], [new], diff.DiffOptions(legs=1)))[rule]
+        return r.coverage, r.claim, [(w.kind, w.direction, w.status, w.doc and w.doc["world"])
+                                     for w in r.worlds]
+    plain = relations()
+    real, refused = solve._Session.check, []
+
+    def check(self, *assumptions):
+        if not assumptions and not getattr(self, "_refused", False):
+            self._refused = True
+            refused.append(1)
+            real(self, *assumptions)          # a real solver object, whose answer is dropped
+            return z3.unknown
+        return real(self, *assumptions)
+    monkeypatch.setattr(solve._Session, "check", check)
+    assert relations() == plain and plain[:2] == ("wider", "stronger")
+    assert refused

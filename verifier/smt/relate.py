@@ -4,7 +4,8 @@ Both versions are encoded in one context over one set of world inputs: the old p
 constants are prefixed ``old!``, the new pack's ``new!``, and the world constraints of both
 packs are asserted, so every world considered is in the *common* scope (inside both packs'
 ``[world]``, up to the smaller bound). Four questions are asked, each a one-shot satisfiability
-check; a satisfiable one is minimised by the same ladder as a counterexample (DESIGN 6):
+check (asked again per number of legs, fewest first, when the whole is left undecided); a
+satisfiable one is minimised by the same ladder as a counterexample (DESIGN 6):
 
 - coverage ``old-only``: old given and not new given;  ``new-only``: the converse;
 - claim ``old-only``: old claim (given implies expect) true and new claim false (the new rule
@@ -65,12 +66,15 @@ def relate(old_pack: Pack, old_rule: Rule, new_pack: Pack, new_rule: Rule, bound
         ses = solve._Session(both, rlimit, budget)
         ses.add(facts[(kind, direction)])
         r = ses.check()
+        why = ses.s.reason_unknown() if r == z3.unknown else ""
+        if r == z3.unknown and both.K > 0 and not budget.spent():
+            r, k_or_why = solve._check_by_legs(ses)     # the same question per number of legs
+            why = k_or_why if r == z3.unknown else ""
         if r == z3.unsat:
             out.append(Distinction(kind, direction, "none"))
             continue
         if r == z3.unknown:
-            out.append(Distinction(kind, direction, "unknown",
-                                   reason=ses.s.reason_unknown() or "budget exhausted"))
+            out.append(Distinction(kind, direction, "unknown", reason=why or "budget exhausted"))
             continue
         decided = solve._ladder(ses, both)
         if ses.check() != z3.sat:   # pragma: no cover - the ladder only adds satisfiable facts
