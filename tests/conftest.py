@@ -38,3 +38,27 @@ def write_pack(tmp_path):
         p.write_text(text, encoding="utf-8")
         return p
     return write
+
+
+@pytest.fixture
+def whole_check_refused(monkeypatch):
+    """Seeded limit: call it to make the first check without assumptions of each solver session
+    (a whole question: the violation, the given, a diff relation) answer unknown, as when it
+    runs out of budget; the real check still runs, so the session has a solver to ask why.
+    Returns the list that records each refusal."""
+    def install():
+        import z3
+
+        from verifier.smt import solve
+        real, refused = solve._Session.check, []
+
+        def check(self, *assumptions):
+            if not assumptions and not getattr(self, "_refused", False):
+                self._refused = True
+                refused.append(len(self.facts))
+                real(self, *assumptions)
+                return z3.unknown
+            return real(self, *assumptions)
+        monkeypatch.setattr(solve._Session, "check", check)
+        return refused
+    return install

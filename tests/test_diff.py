@@ -221,18 +221,25 @@ def test_claim_meaning_says_what_stronger_means(edits, claim, words):
     assert r.as_json()["claim_meaning"] == (words or None)
 
 
+def _cab_condition_dropped(tmp_path):
+    """The shipped position-report pack and a copy whose front-first-keeps-orientation lost
+    "cab_changes == 0" (worked by hand in test_shipped_position_report_edits)."""
+    text = (ROOT / "rules" / "position-report.toml").read_text(encoding="utf-8")
+    old_given = 'given = "passage.seen != unknown and passage.running == forward and cab_changes == 0"'
+    assert old_given in text
+    (tmp_path / "pr.toml").write_text(
+        text.replace(old_given, 'given = "passage.seen != unknown and passage.running == forward"'),
+        encoding="utf-8")
+    return load_pack(ROOT / "rules" / "position-report.toml"), load_pack(tmp_path / "pr.toml")
+
+
 def test_an_undecided_claim_is_narrowed_by_the_versions_own_worlds(tmp_path, monkeypatch):
     """Seeded limit: the solver leaves both claim questions undecided. The new version's own
     counterexample (a cab change after a front-first passage, worked by hand in the test above)
     has the old claim true and the new one false, so the simulator confirms 'old-only' from it;
     the converse stays undecided: 'stronger or incomparable', never a guess."""
     from verifier.smt import relate
-    text = (ROOT / "rules" / "position-report.toml").read_text(encoding="utf-8")
-    old_given = 'given = "passage.seen != unknown and passage.running == forward and cab_changes == 0"'
-    (tmp_path / "pr.toml").write_text(
-        text.replace(old_given, 'given = "passage.seen != unknown and passage.running == forward"'),
-        encoding="utf-8")
-    old, new = load_pack(ROOT / "rules" / "position-report.toml"), load_pack(tmp_path / "pr.toml")
+    old, new = _cab_condition_dropped(tmp_path)
     real = relate.relate
 
     def undecided_claims(*args, **kw):
@@ -252,18 +259,10 @@ def test_an_undecided_claim_is_narrowed_by_the_versions_own_worlds(tmp_path, mon
     assert "whether the converse also happens was not decided" in r.claim_meaning()
 
 
-def test_relations_undecided_whole_are_decided_per_number_of_legs(tmp_path, monkeypatch):
+def test_relations_undecided_whole_are_decided_per_number_of_legs(tmp_path, whole_check_refused):
     """Seeded limit: each question's first whole check answers unknown. Asked again per number
     of legs (fewest first), the relations and minimal worlds are those of the whole checks."""
-    import z3
-
-    from verifier.smt import solve
-    text = (ROOT / "rules" / "position-report.toml").read_text(encoding="utf-8")
-    old_given = 'given = "passage.seen != unknown and passage.running == forward and cab_changes == 0"'
-    (tmp_path / "pr.toml").write_text(
-        text.replace(old_given, 'given = "passage.seen != unknown and passage.running == forward"'),
-        encoding="utf-8")
-    old, new = load_pack(ROOT / "rules" / "position-report.toml"), load_pack(tmp_path / "pr.toml")
+    old, new = _cab_condition_dropped(tmp_path)
     rule = "front-first-keeps-orientation"
 
     def relations():
@@ -271,15 +270,6 @@ def test_relations_undecided_whole_are_decided_per_number_of_legs(tmp_path, monk
         return r.coverage, r.claim, [(w.kind, w.direction, w.status, w.doc and w.doc["world"])
                                      for w in r.worlds]
     plain = relations()
-    real, refused = solve._Session.check, []
-
-    def check(self, *assumptions):
-        if not assumptions and not getattr(self, "_refused", False):
-            self._refused = True
-            refused.append(1)
-            real(self, *assumptions)          # a real solver object, whose answer is dropped
-            return z3.unknown
-        return real(self, *assumptions)
-    monkeypatch.setattr(solve._Session, "check", check)
+    refused = whole_check_refused()
     assert relations() == plain and plain[:2] == ("wider", "stronger")
     assert refused

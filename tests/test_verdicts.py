@@ -92,27 +92,7 @@ def test_vacuous_rule_names_the_conflicting_parts_of_its_given(write_pack, tmp_p
     assert "cab_changes" not in clash.message
 
 
-def _whole_question_undecided(monkeypatch):
-    """Seeded limit: the first check of each session without assumptions (the whole violation
-    question, or the whole given) answers unknown, as when it runs out of budget. The checks
-    per number of legs then have to decide, with z3 itself."""
-    import z3
-
-    from verifier.smt import solve
-    real = solve._Session.check
-    refused = []
-
-    def check(self, *assumptions):
-        if not assumptions and not getattr(self, "_refused", False):
-            self._refused = True
-            refused.append(len(self.facts))
-            return z3.unknown
-        return real(self, *assumptions)
-    monkeypatch.setattr(solve._Session, "check", check)
-    return refused
-
-
-def test_an_undecided_question_is_decided_by_number_of_legs(write_pack, tmp_path, monkeypatch):
+def test_an_undecided_question_is_decided_by_number_of_legs(write_pack, tmp_path, whole_check_refused):
     """Split by legs.count, fewest first, gives the very verdicts and minimal worlds of the
     whole check: the least violating count is the first satisfiable case (DESIGN 6 ladder)."""
     text = pack_text(rule_toml("hard", HARD, "rbc.placed")
@@ -120,7 +100,7 @@ def test_an_undecided_question_is_decided_by_number_of_legs(write_pack, tmp_path
                      + rule_toml("never", "true", "lrbg.read > lrbg.balises"), legs=2)
     pack = load_pack(write_pack(text))
     plain = {r.id: check_rule(pack, r, CheckOptions(out=tmp_path / "plain")) for r in pack.rules}
-    refused = _whole_question_undecided(monkeypatch)
+    refused = whole_check_refused()
     split = {r.id: check_rule(pack, r, CheckOptions(out=tmp_path / "split")) for r in pack.rules}
     assert refused                       # the seeded limit did bite
     for rid in plain:
