@@ -203,3 +203,15 @@ def test_the_second_configuration_answers_when_the_defaults_do_not(monkeypatch):
     assert ans.how().startswith("unsat with --ite-simp=true in ")
     assert [t[0] for t in tried] == [{}, {"ite-simp": "true"}]
     assert tried[0][1] == second.FIRST_TRY and 30 < tried[1][1] <= 40
+
+
+def test_a_shipped_envelope_obligation_is_decided_by_cvc5():
+    """inside-after-two-cab-changes of the shipped confidence-interval pack: z3 proves it
+    (holds); cvc5 with its defaults alone stays undecided after 30 s on it (measured, cvc5
+    1.4.2), so this is the configuration list and the split at work on a real obligation."""
+    pack = load_pack(ROOT / "rules" / "confidence-interval.toml")
+    rule = pack.rule("inside-after-two-cab-changes")
+    text = export.obligations(pack, rule, pack.bound_for(rule, None), "holds")["violation"]
+    ans = second.solve_split(text, export.case_split(pack.bound_for(rule, None)),
+                             case_timeout=60, budget=600)
+    assert ans.status == "unsat", ans.reason
