@@ -33,3 +33,19 @@ def test_no_temporary_files_left(tmp_path, monkeypatch):
     names = [p.name for p in tmp_path.rglob("*")]
     assert not [n for n in names if n.endswith(".tmp")]
     assert "rounding-keeps-doubts.json" in names
+
+
+def test_files_get_ordinary_permissions(tmp_path, monkeypatch):
+    """Evidence is shared: under umask 022 a counterexample and its picture are 0644 like any
+    new file (a first-user trial found the temporary file's 0600 kept)."""
+    import os
+    import stat
+    monkeypatch.chdir(ROOT)
+    old = os.umask(0o022)
+    try:
+        main(["check", "rules/demo", "--out", str(tmp_path), "--rule", "rounding-keeps-doubts"])
+    finally:
+        os.umask(old)
+    files = [p for p in tmp_path.rglob("*") if p.is_file()]
+    assert {p.suffix for p in files} == {".json", ".svg"}
+    assert {stat.S_IMODE(p.stat().st_mode) for p in files} == {0o644}

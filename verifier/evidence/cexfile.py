@@ -142,11 +142,20 @@ def dumps(doc: dict) -> str:
     return json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
 
 
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
 def write_atomic(path: Path, text: str) -> None:
-    """Write so that a reader (or a kill) never sees half a file."""
+    """Write so that a reader (or a kill) never sees half a file. The file gets the permissions
+    an ordinary new file would (0666 less the umask), not the owner-only ones of a temporary
+    file: counterexamples and reports are meant to be shared."""
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     try:
+        os.chmod(tmp, 0o666 & ~_umask())
         with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
             fh.write(text)
             fh.flush()
