@@ -140,3 +140,10 @@ def test_cli_unknown_rule_id_is_usage_error(tmp_path, capsys, monkeypatch):
     (tmp_path / "p.toml").write_text(pack_text(rule_toml("a", "true")))
     assert main(["check", "p.toml", "--rule", "nope"]) == 2
     assert "no rule with id 'nope'" in capsys.readouterr().err
+
+
+def test_cli_misspelt_rule_id_gets_a_suggestion(tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "p.toml").write_text(pack_text(rule_toml("real-front-inside-interval", "true")))
+    assert main(["check", "p.toml", "--rule", "real-front-inside-intervl"]) == 2
+    assert "did you mean 'real-front-inside-interval'?" in capsys.readouterr().err

@@ -62,7 +62,7 @@ class CrossReport:
     def summary(self) -> str:
         c = self.counts()
         return (f"crosscheck: {'; '.join(self.checks)}\n"
-                f"crosscheck: {c['rules']} rules; second solver ({self.second_solver}) agreed on "
+                f"crosscheck: {c['rules']} rule{'s' if c['rules'] != 1 else ''}; second solver ({self.second_solver}) agreed on "
                 f"{c['second_agree']} of {c['obligations']} obligations ({c['second_split']} divided "
                 f"into cases), undecided on "
                 f"{c['second_undecided']}, disagreed on {c['second_disagree']}; "
@@ -152,5 +152,5 @@ def crosscheck_results(packs, results, opts, *, boundary: int = 4, second_timeou
     checks = (f"(a) same obligation, second solver: {second.version()} re-solved the exported SMT-LIB "
               "(an obligation it cannot decide whole is divided into cases that cover every world)",
               f"(b) up to {boundary} boundary worlds per rule replayed in the simulator",
-              "(c) every counterexample and witness replayed in the simulator (engine)")
+              "(c) every counterexample and witness replayed in the simulator (as on every check)")
     return new_results, CrossReport(checks, tuple(crosses), second.version())

@@ -183,7 +183,10 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
         known = {r.id for p in packs for r in p.rules}
         missing = [r for r in opts.rules if r not in known]
         if missing:
-            raise UsageError(f"no rule with id '{missing[0]}' in the packs given")
+            import difflib
+            near = difflib.get_close_matches(missing[0], sorted(known), n=1)
+            hint = f"; did you mean '{near[0]}'?" if near else ""
+            raise UsageError(f"no rule with id '{missing[0]}' in the packs given{hint}")
     todo = [(p, r) for p in packs for r in select_rules(p, opts.rules)]
     results: dict = {id(p): [] for p in packs}   # by identity: two packs may share a name
     from verifier.parallel import solve_in_order
