@@ -139,7 +139,7 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None) -> Ru
         cexfile.write_atomic(target, cexfile.dumps(doc))
         diagram.write_beside(target, doc, rule, st)
         path = target.as_posix()
-    msg = describe_failure(cexfile.failed_part(rule, st))
+    msg = describe_failure(cexfile.failed_detail(rule, st))
     if not solved.minimal:
         msg += " (not fully minimised: " + solved.reason + ")"
     return result("violated", counterexample=path, message=msg)
@@ -157,17 +157,15 @@ def _vacuity_message(pack: Pack, rule: Rule, bound: int, reason: str) -> str:
             + f" cannot hold together within the scope (up to {bound} legs)")
 
 
-def describe_failure(failed: dict | None) -> str:
-    """One line on the part of expect that failed: each side with its value."""
-    if not failed:
+def describe_failure(detail: dict | None) -> str:
+    """One line on the part of expect that failed (``cexfile.failed_detail``): the comparison
+    as written and the value of each side that is not a literal, with its unit."""
+    from verifier.evidence.story import comparison_words
+    if not detail:
         return ""
-    if "left" not in failed:
-        return f"false: {failed['text']}"
-
-    def side(part):
-        text, value = part["text"], part["value"]
-        return text if text == str(value) else f"{text} [= {value}]"
-    return f"false: {side(failed['left'])} {failed['operator']} {side(failed['right'])}"
+    if "op" not in detail:
+        return f"{detail['text']} is false"
+    return comparison_words(detail)
 
 
 def select_rules(pack: Pack, wanted: tuple) -> list[Rule]:

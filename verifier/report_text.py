@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from verifier.check.model import Pack
-from verifier.evidence.cexfile import failed_part
+from verifier.evidence.story import failed_detail
 from verifier.world.scenario import fmt
 from verifier.world.sim import State, World, applies, evaluate, scope_problems
 
@@ -60,5 +60,5 @@ def simulate_text(pack: Pack, world: World, legs: int | None = None) -> tuple[st
             continue
         ok = False
         from verifier.engine import describe_failure
-        out.append(f"  VIOLATED        {rule.id}: {describe_failure(failed_part(rule, st))}")
+        out.append(f"  VIOLATED        {rule.id}: {describe_failure(failed_detail(rule, st))}")
     return "\n".join(out), ok

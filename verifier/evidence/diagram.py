@@ -24,7 +24,8 @@ from pathlib import Path
 
 from verifier.check.model import Rule
 from verifier.evidence import cexfile
-from verifier.evidence.story import _front_at_detection, failed_detail, interval_words, m, value_words
+from verifier.evidence.story import (_front_at_detection, comparison_words, failed_detail,
+                                     interval_words, m, value_words)
 from verifier.lang.ast import LENGTH
 from verifier.world.scenario import fmt
 from verifier.world.sim import State
@@ -293,8 +294,7 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     if placed:
         lines.append(interval_words(real, g("rbc.min_safe_front"), g("rbc.max_safe_front")))
     if fd and "op" in fd:
-        (lt, lv, lty), (rt, rv, rty) = fd["left"], fd["right"]
-        lines.append(f"Failed: {lt} = {value_words(lv, lty)} {fd['op']} {rt} = {value_words(rv, rty)} is false.")
+        lines.append(f"Failed: {comparison_words(fd)}.")
     elif fd:
         lines.append(f"Failed: {fd['text']} is false.")
     k = 0

@@ -332,6 +332,16 @@ def value_words(value, ty) -> str:
     return fmt(Fraction(value))
 
 
+def comparison_words(detail: dict) -> str:
+    """A failed comparison (``failed_detail`` with an operator) in words: the comparison as
+    written, then the value of each side that is not a literal, with its unit. For example
+    "report.q_dirlrbg == nominal is false: report.q_dirlrbg is reverse"."""
+    (lt, lv, lty), (rt, rv, rty) = detail["left"], detail["right"]
+    values = [f"{t} is {value_words(v, ty)}" for t, v, ty in ((lt, lv, lty), (rt, rv, rty))
+              if t.strip() != value_words(v, ty)]
+    return f"{lt} {detail['op']} {rt} is false" + (": " + " and ".join(values) if values else "")
+
+
 def flip(d: Direction) -> Direction:
     return {Direction.NOMINAL: Direction.REVERSE, Direction.REVERSE: Direction.NOMINAL}.get(d, d)
 
