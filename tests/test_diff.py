@@ -273,3 +273,24 @@ def test_relations_undecided_whole_are_decided_per_number_of_legs(tmp_path, whol
     refused = whole_check_refused()
     assert relations() == plain and plain[:2] == ("wider", "stronger")
     assert refused
+
+
+def test_diff_rule_option_compares_only_that_rule(tmp_path, capsys, monkeypatch):
+    old, new = _cab_condition_dropped(tmp_path)
+    monkeypatch.chdir(tmp_path)
+    args = ["diff", str(ROOT / "rules" / "position-report.toml"), "pr.toml", "--legs", "1", "--no-cache"]
+    code = main(args + ["--json", "--rule", "front-first-keeps-orientation"])
+    doc = json.loads(capsys.readouterr().out)
+    assert code == 1                                   # holds -> violated, as worked above
+    assert [r["id"] for p in doc["packs"] for r in p["rules"]] == ["front-first-keeps-orientation"]
+    assert main(args + ["--rule", "front-first-keeps-orientaton"]) == 2
+    assert "did you mean 'front-first-keeps-orientation'?" in capsys.readouterr().err
+
+
+def test_diff_reports_progress_before_each_slow_step(tmp_path):
+    old, new = _cab_condition_dropped(tmp_path)
+    said = []
+    diff.diff_packs([old], [new], diff.DiffOptions(legs=1, progress=said.append))
+    assert said[0] == "diff: deciding 2 verdicts"          # one edited rule, both sides
+    assert said[1:] == ["diff: [1/1] relating the two versions of position-report/"
+                        "front-first-keeps-orientation (coverage and claim, up to 1 leg)"]

@@ -42,6 +42,15 @@ class _Progress:
         elif n == total:
             self.clear()
 
+    def say(self, line: str) -> None:
+        """Show one line of status in place of the last one (a terminal only)."""
+        if not self.enabled:
+            return
+        line = f"{line}  {time.monotonic() - self.t0:.1f} s"
+        self.width = max(self.width, len(line))
+        sys.stderr.write("\r" + line.ljust(self.width))
+        sys.stderr.flush()
+
     def clear(self) -> None:
         if self.enabled and self.width:
             sys.stderr.write("\r" + " " * self.width + "\r")
@@ -153,10 +162,15 @@ def cmd_diff(args) -> int:
     from verifier.cache import Cache
     from verifier.parallel import check_jobs
     cache = None if args.no_cache else Cache(warn=lambda w: print(f"verifier: warning: {w}", file=sys.stderr))
+    progress = _Progress(sys.stderr.isatty() and not args.json)
     opts = diff.DiffOptions(legs=args.legs, rlimit=args.rlimit, timeout=args.timeout,
                             jobs=check_jobs(args.jobs), cache=cache,
-                            out=Path(args.out) if args.out else None)
-    diffs = diff.diff_specs(args.old, args.new, opts)
+                            out=Path(args.out) if args.out else None,
+                            rules=tuple(args.rule or ()), progress=progress.say)
+    try:
+        diffs = diff.diff_specs(args.old, args.new, opts)
+    finally:
+        progress.clear()
     if args.json:
         print(json.dumps(diff.as_json(diffs, args.old, args.new), indent=2, sort_keys=True))
     else:
@@ -274,6 +288,8 @@ def build_parser() -> argparse.ArgumentParser:
     d.add_argument("--rlimit", type=int, metavar="N", help="deterministic solver budget per check")
     d.add_argument("--jobs", type=int, default=1, metavar="N", help="decide verdicts in N worker processes")
     d.add_argument("--no-cache", action="store_true", help="neither read nor write .verifier-cache/")
+    d.add_argument("--rule", action="append", metavar="ID",
+                   help="compare only this rule (repeatable); relating an envelope rule can take minutes")
     d.set_defaults(func=cmd_diff)
 
     m = sub.add_parser("mutate", help="seed small errors into packs' designs and see which the rules catch",

@@ -69,6 +69,8 @@ class DiffOptions:
     jobs: int = 1
     cache: object = None            # a verifier.cache.Cache, or None
     out: Path | None = None         # where to write worlds and counterexamples (None: nowhere)
+    rules: tuple = ()               # rule ids to compare (empty: every rule)
+    progress: object = None         # called with a line of text before each slow step, or None
 
 
 @attrs.frozen
@@ -381,6 +383,8 @@ def diff_packs(old_packs: list[Pack], new_packs: list[Pack], opts: DiffOptions =
         op, np_ = olds.get(name), news.get(name)
         ids = [r.id for r in op.rules] if op else []
         ids += [r.id for r in np_.rules if r.id not in ids] if np_ else []
+        if opts.rules:
+            ids = [rid for rid in ids if rid in opts.rules]
         for rid in ids:
             orule = _rule(op, rid)
             nrule = _rule(np_, rid)
@@ -396,7 +400,18 @@ def diff_packs(old_packs: list[Pack], new_packs: list[Pack], opts: DiffOptions =
                     items.append((op, orule, "old"))
                 if nrule:
                     items.append((np_, nrule, "new"))
+    if opts.rules:
+        known = {r.id for p in old_packs + new_packs for r in p.rules}
+        missing = [r for r in opts.rules if r not in known]
+        if missing:
+            import difflib
+            near = difflib.get_close_matches(missing[0], sorted(known), n=1)
+            raise UsageError(f"no rule with id '{missing[0]}' on either side"
+                             + (f"; did you mean '{near[0]}'?" if near else ""))
+    if opts.progress and items:
+        opts.progress(f"diff: deciding {len(items)} verdict{'s' if len(items) != 1 else ''}")
     verdicts = dict(zip([(p.name, r.id, s) for p, r, s in items], _verdicts(items, opts)))
+    n_edited, k_edited = sum(1 for p in plan if p[2] == "edited"), 0
     out = []
     for name in names:
         op, np_ = olds.get(name), news.get(name)
@@ -410,6 +425,10 @@ def diff_packs(old_packs: list[Pack], new_packs: list[Pack], opts: DiffOptions =
                 continue
             orule, nrule = op.rule(rid), np_.rule(rid)
             bound = min(op.bound_for(orule, opts.legs), np_.bound_for(nrule, opts.legs))
+            k_edited += 1
+            if opts.progress:
+                opts.progress(f"diff: [{k_edited}/{n_edited}] relating the two versions of "
+                              f"{name}/{rid} (coverage and claim, up to {bound} leg{'s' if bound != 1 else ''})")
             seeds = [v.world for v in (old_v, new_v) if v is not None and v.world is not None]
             cov, claim, worlds = _relations(op, orule, np_, nrule, bound, opts, seeds)
             rules.append(RuleDiff(rid, status, old_v, new_v, edits, bound, cov, claim, worlds))
