@@ -87,3 +87,19 @@ def test_demo_counterexample_replays_as_scenario(tmp_path, monkeypatch, capsys):
     f = "counterexamples/kestrel-quay/rounding-keeps-doubts.json"
     assert main(["simulate", f, "--pack", "rules/demo/kestrel-quay.toml"]) == 1
     assert "VIOLATED        rounding-keeps-doubts" in capsys.readouterr().out
+
+
+def test_a_counterexample_of_a_rule_that_now_holds_is_kept_and_named(tmp_path, capsys, monkeypatch):
+    """Nothing lost: the old file stays, and check says it no longer matches the verdict."""
+    from conftest import pack_text, rule_toml
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "p.toml").write_text(pack_text(rule_toml("r", "legs.count == 0"), legs=1))
+    assert main(["check", "p.toml"]) == 1
+    cex = tmp_path / "counterexamples" / "t" / "r.json"
+    assert cex.exists()
+    capsys.readouterr()
+    (tmp_path / "p.toml").write_text(pack_text(rule_toml("r", "legs.count <= 1"), legs=1))
+    assert main(["check", "p.toml"]) == 0
+    err = capsys.readouterr().err
+    assert cex.exists()
+    assert "note: counterexamples/t/r.json is from an earlier run: rule r is now holds" in err

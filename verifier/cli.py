@@ -153,7 +153,24 @@ def cmd_check(args) -> int:
         from verifier.smt.export import write_for_results
         n = len(write_for_results(Path(args.smt2), packs, results))
         print(f"smt2: {n} SMT-LIB files in {Path(args.smt2).as_posix()}", file=sys.stderr)
+    if opts.out is not None:
+        _note_stale_files(opts.out, packs, results)
     return exit_code(results, input_errors)
+
+
+def _note_stale_files(out: Path, packs, results) -> None:
+    """Say which counterexample files left by an earlier run belong to a rule that is no longer
+    violated. They are kept (they may be archived evidence); ``verifier replay`` re-judges them."""
+    from verifier.evidence.cexfile import cex_path
+    for pack, pr in zip(packs, results):
+        for r in pr.results:
+            if r.verdict not in ("holds", "vacuous"):
+                continue
+            old = cex_path(out, pack, pack.rule(r.rule))
+            if old.exists():
+                print(f"note: {old.as_posix()} is from an earlier run: rule {r.rule} is now {r.verdict}; "
+                      f"the file is kept ('verifier replay' re-judges it; delete it if it is no "
+                      f"longer evidence)", file=sys.stderr)
 
 
 def cmd_diff(args) -> int:
