@@ -103,3 +103,9 @@ def test_a_counterexample_of_a_rule_that_now_holds_is_kept_and_named(tmp_path, c
     err = capsys.readouterr().err
     assert cex.exists()
     assert "note: counterexamples/t/r.json is from an earlier run: rule r is now holds" in err
+
+
+def test_no_path_and_no_rules_folder_says_what_the_default_is(tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    assert main(["check"]) == 2
+    assert "no PATH given and no rules/ folder here" in capsys.readouterr().err

@@ -102,6 +102,9 @@ def cmd_check(args) -> int:
     from verifier.engine import CheckOptions, check_packs, exit_code
     from verifier.loader import load_all
 
+    if not args.paths and not Path("rules").exists():
+        raise UsageError("no PATH given and no rules/ folder here: name the pack files or folders "
+                         "to check (the default, rules/, is looked for in the current folder)")
     packs, diags = load_all(args.paths or ["rules"])
     _print_diags(diags)
     input_errors = any(d.severity == "error" for d in diags)
