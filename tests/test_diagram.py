@@ -182,3 +182,14 @@ def test_whole_train_as_the_trackside_places_it(pack, world):
     ends = sorted((min_rear, st.get("rbc.max_safe_front")))
     span = (x1 - x0) / (ends[1] - ends[0])       # pixels per metre, from the outline itself
     assert abs((lo - x0) - span * (min(st.get("rbc.min_safe_front"), st.get("rbc.max_safe_front")) - ends[0])) < 1
+
+
+def test_whole_train_words_name_the_ends_outside():
+    """Worked by hand from the demo's orientation counterexample: the trackside places the
+    train from 30.1 m to 85.9 m, the real train runs from -2 m to 38 m: its rear is outside."""
+    from verifier.evidence.story import whole_train_words
+    F = Fraction
+    assert whole_train_words(F(-2), F(38), F(859, 10), F(301, 10)) == (
+        "The trackside places the whole train between 30.1 m and 85.9 m (min safe rear to max safe "
+        "front); the real rear, at -2 m, is outside it.")
+    assert whole_train_words(F(10), F(20), F(0), F(30)) == ""

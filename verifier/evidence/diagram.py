@@ -25,7 +25,7 @@ from pathlib import Path
 from verifier.check.model import Rule
 from verifier.evidence import cexfile
 from verifier.evidence.story import (_front_at_detection, comparison_words, failed_detail,
-                                     interval_words, m, value_words)
+                                     interval_words, m, value_words, whole_train_words)
 from verifier.lang.ast import LENGTH
 from verifier.world.scenario import fmt
 from verifier.world.sim import State
@@ -293,6 +293,9 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     lines = []
     if placed:
         lines.append(interval_words(real, g("rbc.min_safe_front"), g("rbc.max_safe_front")))
+        whole = whole_train_words(g("actual.rear"), real, g("rbc.min_safe_rear"), g("rbc.max_safe_front"))
+        if whole:
+            lines.append(whole)
     if fd and "op" in fd:
         lines.append(f"Failed: {comparison_words(fd)}.")
     elif fd:

@@ -478,6 +478,19 @@ def interval_words(real, lo, hi) -> str:
     return f"The real front, at {m(real)}, is {where} [{m(a)}, {m(b)}]{order}."
 
 
+def whole_train_words(real_rear, real_front, safe_rear, max_front) -> str:
+    """A sentence when the real train is not wholly where the trackside places it (min safe
+    rear end to max safe front end), else ""."""
+    a, b = min(safe_rear, max_front), max(safe_rear, max_front)
+    out = [(name, v) for name, v in (("rear", real_rear), ("front", real_front)) if not a <= v <= b]
+    if not out:
+        return ""
+    ends = " and ".join(f"the real {name}, at {m(v)}," for name, v in out)
+    verb = "are" if len(out) > 1 else "is"
+    return (f"The trackside places the whole train between {m(a)} and {m(b)} (min safe rear to "
+            f"max safe front); {ends} {verb} outside it.")
+
+
 def _front_at_detection(st: State) -> tuple:
     """Real and estimated front at the detection instant (DESIGN 4.2, 4.3)."""
     return st.get("passage.actual_front"), st.get("passage.est_front")
