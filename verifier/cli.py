@@ -278,10 +278,10 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--rule", action="append", metavar="ID", help="check only this rule (repeatable)")
     c.add_argument("--timeout", type=float, metavar="SECONDS", help="wall-clock guard per rule (default 120)")
     c.add_argument("--rlimit", type=int, metavar="N", help="deterministic solver budget per check (default 500000000)")
-    c.add_argument("--out", default="counterexamples", metavar="DIR", help="where counterexample files go (default: counterexamples/)")
+    c.add_argument("--out", default="counterexamples", metavar="DIR", help="where counterexample files go (default: counterexamples/ in the current folder)")
     c.add_argument("--no-files", action="store_true", help="write no counterexample files")
     c.add_argument("--jobs", type=int, default=1, metavar="N", help="solve rules in N worker processes (same results and files as 1, the default)")
-    c.add_argument("--no-cache", action="store_true", help="solve every rule again; neither read nor write .verifier-cache/")
+    c.add_argument("--no-cache", action="store_true", help="solve every rule again; neither read nor write the cache (.verifier-cache/ in the current folder)")
     c.add_argument("--format", choices=("table", "json", "junit", "sarif"), default="table",
                    help="output on stdout: table (default), json (as --json), junit (XML, one test "
                         "case per rule) or sarif (SARIF 2.1.0)")
