@@ -40,7 +40,7 @@ import attrs
 
 from verifier import __version__
 from verifier.check.model import Pack, Rule
-from verifier.errors import UsageError
+from verifier.errors import UsageError, suggest
 from verifier.evidence import cexfile
 from verifier.world.scenario import fmt, world_from_data, world_from_flat, world_to_data
 from verifier.world.sim import State, applies, evaluate, scope_problems
@@ -404,10 +404,7 @@ def diff_packs(old_packs: list[Pack], new_packs: list[Pack], opts: DiffOptions =
         known = {r.id for p in old_packs + new_packs for r in p.rules}
         missing = [r for r in opts.rules if r not in known]
         if missing:
-            import difflib
-            near = difflib.get_close_matches(missing[0], sorted(known), n=1)
-            raise UsageError(f"no rule with id '{missing[0]}' on either side"
-                             + (f"; did you mean '{near[0]}'?" if near else ""))
+            raise UsageError(f"no rule with id '{missing[0]}' on either side" + suggest(missing[0], known))
     if opts.progress and items:
         opts.progress(f"diff: deciding {len(items)} verdict{'s' if len(items) != 1 else ''}")
     verdicts = dict(zip([(p.name, r.id, s) for p, r, s in items], _verdicts(items, opts)))

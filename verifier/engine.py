@@ -14,7 +14,7 @@ from typing import Callable
 import attrs
 
 from verifier.check.model import Pack, Rule
-from verifier.errors import UsageError
+from verifier.errors import UsageError, suggest
 from verifier.evidence import cexfile, diagram
 from verifier.world.scenario import fmt, world_from_flat, world_to_data
 from verifier.world.sim import State, applies, evaluate, scope_problems
@@ -181,10 +181,8 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
         known = {r.id for p in packs for r in p.rules}
         missing = [r for r in opts.rules if r not in known]
         if missing:
-            import difflib
-            near = difflib.get_close_matches(missing[0], sorted(known), n=1)
-            hint = f"; did you mean '{near[0]}'?" if near else ""
-            raise UsageError(f"no rule with id '{missing[0]}' in the packs given{hint}")
+            raise UsageError(f"no rule with id '{missing[0]}' in the packs given"
+                             + suggest(missing[0], known))
     todo = [(p, r) for p in packs for r in select_rules(p, opts.rules)]
     results: dict = {id(p): [] for p in packs}   # by identity: two packs may share a name
     from verifier.parallel import solve_in_order

@@ -59,3 +59,10 @@ class InternalError(VerifierError):
 def file_error(path: str, message: str, line: int = 1, column: int = 1) -> PackError:
     """A PackError with a single diagnostic, for problems that concern a whole file."""
     return PackError([Diagnostic(str(path), line, column, message)])
+
+
+def suggest(word: str, choices) -> str:
+    """"; did you mean 'X'?" for the closest of ``choices`` to a misspelt ``word``, or ""."""
+    import difflib
+    close = difflib.get_close_matches(word, sorted(choices), n=1, cutoff=0.6)
+    return f"; did you mean '{close[0]}'?" if close else ""

@@ -17,13 +17,12 @@ from __future__ import annotations
 
 import re
 
-import difflib
 from fractions import Fraction
 
 import attrs
 
 from verifier.check.model import Formula, Pack, Rule
-from verifier.errors import Diagnostic, PackError
+from verifier.errors import Diagnostic, PackError, suggest
 from verifier.lang import ast
 from verifier.lang.ast import BOOL, COUNT, DIRECTION, LENGTH, NUMBER, NUMERIC, ZERO
 from verifier.lang.pack import RawExpr, RawPack
@@ -34,11 +33,6 @@ FUNCTIONS = ("abs", "min", "max", "flip", "side", "along", "floor_to", "ceil_to"
 
 class _Fail(Exception):
     """One type error; the message is already recorded."""
-
-
-def _suggest(word: str, choices) -> str:
-    close = difflib.get_close_matches(word, sorted(choices), n=1, cutoff=0.6)
-    return f"; did you mean '{close[0]}'?" if close else ""
 
 
 def _show(ty: str) -> str:
@@ -145,7 +139,7 @@ def _resolve_name(env: _Env, node: ast.Name) -> ast.Node:
                             + ", ".join(vocab.LEG) + ")")
         field = parts[1]
         if field not in vocab.LEG:
-            raise env.error(node, f"legs have no field '{field}'" + _suggest(field, vocab.LEG))
+            raise env.error(node, f"legs have no field '{field}'" + suggest(field, vocab.LEG))
         env.reads.setdefault(f"leg.{field}", (node.start, node.end - node.start))
         return _typed(node, vocab.LEG[field].ty, ref=("leg", first, field))
     if first == "legs" and len(parts) >= 2 and isinstance(parts[1], int):
@@ -156,7 +150,7 @@ def _resolve_name(env: _Env, node: ast.Name) -> ast.Node:
             raise env.error(node, f"write 'legs[{i}].FIELD' (fields: " + ", ".join(vocab.LEG) + ")")
         field = parts[2]
         if field not in vocab.LEG:
-            raise env.error(node, f"legs have no field '{field}'" + _suggest(field, vocab.LEG))
+            raise env.error(node, f"legs have no field '{field}'" + suggest(field, vocab.LEG))
         env.max_leg = max(env.max_leg, i)
         env.reads.setdefault(f"leg.{field}", (node.start, node.end - node.start))
         return _typed(node, vocab.LEG[field].ty, ref=("legat", i, field))
@@ -175,7 +169,7 @@ def _resolve_name(env: _Env, node: ast.Name) -> ast.Node:
             ty, value = env.params[pname]
             return _typed(node, ty, ref=("num", value))
         raise env.error(node, f"unknown parameter '{dotted}'"
-                        + _suggest(pname, env.params))
+                        + suggest(pname, env.params))
     if dotted in env.world:
         ty, value = env.world[dotted]
         return _typed(node, ty, ref=("num", value))
@@ -193,7 +187,7 @@ def _resolve_name(env: _Env, node: ast.Name) -> ast.Node:
     if first in ("leg", "l") and not env.qvars:
         raise env.error(node, f"unknown name '{dotted}': a leg field is read inside a quantifier "
                         "such as all(leg in legs: ...), or as legs[1].FIELD")
-    raise env.error(node, f"unknown name '{dotted}'" + _suggest(dotted, choices))
+    raise env.error(node, f"unknown name '{dotted}'" + suggest(dotted, choices))
 
 
 def _check(env: _Env, node: ast.Node) -> ast.Node:
@@ -324,7 +318,7 @@ def _check_call(env: _Env, node: ast.Call) -> ast.Node:
     if f not in FUNCTIONS:
         if f in ("all", "any", "count", "sum"):
             raise env.error(node, f"write {f}(leg in legs: ...)")
-        raise env.error(node, f"unknown function '{f}'" + _suggest(f, FUNCTIONS))
+        raise env.error(node, f"unknown function '{f}'" + suggest(f, FUNCTIONS))
     args = [_check(env, a) for a in node.args]
     arity = {"abs": 1, "flip": 1, "side": 1, "along": 2, "floor_to": 2, "ceil_to": 2, "round_to": 2}
     if f in arity and len(args) != arity[f]:

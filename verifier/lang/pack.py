@@ -7,7 +7,6 @@ are collected and raised together as one :class:`~verifier.errors.PackError`.
 
 from __future__ import annotations
 
-import difflib
 import hashlib
 import re
 import tomllib
@@ -16,7 +15,7 @@ from pathlib import Path
 
 import attrs
 
-from verifier.errors import Diagnostic, PackError
+from verifier.errors import Diagnostic, PackError, suggest
 from verifier.lang import ast
 from verifier.lang.parser import ExprSyntaxError, parse, parse_quantity
 from verifier.lang.source import SourceFile
@@ -91,11 +90,6 @@ class _Collector:
     def at(self, key: tuple, message: str, offset: int | None = None, length: int = 1,
            severity: str = "error") -> None:
         self.diags.append(self.src.at_key(key, message, severity, offset, length))
-
-
-def _suggest(word: str, choices) -> str:
-    close = difflib.get_close_matches(word, sorted(choices), n=1, cutoff=0.6)
-    return f"; did you mean '{close[0]}'?" if close else ""
 
 
 def _toml_error(path: str, text: str, exc: tomllib.TOMLDecodeError) -> Diagnostic:
@@ -234,7 +228,7 @@ def _expr(c: _Collector, key: tuple, value, *, what: str) -> RawExpr | None:
 def _unknown_keys(c: _Collector, prefix: tuple, table: dict, allowed: set, where: str) -> None:
     for k in table:
         if k not in allowed:
-            c.at(prefix + (k,), f"unknown key '{k}' in {where}" + _suggest(k, allowed))
+            c.at(prefix + (k,), f"unknown key '{k}' in {where}" + suggest(k, allowed))
 
 
 def _design(c: _Collector, table: str, given: dict, outputs, defaults: dict) -> dict:
@@ -280,7 +274,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
 
     for k, v in data.items():
         if k not in TABLES:
-            c.at((k,), f"unknown table '{k}'" + _suggest(k, TABLES))
+            c.at((k,), f"unknown table '{k}'" + suggest(k, TABLES))
         elif k == "rule":
             if not isinstance(v, list):
                 c.at((k,), "rules are written as [[rule]] tables")
@@ -350,7 +344,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     rounding = ob_t.get("rounding", "widen")
     if rounding not in vocab.ROUNDINGS:
         c.at(("onboard", "rounding"), f"rounding must be one of {', '.join(vocab.ROUNDINGS)}, got {rounding!r}"
-             + (_suggest(rounding, vocab.ROUNDINGS) if isinstance(rounding, str) else ""))
+             + (suggest(rounding, vocab.ROUNDINGS) if isinstance(rounding, str) else ""))
         rounding = "widen"
 
     ts_t = tables.get("trackside", {})
