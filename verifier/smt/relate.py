@@ -65,16 +65,12 @@ def relate(old_pack: Pack, old_rule: Rule, new_pack: Pack, new_rule: Rule, bound
         budget = solve._Budget(timeout)
         ses = solve._Session(both, rlimit, budget)
         ses.add(facts[(kind, direction)])
-        r = ses.check()
-        why = ses.s.reason_unknown() if r == z3.unknown else ""
-        if r == z3.unknown and both.K > 0 and not budget.spent():
-            r, k_or_why = solve._check_by_legs(ses)     # the same question per number of legs
-            why = k_or_why if r == z3.unknown else ""
+        r, why = solve._check_whole_or_by_legs(ses)
         if r == z3.unsat:
             out.append(Distinction(kind, direction, "none"))
             continue
         if r == z3.unknown:
-            out.append(Distinction(kind, direction, "unknown", reason=why or "budget exhausted"))
+            out.append(Distinction(kind, direction, "unknown", reason=why))
             continue
         decided = solve._ladder(ses, both)
         if ses.check() != z3.sat:   # pragma: no cover - the ladder only adds satisfiable facts

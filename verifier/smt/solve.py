@@ -213,24 +213,30 @@ def _ladder(ses: _Session, enc: Encoding) -> bool:
     return decided
 
 
-def _check_by_legs(ses: _Session):
-    """The session's question when one check of the whole is left undecided: asked again for
+def _check_whole_or_by_legs(ses: _Session) -> tuple:
+    """The session's question as one check; if that is left undecided (budget), asked again for
     each number of legs, fewest first, as separate one-shot checks (the cases cover every world
-    in scope, since 0 <= legs.count <= K is a world constraint). Returns ``(sat, k)`` with the
-    fewest legs of a violating world and ``legs.count == k`` added to the session, ``(unsat,
-    None)`` when every case is unsat, or ``(unknown, reason)``.
+    in scope, since 0 <= legs.count <= K is a world constraint). Returns ``(result, reason)``:
+    on ``sat`` after a split, ``legs.count == k`` (the fewest legs of a satisfying world) is
+    added to the session and its last solver holds that case's model; ``reason`` says why for
+    ``unknown``, else "".
 
     Measured on the confidence-interval envelope rules at K = 4: the whole question ran out of
     the default rlimit (500M, 15 s) while the five cases took 0.0 to 10.6 s each (14 s in all)."""
+    r = ses.check()
+    if r != z3.unknown:
+        return r, ""
+    if ses.enc.K == 0 or ses.budget.spent():
+        return r, ses.s.reason_unknown() or "budget exhausted"
     count = ses.enc.terms["legs.count"]
     for k in range(ses.enc.K + 1):
         r = ses.check(count == k)
         if r == z3.sat:
             ses.add(count == k)      # the least count: every smaller case is unsat
-            return r, k
+            return r, ""
         if r == z3.unknown:
             return r, f"{ses.s.reason_unknown() or 'budget exhausted'} (case legs.count == {k})"
-    return z3.unsat, None
+    return z3.unsat, ""
 
 
 def _read_world(model, enc: Encoding) -> dict:
@@ -326,11 +332,7 @@ def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: _Budget 
         return Solved(verdict, world, values, minimal, reason, max(rl, last.rlimit_used()),
                       checks + last.checks, SOLVER, secs + last.seconds)
 
-    r = ses.check()
-    if r == z3.unknown and ses.enc.K > 0 and not ses.budget.spent():
-        r, why = _check_by_legs(ses)
-        if r == z3.unknown:
-            return finish("unknown", reason=why)
+    r, why = _check_whole_or_by_legs(ses)
     if r == z3.sat:
         # keep the first violating world: if the budget runs out while minimising, it is still
         # a counterexample (reported as not minimal, and replayed like any other)
@@ -345,17 +347,13 @@ def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: _Budget 
                       values=read_values(model, enc, COMPARED), minimal=decided,
                       reason="" if decided else "minimisation stopped by the budget")
     if r == z3.unknown:
-        return finish("unknown", reason=ses.s.reason_unknown() or "budget exhausted")
+        return finish("unknown", reason=why)
     checks, rl, secs = ses.checks, ses.rlimit_used(), ses.seconds
     wit = _Session(enc, rlimit, budget)
     wit.add(given)
-    r = wit.check()
-    if r == z3.unknown and enc.K > 0 and not budget.spent():
-        r, why = _check_by_legs(wit)
-        if r == z3.unknown:
-            return finish("unknown", reason=f"given: {why}", last=wit)
+    r, why = _check_whole_or_by_legs(wit)
     if r == z3.unknown:
-        return finish("unknown", reason=f"given: {wit.s.reason_unknown()}", last=wit)
+        return finish("unknown", reason=f"given: {why}", last=wit)
     if r == z3.unsat:
         return finish("vacuous", reason="no world in scope satisfies the given", last=wit)
     if not witness:
