@@ -38,6 +38,9 @@ def test_crosscheck_agrees_and_says_which_checks_ran(capsys):
     c = xc["counts"]
     assert c["obligations"] == 9 and c["second_agree"] == 9 and c["disagreements"] == 0
     assert c["boundary_worlds"] >= 8
+    hows = [h for r in xc["rules"] for h in r["second_how"].values()]
+    assert len(hows) == 9 and all(h["cases"] >= 1 and h["text"] for h in hows)
+    assert c["second_split"] == sum(1 for h in hows if h["cases"] > 1)
 
 
 def test_table_output_names_the_checks(capsys):

@@ -34,7 +34,7 @@ class RuleCross:
     verdict: str                  # the engine's verdict
     second: dict                  # obligation -> cvc5 answer (sat/unsat/unknown)
     second_expected: dict         # obligation -> the answer the verdict implies
-    second_how: dict              # obligation -> how cvc5 answered, in words
+    second_how: dict              # obligation -> {"text": in words, "cases": queries, "options": cvc5 options}
     samples: int                  # boundary worlds replayed
     problems: tuple               # disagreements, as text
 
@@ -54,7 +54,7 @@ class CrossReport:
             "second_agree": sum(1 for a, e in answers if a == e),
             "second_undecided": sum(1 for a, _ in answers if a == "unknown"),
             "second_disagree": sum(1 for a, e in answers if a != "unknown" and a != e),
-            "second_split": sum(1 for r in self.rules for h in r.second_how.values() if " cases " in h),
+            "second_split": sum(1 for r in self.rules for h in r.second_how.values() if h["cases"] > 1),
             "boundary_worlds": sum(r.samples for r in self.rules),
             "disagreements": sum(len(r.problems) for r in self.rules),
         }
@@ -87,7 +87,9 @@ def _second(pack, rule, bound, verdict, timeout) -> tuple[dict, dict, dict, list
             continue           # implied by the violation answer
         ans = second.solve_split(texts[kind], export.case_split(bound),
                                  case_timeout=min(timeout, 20.0), budget=10 * timeout)
-        got[kind], how[kind] = ans.status, ans.how() + (f" ({ans.reason})" if ans.reason else "")
+        got[kind] = ans.status
+        how[kind] = {"text": ans.how() + (f" ({ans.reason})" if ans.reason else ""),
+                     "cases": ans.cases, "options": ans.options}
         if ans.status != "unknown" and ans.status != want[kind]:
             problems.append(f"same obligation, second solver: z3 verdict {verdict} means the "
                             f"{kind} obligation is {want[kind]}, {second.version()} says {ans.status}")

@@ -147,8 +147,8 @@ def render(d: dict) -> str:
         if r["problems"] or "unknown" in r["second"].values():
             lines.append(f"  - {r['pack']}/{r['id']} ({r['verdict']}): second solver "
                          f"{r['second']}" + ("; " + "; ".join(r["problems"]) if r["problems"] else ""))
-    slow = [(r, k, h) for r in xc["rules"] for k, h in sorted(r.get("second_how", {}).items())
-            if " cases " in h or " with " in h]
+    slow = [(r, k, h["text"]) for r in xc["rules"] for k, h in sorted(r.get("second_how", {}).items())
+            if h["cases"] > 1 or h["options"]]
     if slow:
         lines += ["", "Obligations cvc5 decided only with ite-simp or by cases (the others: with its "
                   "defaults, whole):", ""]
