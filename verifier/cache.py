@@ -187,6 +187,11 @@ class Cache:
         self.hits += 1
         return solved
 
+    def count_as_miss(self) -> None:
+        """A hit the caller could not use after all (its world no longer evaluates)."""
+        self.hits -= 1
+        self.misses += 1
+
     def put(self, key: str, solved, witness: bool = True) -> bool:
         """Store a decided result; undecided ones are refused. Returns whether it was stored."""
         if not cacheable(solved, witness):

@@ -329,9 +329,10 @@ def _relations(old_pack, old_rule, new_pack, new_rule, bound, opts, seeds=()) ->
     found = relate.relate(old_pack, old_rule, new_pack, new_rule, bound, **kw)
     worlds = []
     for d in found:
+        seeded = None
         if d.status == "unknown":
-            w = _seeded(d.kind, d.direction, seeds, old_pack, old_rule, new_pack, new_rule, bound)
-            if w is not None:
+            seeded = _seeded(d.kind, d.direction, seeds, old_pack, old_rule, new_pack, new_rule, bound)
+            if seeded is not None:
                 d = attrs.evolve(d, status="found", world=None, minimal=False,
                                  reason=f"the solver did not decide this question ({d.reason}); "
                                         "this world is one version's own counterexample or witness, "
@@ -339,7 +340,7 @@ def _relations(old_pack, old_rule, new_pack, new_rule, bound, opts, seeds=()) ->
         if d.status != "found":
             worlds.append(World(d.kind, d.direction, d.status, reason=d.reason))
             continue
-        w = world_from_flat(d.world) if d.world is not None else w
+        w = seeded if seeded is not None else world_from_flat(d.world)
         doc = distinction_doc(old_pack, old_rule, new_pack, new_rule, d.kind, d.direction, w,
                               bound, d.minimal)
         ok = confirms(d.kind, d.direction, doc["outcome"]["old"], doc["outcome"]["new"])

@@ -79,7 +79,7 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
         if hit is not None and hit.world is not None:
             hit = _today(hit, pack, bound, evaluators)
             if hit is None:
-                cache.hits, cache.misses = cache.hits - 1, cache.misses + 1
+                cache.count_as_miss()
         plan.append((pack, rule, bound, key, hit))
 
     def done(key, solved, seconds) -> Presolved:
