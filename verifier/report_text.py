@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from verifier.check.model import Pack
-from verifier.evidence.story import failed_detail
+from verifier.evidence.cexfile import failed_detail
 from verifier.world.scenario import fmt
 from verifier.world.sim import State, World, applies, evaluate, scope_problems
 

@@ -24,8 +24,8 @@ from pathlib import Path
 
 from verifier.check.model import Rule
 from verifier.evidence import cexfile
-from verifier.evidence.story import (_front_at_detection, comparison_words, failed_detail,
-                                     interval_words, m, value_words, whole_train_words)
+from verifier.evidence.story import (_front_at_detection, comparison_words, interval_words, m,
+                                     value_words, whole_train_words)
 from verifier.lang.ast import LENGTH
 from verifier.world.scenario import fmt
 from verifier.world.sim import State
@@ -289,7 +289,7 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     y = y_rep + 30 + 13 * deepest + 14
 
     # ---- the verdict in words
-    fd = failed_detail(rule, st)
+    fd = cexfile.failed_detail(rule, st)
     lines = []
     if placed:
         lines.append(interval_words(real, g("rbc.min_safe_front"), g("rbc.max_safe_front")))

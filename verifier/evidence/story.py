@@ -319,9 +319,6 @@ def signed(x) -> str:
     return ("+" if x > 0 else "") + m(x)
 
 
-failed_detail = cexfile.failed_detail   # the one implementation, shared with the files
-
-
 def value_words(value, ty) -> str:
     if isinstance(value, bool):
         return "true" if value else "false"
@@ -333,7 +330,7 @@ def value_words(value, ty) -> str:
 
 
 def comparison_words(detail: dict) -> str:
-    """A failed comparison (``failed_detail`` with an operator) in words: the comparison as
+    """A failed comparison (``cexfile.failed_detail`` with an operator) in words: the comparison as
     written, then the value of each side that is not a literal, with its unit. For example
     "report.q_dirlrbg == nominal is false: report.q_dirlrbg is reverse"."""
     (lt, lv, lty), (rt, rv, rty) = detail["left"], detail["right"]
@@ -445,7 +442,7 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
             "unknown): rbc.placed is false.")
     add("")
     add("What failed")
-    f = failed_detail(rule, st)
+    f = cexfile.failed_detail(rule, st)
     if f and "op" in f:
         (lt, lv, lty), (rt, rv, rty) = f["left"], f["right"]
         add(f"  The first false part of expect is `{f['text']}`.")
