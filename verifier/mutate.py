@@ -70,6 +70,22 @@ class MutantResult:
     seconds: float = 0.0
 
 
+STATUSES = ("killed", "survived", "undecided", "equivalent", "invalid")
+
+
+def _counts(results) -> dict:
+    out = dict.fromkeys(STATUSES, 0)
+    for r in results:
+        out[r.status] += 1
+    return out
+
+
+def _kill_ratio(c: dict) -> float | None:
+    """Killed over the mutants that load and are not proved equivalent."""
+    denom = c["killed"] + c["survived"] + c["undecided"]
+    return c["killed"] / denom if denom else None
+
+
 @attrs.frozen
 class MutationReport:
     pack: str
@@ -78,15 +94,10 @@ class MutationReport:
     seconds: float
 
     def counts(self) -> dict:
-        out = dict.fromkeys(("killed", "survived", "undecided", "equivalent", "invalid"), 0)
-        for r in self.results:
-            out[r.status] += 1
-        return out
+        return _counts(self.results)
 
     def ratio(self) -> float | None:
-        c = self.counts()
-        denom = c["killed"] + c["survived"] + c["undecided"]
-        return c["killed"] / denom if denom else None
+        return _kill_ratio(self.counts())
 
     def as_json(self) -> dict:
         return {"pack": self.pack, "path": self.path, "counts": self.counts(), "ratio": self.ratio(),
@@ -328,15 +339,10 @@ class CatalogueReport:
         return out
 
     def counts(self) -> dict:
-        c = dict.fromkeys(("killed", "survived", "undecided", "equivalent", "invalid"), 0)
-        for r in self.combined().values():
-            c[r.status] += 1
-        return c
+        return _counts(self.combined().values())
 
     def ratio(self) -> float | None:
-        c = self.counts()
-        denom = c["killed"] + c["survived"] + c["undecided"]
-        return c["killed"] / denom if denom else None
+        return _kill_ratio(self.counts())
 
     def survivors(self) -> list:
         return [r for r in self.combined().values() if r.status in ("survived", "undecided")]
