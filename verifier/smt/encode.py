@@ -23,26 +23,35 @@ from verifier.lang.ast import COUNT, ZERO
 from verifier.world.vocab import MAX_CODE, Q_SCALES, UNKNOWN_CODE, Direction, Running
 
 _DIR_CODE = {Direction.NOMINAL: 1, Direction.REVERSE: -1, Direction.UNKNOWN: 0}
+OVERRIDE = "$override"   # env key: sub-terms replaced by given terms (accumulator parameters)
 
 
-class Encoding:
-    """The world of one pack, up to ``bound`` legs, in one z3 context."""
+class _Terms:
+    """Vocabulary names and typed expressions as z3 terms, over one state of the world.
 
-    def __init__(self, pack: Pack, bound: int, ctx: z3.Context, prefix: str = ""):
+    The bounded :class:`Encoding` is one of these (its state is the end of its legs); a proof
+    for any number of legs (:mod:`verifier.smt.induction`) makes one per state of its path,
+    all in one context, each with its own prefix for the constants it defines."""
+
+    pack: Pack
+    ctx: z3.Context
+    prefix: str
+    constraints: list
+    terms: dict
+    legs: list
+
+    def _setup(self, pack: Pack, ctx: z3.Context, prefix: str, constraints: list) -> None:
         self.pack = pack
+        self.ctx = ctx
         # prefixed to every derived constant (never to inputs), so that two encodings of two
         # versions of a pack can share one context and one set of inputs (verifier diff)
         self.prefix = prefix
-        self.K = bound
-        self.ctx = ctx
-        self.constraints: list = []
-        self.terms: dict = {}          # vocabulary name -> term
-        self.legs: list[dict] = []     # per leg: field -> term
-        self.inputs: dict = {}         # input name -> z3 constant (for models and the ladder)
+        self.constraints = constraints
+        self.terms = {}          # vocabulary name -> term
+        self.legs = []           # per leg: field -> term
         self._memo: dict = {}
         self._fresh = 0
         self._wire_done = False
-        self._world()
 
     # ---- helpers ------------------------------------------------------------------------
     def real(self, name):
@@ -82,9 +91,11 @@ class Encoding:
     def pos(x):
         return z3.If(x > 0, x, 0)
 
-    # ---- the world (DESIGN 4.1 to 4.3) ----------------------------------------------------
-    def _world(self) -> None:
-        sc, C, K = self.pack.scope, self.constraints, self.K
+    # ---- the world (DESIGN 4.1 to 4.3), written once: inputs, first state, one leg --------
+    def _static(self) -> dict:
+        """The inputs that do not change with the legs, their scope, and what follows from
+        them alone (DESIGN 4.1, 4.2 at the detection instant, 4.3)."""
+        sc, C = self.pack.scope, self.constraints
         num = self.num
         balises, read = self.int("lrbg.balises"), self.int("lrbg.read")
         linked = self.boolean("lrbg.linked")
@@ -93,12 +104,11 @@ class Encoding:
         direction = self.int("passage.direction")
         pfwd = self.boolean("passage.forward")
         det = self.real("passage.detect_error")
-        count = self.int("legs.count")
         self.inputs.update({"lrbg.balises": balises, "lrbg.read": read, "lrbg.linked": linked,
                             "lrbg.locacc": locacc, "lrbg.offset": offset,
                             "train.length": length, "train.antenna": antenna,
                             "passage.direction": direction, "passage.running": pfwd,
-                            "passage.detect_error": det, "legs.count": count})
+                            "passage.detect_error": det})
         locacc_r = z3.ToReal(locacc)
         C += [balises >= sc.balises[0], balises <= sc.balises[1], read >= 1, read <= balises,
               locacc >= int(sc.locacc[0]), locacc <= int(sc.locacc[1]),
@@ -106,75 +116,110 @@ class Encoding:
               length >= num(sc.train_length[0]), length <= num(sc.train_length[1]),
               antenna >= num(sc.antenna[0]), antenna <= num(sc.antenna[1]), antenna <= length,
               z3.Or(direction == 1, direction == -1),
-              det >= -num(sc.detection), det <= num(sc.detection),
-              count >= 0, count <= K]
+              det >= -num(sc.detection), det <= num(sc.detection)]
+        return {"lrbg.balises": balises, "lrbg.read": read, "lrbg.linked": linked,
+                "lrbg.locacc": locacc_r, "lrbg.offset": offset, "train.length": length,
+                "train.antenna": antenna, "passage.direction": direction,
+                "passage.running": pfwd, "passage.detect_error": det}
 
+    def _passage_bound(self, S: dict) -> None:
+        """The reading error bound at the passage itself (j = 0, E = 0; DESIGN 4.1)."""
+        sc, det = self.pack.scope, S["passage.detect_error"]
+        self.constraints.extend([self.pos(-det) <= self.num(sc.odometry_over.fixed),
+                                 self.pos(det) <= self.num(sc.odometry_under.fixed)])
+
+    def _first(self, S: dict) -> dict:
+        """The state at the detection instant, before any leg; adds to ``S`` what follows from
+        the inputs alone (the passage as the onboard sees it)."""
+        direction, pfwd = S["passage.direction"], S["passage.running"]
+        det = S["passage.detect_error"]
         o = self.define("actual.orientation@0", z3.If(pfwd, direction, -direction), "int")
-        front = self.define("actual.front@0", offset + self.along(direction, det) + self.along(o, antenna))
+        front = self.define("actual.front@0", S["lrbg.offset"] + self.along(direction, det)
+                            + self.along(o, S["train.antenna"]))
         op = self.define("est.orientation_passage@0", z3.If(pfwd, 1, -1), "int")
-        est_p = self.define("est.front_passage@0", self.along(op, antenna))
-        known = self.define("passage.known", z3.Or(read >= 2, linked), "bool")
-        frame = z3.If(known, direction, 1)
-        self.terms["passage.actual_front"] = front
-        self.terms["passage.est_front"] = self.along(frame, est_p)
-        motion = direction
-        over = self.pos(-det)
-        under = self.pos(det)
-        measured = num(0)
-        basis = num(0)
-        cabs = []
-        T = self.terms
-        for i in range(1, K + 1):
-            cab, fwd = self.boolean(f"legs.{i}.cab_change"), self.boolean(f"legs.{i}.forward")
-            dist, odo = self.real(f"legs.{i}.distance"), self.real(f"legs.{i}.odometer")
-            self.inputs.update({f"legs.{i}.cab_change": cab, f"legs.{i}.running": fwd,
-                                f"legs.{i}.distance": dist, f"legs.{i}.odometer": odo})
-            active = count >= i
-            # an inactive leg is fixed, so that models (and minimal worlds) are canonical
-            C += [z3.Implies(z3.Not(active), z3.And(z3.Not(cab), fwd, dist == 0, odo == 0)),
-                  z3.Implies(active, z3.And(dist >= num(sc.leg_distance[0]),
-                                            dist <= num(sc.leg_distance[1]))),
-                  dist >= 0, odo >= 0]
-            front_c = z3.If(cab, front - self.along(o, length), front)
-            est_c = z3.If(cab, est_p - self.along(op, length), est_p)
-            o = self.define(f"actual.orientation@{i}", z3.If(cab, -o, o), "int")
-            op = self.define(f"est.orientation_passage@{i}", z3.If(cab, -op, op), "int")
-            m = self.define(f"actual.motion@{i}", z3.If(fwd, o, -o), "int")
-            mp = z3.If(fwd, op, -op)
-            front = self.define(f"actual.front@{i}", front_c + self.along(m, dist))
-            est_p = self.define(f"est.front_passage@{i}", est_c + self.along(mp, odo))
-            motion = self.define(f"actual.motion_last@{i}", z3.If(active, m, motion), "int")
-            over = over + self.pos(odo - dist)
-            under = under + self.pos(dist - odo)
-            measured = measured + odo
-            basis = basis + (odo if sc.odometry_basis == "measured" else dist)
-            C += [over <= num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * basis,
-                  under <= num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * basis]
-            cabs.append(z3.If(cab, 1, 0))
-            self.legs.append({
-                "index": self.ival(i), "cab_change": cab, "running": fwd, "distance": dist,
-                "odometer": odo,
-                "orientation": z3.If(known, o, 0), "motion": z3.If(known, m, 0),
-                "actual_orientation": o, "actual_motion": m, "actual_front": front,
-                "est_front": self.along(frame, est_p), "active": active,
-            })
-        # the bound at the passage itself (j = 0): E = 0
-        C += [self.pos(-det) <= num(sc.odometry_over.fixed),
-              self.pos(det) <= num(sc.odometry_under.fixed)]
-        measured = self.define("est.travelled", measured)
-        T.update({
-            "lrbg.balises": balises, "lrbg.read": read, "lrbg.linked": linked,
-            "lrbg.locacc": locacc_r, "lrbg.offset": offset, "train.length": length,
-            "train.antenna": antenna, "passage.direction": direction, "passage.running": pfwd,
-            "passage.detect_error": det, "passage.seen": z3.If(known, direction, 0),
+        est_p = self.define("est.front_passage@0", self.along(op, S["train.antenna"]))
+        known = self.define("passage.known", z3.Or(S["lrbg.read"] >= 2, S["lrbg.linked"]), "bool")
+        S.update({"passage.seen": z3.If(known, direction, 0), "known": known,
+                  "frame": z3.If(known, direction, 1)})
+        S["passage.actual_front"] = front
+        S["passage.est_front"] = self.along(S["frame"], est_p)
+        return {"count": self.ival(0), "o": o, "op": op, "motion": direction, "front": front,
+                "est_p": est_p, "over": self.pos(-det), "under": self.pos(det),
+                "measured": self.num(0), "basis": self.num(0), "cabs": [], "travelled": [],
+                "accs": {}, "frozen": {}}
+
+    def _step(self, S: dict, st: dict, leg: tuple, *, active, index, tag: str,
+              plan=None, view=None) -> tuple:
+        """One leg (DESIGN 4.2, 4.3): the state after it and the leg's fields. ``active`` says
+        whether the leg happens (the bounded encoding fixes inactive legs to do nothing);
+        ``index`` is the leg's number. With a ``plan`` the accumulators and frozen legs of
+        DESIGN 4.7 are updated too, their bodies read through ``view``."""
+        sc, C, num = self.pack.scope, self.constraints, self.num
+        cab, fwd, dist, odo = leg
+        length = S["train.length"]
+        C += [z3.Implies(active, z3.And(dist >= num(sc.leg_distance[0]),
+                                        dist <= num(sc.leg_distance[1]))),
+              dist >= 0, odo >= 0]
+        o, op = st["o"], st["op"]
+        front_c = z3.If(cab, st["front"] - self.along(o, length), st["front"])
+        est_c = z3.If(cab, st["est_p"] - self.along(op, length), st["est_p"])
+        o = self.define(f"actual.orientation@{tag}", z3.If(cab, -o, o), "int")
+        op = self.define(f"est.orientation_passage@{tag}", z3.If(cab, -op, op), "int")
+        m = self.define(f"actual.motion@{tag}", z3.If(fwd, o, -o), "int")
+        mp = z3.If(fwd, op, -op)
+        front = self.define(f"actual.front@{tag}", front_c + self.along(m, dist))
+        est_p = self.define(f"est.front_passage@{tag}", est_c + self.along(mp, odo))
+        motion = self.define(f"actual.motion_last@{tag}", z3.If(active, m, st["motion"]), "int")
+        over = st["over"] + self.pos(odo - dist)
+        under = st["under"] + self.pos(dist - odo)
+        basis = st["basis"] + (odo if sc.odometry_basis == "measured" else dist)
+        C += [over <= num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * basis,
+              under <= num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * basis]
+        known = S["known"]
+        fields = {
+            "index": index, "cab_change": cab, "running": fwd, "distance": dist,
+            "odometer": odo,
+            "orientation": z3.If(known, o, 0), "motion": z3.If(known, m, 0),
+            "actual_orientation": o, "actual_motion": m, "actual_front": front,
+            "est_front": self.along(S["frame"], est_p), "active": active,
+        }
+        new = {"count": z3.If(active, index, st["count"]), "o": o, "op": op, "motion": motion,
+               "front": front, "est_p": est_p, "over": over, "under": under,
+               "measured": st["measured"] + odo, "basis": basis,
+               "cabs": st["cabs"] + [z3.If(cab, 1, 0)], "travelled": st["travelled"] + [dist],
+               "accs": dict(st["accs"]), "frozen": dict(st["frozen"])}
+        if plan is not None:
+            for fam in plan.accumulators:
+                for v in fam.valuations:
+                    body = view.body_term(fam, fields, v)
+                    old = st["accs"][(fam.key, v)]
+                    grown = {"all": lambda: z3.And(old, body), "any": lambda: z3.Or(old, body),
+                             "count": lambda: old + z3.If(body, 1, 0),
+                             "sum": lambda: old + body}[fam.kind]()
+                    new["accs"][(fam.key, v)] = z3.If(active, grown, old)
+            for i, field in plan.frozen:
+                now = z3.And(active, index == i)
+                new["frozen"][(i, field)] = z3.If(now, fields[field], st["frozen"][(i, field)])
+        return new, fields
+
+    def _names(self, S: dict, st: dict, count) -> None:
+        """The vocabulary of DESIGN 4 at state ``st`` (``count`` legs so far)."""
+        sc, num = self.pack.scope, self.num
+        frame, known = S["frame"], S["known"]
+        o, op, motion, est_p = st["o"], st["op"], st["motion"], st["est_p"]
+        measured = self.define("est.travelled", st["measured"])
+        cabs, travelled = st["cabs"], st["travelled"]
+        self.terms.update({k: v for k, v in S.items() if k not in ("known", "frame")})
+        self.terms.update({
             "legs.count": count,
             "cab_changes": z3.Sum(cabs) if cabs else self.ival(0),
-            "actual.front": front, "actual.rear": front - self.along(o, length),
+            "actual.front": st["front"], "actual.rear": st["front"] - self.along(o, S["train.length"]),
             "actual.orientation": o, "actual.motion": motion,
-            "actual.travelled": z3.Sum([leg["distance"] for leg in self.legs]) if self.legs else num(0),
+            "actual.travelled": z3.Sum(travelled) if travelled else num(0),
+            "actual.over_reading": st["over"], "actual.under_reading": st["under"],
             "est.front_passage": est_p,
             "est.front": self.define("est.front", self.along(frame, est_p)),
-            "est.rear": self.along(frame, est_p - self.along(op, length)),
+            "est.rear": self.along(frame, est_p - self.along(op, S["train.length"])),
             "est.orientation": z3.If(known, o, 0), "est.motion": z3.If(known, motion, 0),
             "est.travelled": measured,
             "est.bound_over": num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * measured,
@@ -283,9 +328,38 @@ class Encoding:
         return self._memo[dep]
 
     def leg_field(self, i: int, field: str):
-        if i > self.K:   # only reachable under an unsatisfiable premise legs.count >= i
+        """``legs[i].field`` (the bounded encoding: leg i of its legs)."""
+        if i > len(self.legs):   # only reachable under an unsatisfiable premise legs.count >= i
             return self._dummy(field)
         return self.legs[i - 1][field]
+
+    def quantify(self, node: ast.Quant, env: dict):
+        """A leg quantifier over the legs of this encoding, each guarded by its activity."""
+        e = self.expr
+        items = []
+        for leg in self.legs:
+            items.append((leg["active"], e(node.body, {**env, node.var: leg})))
+        if node.kind == "all":
+            return z3.And([z3.Implies(a, b) for a, b in items]) if items else z3.BoolVal(True, self.ctx)
+        if node.kind == "any":
+            return z3.Or([z3.And(a, b) for a, b in items]) if items else z3.BoolVal(False, self.ctx)
+        if node.kind == "count":
+            return z3.Sum([z3.If(z3.And(a, b), 1, 0) for a, b in items]) if items else self.ival(0)
+        zero = self.ival(0) if node.ty == COUNT else self.num(0)
+        return z3.Sum([z3.If(a, b, zero) for a, b in items]) if items else zero
+
+    def value_term(self, ty: str, value):
+        """A constant of a finite type (a parameter's value, DESIGN 4.7)."""
+        if ty == "Direction":
+            return self.ival(_DIR_CODE[value])
+        if ty == "Running":
+            return z3.BoolVal(value is Running.FORWARD, self.ctx)
+        return z3.BoolVal(bool(value), self.ctx)
+
+    def body_term(self, fam, fields: dict, valuation: tuple):
+        """An accumulator's body for one leg (``fields``) and one value of its parameters."""
+        over = {id(p): self.value_term(p.ty, v) for p, v in zip(fam.params, valuation)}
+        return self.expr(fam.body, {fam.var: fields, OVERRIDE: over})
 
     def _dummy(self, field):
         from verifier.world.vocab import LEG
@@ -298,8 +372,12 @@ class Encoding:
         return self.real(f"{self.prefix}absent!{self._fresh}")
 
     def expr(self, node: ast.Node, env: dict):
-        """The z3 term of a typed expression; ``env`` binds leg variables to leg numbers."""
+        """The z3 term of a typed expression; ``env`` binds leg variables to their fields (and
+        :data:`OVERRIDE` to terms that replace given sub-terms, by identity)."""
         e = self.expr
+        over = env.get(OVERRIDE)
+        if over is not None and id(node) in over:
+            return over[id(node)]
         if isinstance(node, ast.Num):
             if node.ty in (COUNT, ZERO):
                 return self.ival(int(node.value))
@@ -321,7 +399,7 @@ class Encoding:
             if kind == "let":
                 return self.definition(("let", node.ref[1]))
             if kind == "leg":
-                return self.leg_field(env[node.ref[1]], node.ref[2])
+                return env[node.ref[1]][node.ref[2]]
             if kind == "legat":
                 return self.leg_field(node.ref[1], node.ref[2])
             raise AssertionError(node.ref)
@@ -380,19 +458,7 @@ class Encoding:
                 k = self.floor_int(x * inv + self.num("1/2"))
             return z3.ToReal(k) * step
         if isinstance(node, ast.Quant):
-            items = []
-            for i in range(1, self.K + 1):
-                active = self.legs[i - 1]["active"]
-                body = e(node.body, {**env, node.var: i})
-                items.append((active, body))
-            if node.kind == "all":
-                return z3.And([z3.Implies(a, b) for a, b in items]) if items else z3.BoolVal(True, self.ctx)
-            if node.kind == "any":
-                return z3.Or([z3.And(a, b) for a, b in items]) if items else z3.BoolVal(False, self.ctx)
-            if node.kind == "count":
-                return z3.Sum([z3.If(z3.And(a, b), 1, 0) for a, b in items]) if items else self.ival(0)
-            zero = self.ival(0) if node.ty == COUNT else self.num(0)
-            return z3.Sum([z3.If(a, b, zero) for a, b in items]) if items else zero
+            return self.quantify(node, env)
         raise AssertionError(type(node))
 
     # ---- rules ------------------------------------------------------------------------------
@@ -407,6 +473,33 @@ class Encoding:
 
     def expect(self, rule: Rule):
         return self.expr(rule.expect.node, {})
+
+
+class Encoding(_Terms):
+    """The world of one pack, up to ``bound`` legs, in one z3 context."""
+
+    def __init__(self, pack: Pack, bound: int, ctx: z3.Context, prefix: str = ""):
+        self._setup(pack, ctx, prefix, [])
+        self.K = bound
+        self.inputs: dict = {}         # input name -> z3 constant (for models and the ladder)
+        S = self._static()
+        count = self.int("legs.count")
+        self.inputs["legs.count"] = count
+        self.constraints += [count >= 0, count <= bound]
+        st = self._first(S)
+        for i in range(1, bound + 1):
+            cab, fwd = self.boolean(f"legs.{i}.cab_change"), self.boolean(f"legs.{i}.forward")
+            dist, odo = self.real(f"legs.{i}.distance"), self.real(f"legs.{i}.odometer")
+            self.inputs.update({f"legs.{i}.cab_change": cab, f"legs.{i}.running": fwd,
+                                f"legs.{i}.distance": dist, f"legs.{i}.odometer": odo})
+            active = count >= i
+            # an inactive leg is fixed, so that models (and minimal worlds) are canonical
+            self.constraints.append(z3.Implies(z3.Not(active), z3.And(z3.Not(cab), fwd, dist == 0, odo == 0)))
+            st, fields = self._step(S, st, (cab, fwd, dist, odo), active=active,
+                                    index=self.ival(i), tag=str(i))
+            self.legs.append(fields)
+        self._passage_bound(S)
+        self._names(S, st, count)
 
 
 def _is_const(node: ast.Node) -> bool:

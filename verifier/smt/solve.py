@@ -107,110 +107,113 @@ class _Unknown(Exception):
     pass
 
 
-def _ladder(ses: _Session, enc: Encoding) -> bool:
-    """Fix every input by the fixed ladder of DESIGN 6. Returns whether every step was decided.
+class _Steps:
+    """The steps of the minimisation ladder (DESIGN 6) over one session. Each step asks one
+    incremental question; the answer (not the solver's model) decides the value, so the
+    result is the lexicographically least grid point whatever model z3 returns."""
 
-    Each step asks one incremental question; the answer (not the solver's model) decides the
-    value, so the result is the lexicographically least grid point whatever model z3 returns.
-    """
-    decided = True
-    s = ses
-    T, I = enc.terms, enc.inputs
-    ctx = enc.ctx
+    def __init__(self, ses: _Session):
+        self.s = ses
 
-    def sat(*a) -> bool:
-        r = s.check(*a)
+    def sat(self, *a) -> bool:
+        r = self.s.check(*a)
         if r == z3.unknown:
-            raise _Unknown(s.s.reason_unknown())
+            raise _Unknown(self.s.s.reason_unknown())
         return r == z3.sat
 
-    def value_of(term) -> Fraction:
-        return _fraction(s.s.model().evaluate(term, model_completion=True))
+    def value_of(self, term) -> Fraction:
+        return _fraction(self.s.s.model().evaluate(term, model_completion=True))
 
-    def try_fix(c) -> bool:
-        if sat(c):
-            s.add(c)
+    def try_fix(self, c) -> bool:
+        if self.sat(c):
+            self.s.add(c)
             return True
         return False
 
-    def least_index(pred, lo: int, hi: int) -> int:
+    def least_index(self, pred, lo: int, hi: int) -> int:
         """The least i in lo..hi with pred(i) satisfiable, given that pred(hi) is (monotone)."""
         while lo < hi:
             mid = (lo + hi) // 2
-            if sat(pred(mid)):
+            if self.sat(pred(mid)):
                 hi = mid
             else:
                 lo = mid + 1
         return hi
 
-    def least_int(term, lo: int, hi: int) -> None:
-        """Fix an Int-valued term to its least feasible value in lo..hi."""
-        assert sat()
-        top = int(value_of(term))
-        v = least_index(lambda i: term <= i, lo, top)
-        s.add(term == v)
+    def least_int(self, term, lo: int) -> None:
+        """Fix an Int-valued term to its least feasible value from lo up."""
+        assert self.sat()
+        top = int(self.value_of(term))
+        v = self.least_index(lambda i: term <= i, lo, top)
+        self.s.add(term == v)
 
-    def num(v: Fraction):
-        return z3.RealVal(str(v), ctx)
+    def num(self, v: Fraction):
+        return z3.RealVal(str(v), self.s.enc.ctx)
 
-    def least_on_grid(x, low: Fraction) -> None:
-        """Fix a Real input to its least feasible value on the coarsest grid that has one.
+    def least_on_grid(self, x, low: Fraction) -> None:
+        """Fix a Real to its least feasible value on the coarsest grid that has one.
 
         Bisection on "some feasible x <= v" (monotone, no integer variables), then an exact
         test of the grid point found (the feasible set need not be closed)."""
+        num = self.num
         for g in GRIDS:
-            assert sat()
-            top = math.ceil(value_of(x) / g)
-            i = least_index(lambda j: x <= num(j * g), math.floor(low / g), top)
+            assert self.sat()
+            top = math.ceil(self.value_of(x) / g)
+            i = self.least_index(lambda j: x <= num(j * g), math.floor(low / g), top)
             for j in range(i, i + 3):
-                if try_fix(x == num(j * g)):
+                if self.try_fix(x == num(j * g)):
                     return
-        assert sat()
-        s.add(x == num(value_of(x)))
+        assert self.sat()
+        self.s.add(x == num(self.value_of(x)))
 
-    def least_magnitude(x) -> None:
-        """Fix a signed error to its least magnitude on the coarsest grid; positive first."""
+    def least_magnitude(self, x) -> None:
+        """Fix a signed value to its least magnitude on the coarsest grid; positive first."""
+        num = self.num
         for g in GRIDS:
-            assert sat()
-            top = math.ceil(abs(value_of(x)) / g)
-            i = least_index(lambda j: z3.And(x <= num(j * g), x >= num(-j * g)), 0, top)
+            assert self.sat()
+            top = math.ceil(abs(self.value_of(x)) / g)
+            i = self.least_index(lambda j: z3.And(x <= num(j * g), x >= num(-j * g)), 0, top)
             for j in range(i, i + 3):
-                if try_fix(x == num(j * g)) or try_fix(x == num(-j * g)):
+                if self.try_fix(x == num(j * g)) or self.try_fix(x == num(-j * g)):
                     return
-        assert sat()
-        s.add(x == num(value_of(x)))
+        assert self.sat()
+        self.s.add(x == num(self.value_of(x)))
 
-    K = enc.K
+
+def _ladder(ses: _Session, enc: Encoding) -> bool:
+    """Fix every input by the fixed ladder of DESIGN 6. Returns whether every step was decided."""
+    T, I, K = enc.terms, enc.inputs, enc.K
+    L = _Steps(ses)
     try:
         # (1) fewest legs, then fewest cab changes, then fewest balises
-        least_int(T["legs.count"], 0, K)
-        least_int(T["cab_changes"], 0, K)
-        least_int(I["lrbg.balises"], 1, 8)
+        L.least_int(T["legs.count"], 0)
+        L.least_int(T["cab_changes"], 0)
+        L.least_int(I["lrbg.balises"], 1)
         # (2) each error to 0 where possible
         errors = [I["lrbg.offset"], I["passage.detect_error"]] + [
             I[f"legs.{i}.odometer"] - I[f"legs.{i}.distance"] for i in range(1, K + 1)]
-        zeroed = [try_fix(e == 0) for e in errors]
+        zeroed = [L.try_fix(e == 0) for e in errors]
         # (3) every other input to its least feasible value, in this documented order
-        least_int(I["lrbg.read"], 1, 8)
-        least_int(I["lrbg.locacc"], 0, 63)
-        least_on_grid(I["train.length"], Fraction(0))
-        least_on_grid(I["train.antenna"], Fraction(0))
+        L.least_int(I["lrbg.read"], 1)
+        L.least_int(I["lrbg.locacc"], 0)
+        L.least_on_grid(I["train.length"], Fraction(0))
+        L.least_on_grid(I["train.antenna"], Fraction(0))
         for i in range(1, K + 1):
-            least_on_grid(I[f"legs.{i}.distance"], Fraction(0))
+            L.least_on_grid(I[f"legs.{i}.distance"], Fraction(0))
         for e, z in zip(errors, zeroed):
             if not z:
-                least_magnitude(e)
+                L.least_magnitude(e)
         # (4) Booleans false first, enums in declaration order
-        try_fix(z3.Not(I["lrbg.linked"]))
+        L.try_fix(z3.Not(I["lrbg.linked"]))
         for i in range(1, K + 1):
-            try_fix(z3.Not(I[f"legs.{i}.cab_change"]))
-        try_fix(I["passage.direction"] == 1)          # nominal before reverse
-        try_fix(I["passage.running"])                  # forward before backward
+            L.try_fix(z3.Not(I[f"legs.{i}.cab_change"]))
+        L.try_fix(I["passage.direction"] == 1)          # nominal before reverse
+        L.try_fix(I["passage.running"])                  # forward before backward
         for i in range(1, K + 1):
-            try_fix(I[f"legs.{i}.running"])
+            L.try_fix(I[f"legs.{i}.running"])
     except _Unknown:
-        decided = False
-    return decided
+        return False
+    return True
 
 
 def _check_whole_or_by_legs(ses: _Session) -> tuple:

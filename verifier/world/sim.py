@@ -117,74 +117,209 @@ def scope_problems(world: World, scope: Scope, bound: int) -> list[str]:
     return out
 
 
-class State:
-    """Every vocabulary value of one world under one pack, computed on demand and memoised."""
+@attrs.frozen(eq=True)
+class Snapshot:
+    """The world after some legs (DESIGN 4.7): the group, train and passage (``world``, its
+    legs unused) and what the legs so far left behind. Signs are +1 (nominal) and -1
+    (reverse) in the LRBG frame. ``accumulators`` maps an accumulator family's key to
+    {valuation: value}; ``frozen`` maps (i, field) to the value of ``legs[i].field``."""
 
-    def __init__(self, pack: Pack, world: World):
-        self.pack = pack
-        self.world = world
-        self.values: dict = {}
-        self.legs: list[dict] = []
-        self._memo: dict = {}
-        self._physics()
+    world: World
+    count: int
+    cab_changes: int
+    orientation: int          # real train orientation
+    motion: int               # real direction of the last movement (of the passage before any leg)
+    front: Fraction           # real front end
+    est_front_passage: Fraction   # estimated front end in the passage frame
+    travelled: Fraction       # real distance run
+    measured: Fraction        # odometer sum
+    over: Fraction            # over-reading so far (DESIGN 4.1 over_j)
+    under: Fraction           # under-reading so far (under_j)
+    accumulators: dict = attrs.field(factory=dict, hash=False)
+    frozen: dict = attrs.field(factory=dict, hash=False)
 
-    # ---- the real world and the estimate, step by step (DESIGN 4.2, 4.3) ------------
-    def _physics(self) -> None:
-        w, v = self.world, self.values
-        s = sign(w.direction)
-        o = s if w.running is FWD else -s
-        front = w.offset + s * w.detect_error + o * w.antenna
-        known = w.read >= 2 or w.linked
-        seen = w.direction if known else UNK
-        # the estimate in the passage frame (positive = the way the train moved over the group)
-        op = 1 if w.running is FWD else -1
-        est_p = op * w.antenna
-        frame = s if known else 1     # passage frame -> frame of est.front
-        v["passage.actual_front"], v["passage.est_front"] = front, frame * est_p
-        motion = s
-        travelled = measured = F(0)
-        cab_changes = 0
-        for i, leg in enumerate(w.legs, 1):
-            if leg.cab_change:
-                front -= o * w.length
-                o = -o
-                est_p -= op * w.length
-                op = -op
-                cab_changes += 1
-            m = o if leg.running is FWD else -o
-            mp = op if leg.running is FWD else -op
-            front += m * leg.distance
-            est_p += mp * leg.odometer
-            travelled += leg.distance
-            measured += leg.odometer
-            motion = m
-            self.legs.append({
-                "index": F(i), "cab_change": leg.cab_change, "running": leg.running,
-                "distance": leg.distance, "odometer": leg.odometer,
-                "orientation": direction_of(o) if known else UNK,
-                "motion": direction_of(m) if known else UNK,
-                "actual_orientation": direction_of(o), "actual_motion": direction_of(m),
-                "actual_front": front, "est_front": frame * est_p,
-            })
-        scope = self.pack.scope
-        v.update({
-            "lrbg.balises": F(w.balises), "lrbg.read": F(w.read), "lrbg.linked": w.linked,
-            "lrbg.locacc": w.locacc, "lrbg.offset": w.offset,
-            "train.length": w.length, "train.antenna": w.antenna,
-            "passage.direction": w.direction, "passage.running": w.running,
-            "passage.detect_error": w.detect_error, "passage.seen": seen,
-            "legs.count": F(len(w.legs)), "cab_changes": F(cab_changes),
-            "actual.front": front, "actual.rear": front - o * w.length,
-            "actual.orientation": direction_of(o), "actual.motion": direction_of(motion),
-            "actual.travelled": travelled,
-            "est.front_passage": est_p, "est.front": frame * est_p,
-            "est.rear": frame * (est_p - op * w.length),
-            "est.orientation": direction_of(o) if known else UNK,
-            "est.motion": direction_of(motion) if known else UNK,
-            "est.travelled": measured,
-            "est.bound_over": scope.odometry_over.at(measured),
-            "est.bound_under": scope.odometry_under.at(measured),
-        })
+
+def known(world: World) -> bool:
+    """Whether the onboard knows the direction of passage (DESIGN 4.3)."""
+    return world.read >= 2 or world.linked
+
+
+def start(world: World, plan=None) -> Snapshot:
+    """The state at the detection instant (DESIGN 4.2): no leg yet."""
+    w = world
+    s = sign(w.direction)
+    o = s if w.running is FWD else -s
+    accs = {}
+    if plan is not None:
+        empty = {"all": True, "any": False, "count": F(0), "sum": F(0)}
+        accs = {fam.key: {v: empty[fam.kind] for v in fam.valuations} for fam in plan.accumulators}
+    return Snapshot(w, 0, 0, o, s, w.offset + s * w.detect_error + o * w.antenna,
+                    (1 if w.running is FWD else -1) * w.antenna, F(0), F(0),
+                    max(F(0), -w.detect_error), max(F(0), w.detect_error), accs, {})
+
+
+def advance(snap: Snapshot, leg: Leg, pack: Pack | None = None, plan=None) -> tuple:
+    """One leg (DESIGN 4.2, 4.3): the state after it, and the leg's fields. With a ``plan``
+    (:mod:`verifier.check.unbounded`) the accumulators and frozen legs are carried too."""
+    w = snap.world
+    s = sign(w.direction)
+    o = snap.orientation
+    op = o * s                    # the orientation in the passage frame
+    front, est_p, cab_changes = snap.front, snap.est_front_passage, snap.cab_changes
+    if leg.cab_change:
+        front -= o * w.length
+        o = -o
+        est_p -= op * w.length
+        op = -op
+        cab_changes += 1
+    m = o if leg.running is FWD else -o
+    mp = op if leg.running is FWD else -op
+    front += m * leg.distance
+    est_p += mp * leg.odometer
+    seen = known(w)
+    frame = s if seen else 1
+    i = snap.count + 1
+    fields = {
+        "index": F(i), "cab_change": leg.cab_change, "running": leg.running,
+        "distance": leg.distance, "odometer": leg.odometer,
+        "orientation": direction_of(o) if seen else UNK,
+        "motion": direction_of(m) if seen else UNK,
+        "actual_orientation": direction_of(o), "actual_motion": direction_of(m),
+        "actual_front": front, "est_front": frame * est_p,
+    }
+    new = attrs.evolve(snap, count=i, cab_changes=cab_changes, orientation=o, motion=m,
+                       front=front, est_front_passage=est_p,
+                       travelled=snap.travelled + leg.distance,
+                       measured=snap.measured + leg.odometer,
+                       over=snap.over + max(F(0), leg.odometer - leg.distance),
+                       under=snap.under + max(F(0), leg.distance - leg.odometer))
+    if plan is not None:
+        view = SnapView(pack, new, plan, static_only=True)
+        accs = {}
+        for fam in plan.accumulators:
+            old = snap.accumulators[fam.key]
+            accs[fam.key] = {v: _grow(fam.kind, old[v], view.body_value(fam, fields, v))
+                             for v in fam.valuations}
+        frozen = dict(snap.frozen)
+        for j, field in plan.frozen:
+            if j == i:
+                frozen[(j, field)] = fields[field]
+        new = attrs.evolve(new, accumulators=accs, frozen=frozen)
+    return new, fields
+
+
+def snapshot_problems(snap: Snapshot, scope: Scope, plan=None) -> list[str]:
+    """Why ``snap`` is outside the domain of states (DESIGN 4.7): what every state after any
+    number of legs in scope satisfies. Empty when it is inside."""
+    w = snap.world
+    out = [p for p in scope_problems(attrs.evolve(w, legs=()), scope, 0)]
+    if snap.count < 0 or not 0 <= snap.cab_changes <= snap.count:
+        out.append(f"{snap.cab_changes} cab changes in {snap.count} legs")
+    for name, v in (("actual.orientation", snap.orientation), ("actual.motion", snap.motion)):
+        if v not in (1, -1):
+            out.append(f"{name} must be nominal or reverse")
+    if snap.travelled < 0 or snap.measured < 0:
+        out.append("a negative distance travelled or measured")
+    d = w.detect_error
+    if snap.over < max(F(0), -d) or snap.under < max(F(0), d):
+        out.append("less reading error than the detection error alone")
+    basis = snap.measured if scope.odometry_basis == "measured" else snap.travelled
+    if snap.over > scope.odometry_over.at(basis):
+        out.append(f"over-reading {_m(snap.over)} exceeds the bound {_m(scope.odometry_over.at(basis))}")
+    if snap.under > scope.odometry_under.at(basis):
+        out.append(f"under-reading {_m(snap.under)} exceeds the bound {_m(scope.odometry_under.at(basis))}")
+    if snap.count == 0:
+        first = start(w, plan)
+        if attrs.evolve(snap, frozen={}) != attrs.evolve(first, frozen={}):
+            out.append("a state with no leg must be the state at the detection instant")
+    if plan is not None:
+        for fam in plan.accumulators:
+            got = snap.accumulators.get(fam.key)
+            if got is None or set(got) != set(fam.valuations):
+                out.append(f"accumulator {fam.text} is missing or incomplete")
+            elif fam.kind == "count" and not all(0 <= x <= snap.count and F(x).denominator == 1
+                                                  for x in got.values()):
+                out.append(f"accumulator {fam.text} is not a count within 0..legs.count")
+        for i, field in plan.frozen:
+            if i > snap.count:
+                continue
+            v = snap.frozen.get((i, field))
+            if v is None:
+                out.append(f"legs[{i}].{field} is missing")
+            elif field == "index" and v != i:
+                out.append(f"legs[{i}].index is {v}")
+            elif field == "distance" and not scope.leg_distance[0] <= v <= scope.leg_distance[1]:
+                out.append(f"legs[{i}].distance {v} m outside the scope")
+            elif field == "odometer" and v < 0:
+                out.append(f"legs[{i}].odometer is negative")
+            elif field in ("orientation", "motion") and (v is UNK) == known(w):
+                out.append(f"legs[{i}].{field} is {v.word}, but the passage is "
+                           f"{'known' if known(w) else 'unknown'}")
+        fr = snap.frozen
+        for i in sorted({i for i, _ in plan.frozen if i <= snap.count}):
+            for seen, real in (("orientation", "actual_orientation"), ("motion", "actual_motion")):
+                if known(w) and (i, seen) in fr and (i, real) in fr and fr[(i, seen)] != fr[(i, real)]:
+                    out.append(f"legs[{i}].{seen} differs from legs[{i}].{real} with a known passage")
+            keys = [(i, "actual_motion"), (i, "actual_orientation"), (i, "running")]
+            if all(k in fr for k in keys):
+                o = sign(fr[(i, "actual_orientation")])
+                want = direction_of(o if fr[(i, "running")] is FWD else -o)
+                if fr[(i, "actual_motion")] is not want:
+                    out.append(f"legs[{i}].actual_motion does not follow from its orientation and running")
+    return out
+
+
+def _grow(kind: str, old, value):
+    if kind == "all":
+        return old and bool(value)
+    if kind == "any":
+        return old or bool(value)
+    if kind == "count":
+        return old + (1 if value else 0)
+    return old + value
+
+
+def snapshot_values(snap: Snapshot, scope: Scope) -> dict:
+    """The vocabulary of DESIGN 4 that a state determines (everything but the designs and
+    the wire)."""
+    w = snap.world
+    s = sign(w.direction)
+    seen_known = known(w)
+    seen = w.direction if seen_known else UNK
+    frame = s if seen_known else 1
+    o, est_p = snap.orientation, snap.est_front_passage
+    op = o * s
+    first = start(w)
+    return {
+        "lrbg.balises": F(w.balises), "lrbg.read": F(w.read), "lrbg.linked": w.linked,
+        "lrbg.locacc": w.locacc, "lrbg.offset": w.offset,
+        "train.length": w.length, "train.antenna": w.antenna,
+        "passage.direction": w.direction, "passage.running": w.running,
+        "passage.detect_error": w.detect_error, "passage.seen": seen,
+        "passage.actual_front": first.front,
+        "passage.est_front": frame * first.est_front_passage,
+        "legs.count": F(snap.count), "cab_changes": F(snap.cab_changes),
+        "actual.front": snap.front, "actual.rear": snap.front - o * w.length,
+        "actual.orientation": direction_of(o), "actual.motion": direction_of(snap.motion),
+        "actual.travelled": snap.travelled,
+        "actual.over_reading": snap.over, "actual.under_reading": snap.under,
+        "est.front_passage": est_p, "est.front": frame * est_p,
+        "est.rear": frame * (est_p - op * w.length),
+        "est.orientation": direction_of(o) if seen_known else UNK,
+        "est.motion": direction_of(snap.motion) if seen_known else UNK,
+        "est.travelled": snap.measured,
+        "est.bound_over": scope.odometry_over.at(snap.measured),
+        "est.bound_under": scope.odometry_under.at(snap.measured),
+    }
+
+
+class _Values:
+    """Vocabulary values of one state under one pack, computed on demand and memoised:
+    the designs (DESIGN 4.4, 4.5) and the wire over what the state determines."""
+
+    pack: Pack
+    values: dict
+    _memo: dict
 
     # ---- the position report on the wire (DESIGN 4.4) --------------------------------
     def _rounded(self, step: Fraction) -> tuple:
@@ -253,13 +388,98 @@ class State:
             self._memo[dep] = evaluate(self.pack.definition(dep).node, self, {})
         return self._memo[dep]
 
-    def leg(self, index: int) -> dict:
-        return self.legs[index - 1]
+    def quantify(self, node: ast.Quant, env: dict):
+        raise NotImplementedError
+
+    def leg_at(self, index: int, field: str):
+        raise NotImplementedError
 
 
-def evaluate(node: ast.Node, st: State, env: dict):
-    """The value of a typed expression in a state; ``env`` binds quantifier variables to
-    leg numbers."""
+class State(_Values):
+    """Every vocabulary value of one world under one pack: the legs run one by one from the
+    detection instant; quantifiers run over the legs."""
+
+    def __init__(self, pack: Pack, world: World):
+        self.pack = pack
+        self.world = world
+        self.values: dict = {}
+        self.legs: list[dict] = []
+        self._memo: dict = {}
+        snap = start(world)
+        for leg in world.legs:
+            snap, fields = advance(snap, leg)
+            self.legs.append(fields)
+        self.values.update(snapshot_values(snap, pack.scope))
+
+    def quantify(self, node: ast.Quant, env: dict):
+        results = [evaluate(node.body, self, {**env, node.var: leg}) for leg in self.legs]
+        return _combine(node.kind, results)
+
+    def leg_at(self, index: int, field: str):
+        if index > len(self.legs):
+            raise IndexError(f"legs[{index}] read in a world with {len(self.legs)} legs")
+        return self.legs[index - 1][field]
+
+
+def _combine(kind: str, results: list):
+    if kind == "all":
+        return all(results)
+    if kind == "any":
+        return any(results)
+    if kind == "count":
+        return F(sum(1 for r in results if r))
+    return sum(results, F(0))
+
+
+class SnapView(_Values):
+    """Every vocabulary value at a state of DESIGN 4.7, without the legs that led there:
+    quantifiers read the state's accumulators, ``legs[i]`` its frozen legs. With
+    ``static_only`` only names that do not change with the legs may be read (the view an
+    accumulator's body is evaluated in)."""
+
+    def __init__(self, pack: Pack, snap: Snapshot, plan, static_only: bool = False):
+        from verifier.check.unbounded import STATIC
+        self.pack = pack
+        self.snap = snap
+        self.world = snap.world
+        self.plan = plan
+        self.values = snapshot_values(snap, pack.scope)
+        if static_only:
+            self.values = {k: v for k, v in self.values.items() if k in STATIC}
+        self.static_only = static_only
+        self._memo: dict = {}
+
+    def get(self, name: str):
+        if self.static_only and name not in self.values:
+            raise KeyError(f"{name} changes with the legs: it cannot be read in an accumulator's body")
+        return super().get(name)
+
+    def quantify(self, node: ast.Quant, env: dict):
+        fam, params = self.plan.use(node)
+        case = tuple(evaluate(p, self, env) for p in params)
+        return self.snap.accumulators[fam.key][case]
+
+    def leg_at(self, index: int, field: str):
+        if index > self.snap.count:
+            raise IndexError(f"legs[{index}] read in a state after {self.snap.count} legs")
+        return self.snap.frozen[(index, field)]
+
+    def body_value(self, fam, fields: dict, case: tuple):
+        """An accumulator's body for one leg and one value of its parameters."""
+        over = {id(p): v for p, v in zip(fam.params, case)}
+        return evaluate(fam.body, self, {fam.var: fields, OVERRIDE: over})
+
+
+OVERRIDE = "$override"   # env key: sub-terms replaced by given values (accumulator parameters)
+
+
+def evaluate(node: ast.Node, st: _Values, env: dict):
+    """The value of a typed expression in a state; ``env`` binds quantifier variables to the
+    fields of a leg (and :data:`OVERRIDE` to values that replace given sub-terms, by
+    identity)."""
+    over = env.get(OVERRIDE)
+    if over is not None and id(node) in over:
+        return over[id(node)]
     if isinstance(node, ast.Num):
         return node.value
     if isinstance(node, ast.BoolLit):
@@ -273,12 +493,9 @@ def evaluate(node: ast.Node, st: State, env: dict):
         if kind == "let":
             return st.formula(("let", node.ref[1]))
         if kind == "leg":
-            return st.leg(env[node.ref[1]])[node.ref[2]]
+            return env[node.ref[1]][node.ref[2]]
         if kind == "legat":
-            i = node.ref[1]
-            if i > len(st.legs):
-                raise IndexError(f"legs[{i}] read in a world with {len(st.legs)} legs")
-            return st.leg(i)[node.ref[2]]
+            return st.leg_at(node.ref[1], node.ref[2])
         raise AssertionError(node.ref)
     if isinstance(node, ast.Unary):
         x = evaluate(node.operand, st, env)
@@ -323,16 +540,7 @@ def evaluate(node: ast.Node, st: State, env: dict):
             return -args[1] if args[0] is REV else args[1]
         return {"floor_to": floor_to, "ceil_to": ceil_to, "round_to": round_to}[f](F(args[0]), F(args[1]))
     if isinstance(node, ast.Quant):
-        results = []
-        for i in range(1, len(st.legs) + 1):
-            results.append(evaluate(node.body, st, {**env, node.var: i}))
-        if node.kind == "all":
-            return all(results)
-        if node.kind == "any":
-            return any(results)
-        if node.kind == "count":
-            return F(sum(1 for r in results if r))
-        return sum(results, F(0))
+        return st.quantify(node, env)
     raise AssertionError(type(node))
 
 
@@ -340,17 +548,17 @@ def compare(op: str, a, b) -> bool:
     return bool(ast.COMPARISONS[op](a, b))
 
 
-def applies(rule, st: State) -> bool:
+def applies(rule, st: _Values) -> bool:
     """Whether a rule's given (with its implicit premise on legs[i]) holds in a state."""
-    if rule.premise_legs > len(st.legs):
+    if rule.premise_legs > st.get("legs.count"):
         return False
     return rule.given is None or bool(evaluate(rule.given.node, st, {}))
 
 
-def holds(rule, st: State) -> bool:
+def holds(rule, st: _Values) -> bool:
     """The rule as an implication in this state: not applicable, or expect true."""
     return (not applies(rule, st)) or bool(evaluate(rule.expect.node, st, {}))
 
 
-def formula_value(formula: Formula, st: State):
+def formula_value(formula: Formula, st: _Values):
     return evaluate(formula.node, st, {})

@@ -84,6 +84,8 @@ GLOBAL = {e.name: e for e in [
     _e("actual.orientation", DIRECTION, NOBODY, "derived", "real train orientation (towards the active cab)"),
     _e("actual.motion", DIRECTION, NOBODY, "derived", "real direction of the last movement"),
     _e("actual.travelled", LENGTH, NOBODY, "derived", "real distance run since the passage"),
+    _e("actual.over_reading", LENGTH, NOBODY, "derived", "over-reading so far: max(0, -passage.detect_error) plus each leg's max(0, odometer - distance); the scope bounds it at every leg (DESIGN 4.1)"),
+    _e("actual.under_reading", LENGTH, NOBODY, "derived", "under-reading so far: max(0, passage.detect_error) plus each leg's max(0, distance - odometer)"),
     _e("est.front", LENGTH, OB, "derived", "estimated front end (LRBG frame; passage frame when the passage is unknown)"),
     _e("est.front_passage", LENGTH, OB, "derived", "estimated front end in the passage frame (positive = way of the passage)"),
     _e("est.rear", LENGTH, OB, "derived", "estimated rear end (est.front less the length along the estimated orientation)"),
