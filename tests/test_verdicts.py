@@ -37,13 +37,18 @@ def test_json_output_shape(tmp_path, capsys, monkeypatch):
     assert main(["check", "p.toml", "--json"]) == 1
     doc = json.loads(capsys.readouterr().out)
     rules = {r["id"]: r for r in doc["packs"][0]["rules"]}
-    assert set(doc) == {"packs", "errors", "summary"}
-    assert set(rules["ok"]) == {"id", "verdict", "bound", "seconds", "counterexample", "witness", "message"}
+    # DESIGN 7, with the proof kind and the lemmas of DESIGN 4.7
+    assert set(doc) == {"packs", "errors", "summary", "lemma_summary"}
+    assert set(doc["packs"][0]) == {"name", "path", "rules", "lemmas"}
+    assert set(rules["ok"]) == {"id", "verdict", "bound", "seconds", "counterexample", "witness",
+                                "message", "proof", "counterexample_to_induction"}
+    assert rules["ok"]["proof"] == {"kind": "bounded", "legs": 1}
     assert rules["ok"]["verdict"] == "holds" and rules["ok"]["witness"] is not None
     assert rules["bad"]["verdict"] == "violated"
     assert rules["bad"]["counterexample"] == "counterexamples/t/bad.json"
     assert rules["never"]["verdict"] == "vacuous"
-    assert doc["summary"] == {"holds": 1, "violated": 1, "vacuous": 1, "unknown": 0, "error": 0}
+    assert doc["summary"] == {"holds": 1, "violated": 1, "vacuous": 1, "bounded": 0, "unknown": 0,
+                              "error": 0}
 
 
 def test_vacuous_alone_exits_1(tmp_path, monkeypatch):

@@ -41,6 +41,7 @@ from verifier.check.model import Pack, Rule
 from verifier.world.scenario import fmt
 
 FORMAT = "verifier-cache/2"   # 2: designs outside the closure left out of the key
+DATA_FORMAT = "verifier-cache-data/1"   # other decided answers (the induction step, DESIGN 4.7)
 DEFAULT_DIR = Path(".verifier-cache")
 _VERDICTS = ("holds", "violated", "vacuous")
 
@@ -72,6 +73,14 @@ def rule_key(pack: Pack, rule: Rule, bound: int, witness: bool = True) -> str:
                      "world": pack.scope.as_json(),
                      "params": {k: [str(v[0]), fmt(v[1])] for k, v in sorted(pack.params.items())}},
     }
+    return _sha(json.dumps(doc, sort_keys=True))
+
+
+def induction_key(pack: Pack, rule: Rule, lemmas, bound: int, depth: int) -> str:
+    """The cache key of a rule's induction step (DESIGN 4.7): everything that decides the
+    bounded verdict of the rule and of each lemma assumed, the bound and the depth."""
+    doc = {"induction": True, "rule": rule_key(pack, rule, bound, False), "depth": depth,
+           "lemmas": [[lemma.id, rule_key(pack, lemma, bound, False)] for lemma in lemmas]}
     return _sha(json.dumps(doc, sort_keys=True))
 
 
@@ -149,9 +158,8 @@ class Cache:
         self.misses += 1
         return None
 
-    def get(self, key: str):
-        """The cached result for ``key``, or None (missing, corrupted or foreign)."""
-        from verifier.smt.solve import Solved
+    def _read(self, key: str, fmt: str, field: str):
+        """The checked payload stored under ``key`` in format ``fmt``, or None."""
         path = self._file(key)
         try:
             raw = path.read_bytes()
@@ -164,13 +172,22 @@ class Cache:
             doc = json.loads(raw.decode("utf-8"))
         except (UnicodeDecodeError, json.JSONDecodeError):
             return self._ignore(path, "not valid JSON (corrupted)")
-        if not isinstance(doc, dict) or doc.get("format") != FORMAT:
+        if not isinstance(doc, dict) or doc.get("format") != fmt:
             return self._ignore(path, "foreign format")
         if doc.get("key") != key:
             return self._ignore(path, "it records another key")
-        payload = doc.get("solved")
+        payload = doc.get(field)
         if not isinstance(payload, dict) or doc.get("sha256") != _sha(json.dumps(payload, sort_keys=True)):
             return self._ignore(path, "checksum mismatch (corrupted)")
+        return path, payload
+
+    def get(self, key: str):
+        """The cached result for ``key``, or None (missing, corrupted or foreign)."""
+        from verifier.smt.solve import Solved
+        got = self._read(key, FORMAT, "solved")
+        if got is None:
+            return None
+        path, payload = got
         try:
             fields = _fields()
             if set(payload) != set(fields):
@@ -187,6 +204,21 @@ class Cache:
         self.hits += 1
         return solved
 
+    def get_data(self, key: str) -> dict | None:
+        """Plain data stored by :meth:`put_data` (the outcome of an induction step), or None."""
+        got = self._read(key, DATA_FORMAT, "data")
+        if got is None:
+            return None
+        path, payload = got
+        try:
+            data = _dec(payload)
+        except (ValueError, TypeError, ZeroDivisionError) as exc:
+            return self._ignore(path, f"malformed content ({exc})")
+        if not isinstance(data, dict):
+            return self._ignore(path, "malformed content")
+        self.hits += 1
+        return data
+
     def count_as_miss(self) -> None:
         """A hit the caller could not use after all (its world no longer evaluates)."""
         self.hits -= 1
@@ -196,8 +228,14 @@ class Cache:
         """Store a decided result; undecided ones are refused. Returns whether it was stored."""
         if not cacheable(solved, witness):
             return False
-        payload = _payload(solved)
-        doc = {"format": FORMAT, "key": key, "solved": payload,
+        return self._write(key, FORMAT, "solved", _payload(solved))
+
+    def put_data(self, key: str, data: dict) -> bool:
+        """Store plain data (a decided induction outcome: the caller refuses undecided ones)."""
+        return self._write(key, DATA_FORMAT, "data", _enc(data))
+
+    def _write(self, key: str, fmt: str, field: str, payload) -> bool:
+        doc = {"format": fmt, "key": key, field: payload,
                "sha256": _sha(json.dumps(payload, sort_keys=True))}
         path = self._file(key)
         try:

@@ -57,30 +57,34 @@ class _Progress:
             sys.stderr.flush()
 
 
-def _bound_words(n: int) -> str:
-    return f"up to {n} leg{'s' if n != 1 else ''}"
-
-
 def _table(results, input_diags) -> str:
-    from verifier.engine import VERDICTS
+    from verifier.engine import VERDICTS, proof_detail, proof_words
     lines = []
     counts = dict.fromkeys(VERDICTS, 0)
+    lemma_counts = dict.fromkeys(VERDICTS, 0)
     for p in results:
         lines.append(f"pack {p.name} ({p.path})")
-        width = max((len(r.rule) for r in p.results), default=10)
+        width = max((len(r.rule) + (6 if r.role == "lemma" else 0) for r in p.results), default=10)
         for r in p.results:
-            counts[r.verdict] += 1
+            (lemma_counts if r.role == "lemma" else counts)[r.verdict] += 1
             verdict = r.verdict if r.verdict != "error" else f"error ({r.kind})"
-            lines.append(f"  {verdict:<9} {r.rule:<{width}}  {_bound_words(r.bound):<13} {r.seconds:6.2f} s"
+            name = f"lemma {r.rule}" if r.role == "lemma" else r.rule
+            lines.append(f"  {verdict:<9} {name:<{width}}  {proof_words(r):<18} {r.seconds:6.2f} s"
                          + ("  (cached)" if r.cached else ""))
             if r.premise:
                 lines.append(f"            implicit premise: {r.premise}")
+            if proof_detail(r):
+                lines.append(f"            {proof_detail(r)}")
             if r.counterexample:
                 lines.append(f"            counterexample: {r.counterexample}")
+            if r.induction:
+                lines.append(f"            counterexample to induction: {r.induction}")
             if r.message and r.verdict != "holds":
                 lines.append(f"            {r.message}")
     errors = sum(1 for d in input_diags if d.severity == "error")
     summary = ", ".join(f"{counts[v]} {v}" for v in VERDICTS)
+    if any(lemma_counts.values()):
+        summary += "; lemmas: " + ", ".join(f"{lemma_counts[v]} {v}" for v in VERDICTS if lemma_counts[v])
     if errors:
         summary += f"; {errors} input error{'s' if errors != 1 else ''} (packs with errors were not checked)"
     lines.append(f"summary: {summary}")
@@ -109,7 +113,8 @@ def cmd_check(args) -> int:
     _print_diags(diags)
     input_errors = any(d.severity == "error" for d in diags)
     opts = CheckOptions(legs=args.legs, rules=tuple(args.rule or ()), timeout=args.timeout,
-                        rlimit=args.rlimit, out=None if args.no_files else Path(args.out))
+                        rlimit=args.rlimit, out=None if args.no_files else Path(args.out),
+                        induction_depth=args.induction_depth)
     opts = _with_jobs_and_cache(opts, args)
     fmt = "json" if args.json else args.format
     if args.crosscheck:
@@ -134,13 +139,16 @@ def cmd_check(args) -> int:
     elif fmt == "json":
         from verifier.engine import VERDICTS
         counts = dict.fromkeys(VERDICTS, 0)
+        lemma_counts = dict.fromkeys(VERDICTS, 0)
         for p in results:
             for r in p.results:
-                counts[r.verdict] += 1
+                (lemma_counts if r.role == "lemma" else counts)[r.verdict] += 1
         doc = {"packs": [{"name": p.name, "path": p.path,
-                          "rules": [r.as_json() for r in p.results]} for p in results],
+                          "rules": [r.as_json() for r in p.results if r.role == "rule"],
+                          "lemmas": [r.as_json() for r in p.results if r.role == "lemma"]}
+                         for p in results],
                "errors": [d.as_json() for d in diags if d.severity == "error"],
-               "summary": counts}
+               "summary": counts, "lemma_summary": lemma_counts}
         if cross is not None:
             doc["crosscheck"] = cross.as_json()
         print(json.dumps(doc, indent=2, sort_keys=True))
@@ -259,6 +267,16 @@ def cmd_simulate(args) -> int:
     return EXIT_OK if ok else EXIT_FAIL
 
 
+def _legs_arg(text: str):
+    """--legs: a whole number, or 'any'."""
+    if text == "any":
+        return "any"
+    try:
+        return int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a whole number 0..8 or 'any', not {text!r}") from None
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="verifier",
@@ -274,7 +292,11 @@ def build_parser() -> argparse.ArgumentParser:
                                    "cross-check failure.")
     c.add_argument("paths", nargs="*", metavar="PATH", help="pack files or directories (default: rules/)")
     c.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
-    c.add_argument("--legs", type=int, metavar="K", help="bound: movement legs after the passage (overrides packs and rules)")
+    c.add_argument("--legs", type=_legs_arg, metavar="K", help="bound: movement legs after the passage, "
+                   "0..8, or 'any' to prove every rule for any number of legs (overrides packs and rules)")
+    c.add_argument("--induction-depth", type=int, default=4, metavar="N",
+                   help="for rules with legs = \"any\": the deepest induction step tried, 1..8 "
+                        "(default 4; the base case covers at least N - 1 legs)")
     c.add_argument("--rule", action="append", metavar="ID", help="check only this rule (repeatable)")
     c.add_argument("--timeout", type=float, metavar="SECONDS", help="wall-clock guard per rule (default 120)")
     c.add_argument("--rlimit", type=int, metavar="N", help="deterministic solver budget per check (default 500000000)")
@@ -365,8 +387,17 @@ def main(argv=None) -> int:
     if not getattr(args, "func", None):
         parser.print_help()
         return EXIT_INPUT
-    if getattr(args, "legs", None) is not None and not (0 <= args.legs <= 8):
-        print("verifier: error: --legs must be 0..8", file=sys.stderr)
+    legs = getattr(args, "legs", None)
+    if legs is not None and legs != "any" and not (0 <= legs <= 8):
+        print("verifier: error: --legs must be 0..8 or 'any'", file=sys.stderr)
+        return EXIT_INPUT
+    if legs == "any" and args.command != "check":
+        print("verifier: error: --legs any is for 'verifier check' (here the bound is a number of legs)",
+              file=sys.stderr)
+        return EXIT_INPUT
+    depth = getattr(args, "induction_depth", None)
+    if depth is not None and not (1 <= depth <= 8):
+        print("verifier: error: --induction-depth must be 1..8", file=sys.stderr)
         return EXIT_INPUT
     try:
         return args.func(args)

@@ -57,11 +57,12 @@ def check_jobs(jobs: int) -> int:
 
 
 def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, jobs=1,
-                   cache=None):
+                   cache=None, bounds=None):
     """Yield a :class:`Presolved` for each (pack, rule) of ``todo``, in order.
 
-    ``cache`` is a :class:`verifier.cache.Cache` or None. With ``jobs == 1`` each rule is
-    solved when its result is asked for (so progress reports stay live)."""
+    ``cache`` is a :class:`verifier.cache.Cache` or None. ``bounds`` gives each rule's bound
+    (default: the pack's ``bound_for``). With ``jobs == 1`` each rule is solved when its result
+    is asked for (so progress reports stay live)."""
     from verifier.cache import rule_key
     from verifier.smt import smtlib
     check_jobs(jobs)
@@ -72,8 +73,8 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
         limits["rlimit"] = rlimit
     plan = []
     evaluators: dict = {}
-    for pack, rule in todo:
-        bound = pack.bound_for(rule, legs)
+    for n, (pack, rule) in enumerate(todo):
+        bound = pack.bound_for(rule, legs) if bounds is None else bounds[n]
         key = rule_key(pack, rule, bound, witness) if cache is not None else None
         hit = cache.get(key) if key is not None else None
         if hit is not None and hit.world is not None:

@@ -33,6 +33,8 @@ class Rule:
     premise_legs: int           # legs[i] used: the rule only applies when legs.count >= this
     deps: frozenset             # the whole dependency closure: ("let", n), ("onboard", n), ...
     reads: frozenset            # vocabulary names read through the closure (for warnings, diff)
+    unbounded: bool | None = None   # legs = "any" (None: as the pack says; DESIGN 4.7)
+    role: str = "rule"              # "rule", or "lemma" (an invariant that helps prove rules)
 
 
 @attrs.frozen
@@ -55,9 +57,12 @@ class Pack:
     trackside_order: tuple
     rules: tuple
     warnings: tuple = ()
+    unbounded: bool = False     # [pack] legs = "any"
+    lemmas: tuple = ()          # Rule objects with role "lemma", in file order
 
     def rule(self, rule_id: str) -> Rule:
-        for r in self.rules:
+        """The rule or lemma with this id."""
+        for r in self.rules + self.lemmas:
             if r.id == rule_id:
                 return r
         raise KeyError(rule_id)
@@ -66,10 +71,20 @@ class Pack:
         kind, name = dep
         return {"let": self.lets, "onboard": self.onboard, "trackside": self.trackside}[kind][name]
 
-    def bound_for(self, rule: Rule, override: int | None = None) -> int:
-        """Bound precedence (DESIGN 3): command line, then the rule, then the pack."""
-        if override is not None:
+    def bound_for(self, rule: Rule, override: int | str | None = None) -> int:
+        """Bound precedence (DESIGN 3): command line, then the rule, then the pack. For a rule
+        checked for any number of legs this is the bound of its base case."""
+        if isinstance(override, int):
             return override
         if rule.legs is not None:
             return rule.legs
         return self.legs
+
+    def unbounded_for(self, rule: Rule, override: int | str | None = None) -> bool:
+        """Whether the rule is to be proved for any number of legs (DESIGN 4.7): ``--legs any``
+        or ``--legs K`` first, then the rule's ``legs``, then the pack's."""
+        if override is not None:
+            return override == "any"
+        if rule.unbounded is not None:
+            return rule.unbounded
+        return self.unbounded

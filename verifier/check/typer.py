@@ -570,7 +570,7 @@ def _check_pack(raw: RawPack) -> Pack:
 
     rules = []
     warnings = [d for d in raw.diagnostics if d.severity != "error"]
-    for r in raw.rules:
+    for r in raw.rules + raw.lemmas:
         parts = {}
         max_leg = 0
         deps: set = set()
@@ -580,7 +580,7 @@ def _check_pack(raw: RawPack) -> Pack:
             if e is None:
                 parts[part] = None
                 continue
-            env = _Env(raw, e.key, f"rule {r.id} {part}", None, params, world, diags)
+            env = _Env(raw, e.key, f"{r.role} {r.id} {part}", None, params, world, diags)
             env.let_types = let_types
             try:
                 node = _check(env, e.node)
@@ -591,7 +591,7 @@ def _check_pack(raw: RawPack) -> Pack:
                 env.error(node, f"{part} must be a Bool (a condition), not {_show(node.ty)}")
                 ok = False
                 continue
-            parts[part] = Formula(f"rule {r.id} {part}", e.text, node, e.key, False, frozenset(env.deps))
+            parts[part] = Formula(f"{r.role} {r.id} {part}", e.text, node, e.key, False, frozenset(env.deps))
             max_leg = max(max_leg, env.max_leg)
             deps |= env.deps
             for k, v in env.reads.items():
@@ -607,7 +607,7 @@ def _check_pack(raw: RawPack) -> Pack:
         all_reads = set(reads) | set(closure_reads(full))
         bound = r.legs if r.legs is not None else raw.legs
         rule = Rule(r.id, r.title, parts["given"], parts["expect"], r.refs, r.note, r.legs,
-                    r.line, max_leg, frozenset(full), frozenset(all_reads))
+                    r.line, max_leg, frozenset(full), frozenset(all_reads), r.unbounded, r.role)
         positional = {"rbc.est_front", "rbc.max_safe_front", "rbc.min_safe_front",
                       "rbc.min_safe_rear", "rbc.d_lrbg", "rbc.l_doubtover", "rbc.l_doubtunder"}
         given_reads = set()
@@ -619,11 +619,12 @@ def _check_pack(raw: RawPack) -> Pack:
                     given_reads |= set(checked[dep][1])
         if (set(reads) & positional) and "rbc.placed" not in given_reads:
             warnings.append(raw.source.at_key(
-                r.expect.key, f"rule {r.id} reads trackside positions but its given does not ask "
+                r.expect.key, f"{r.role} {r.id} reads trackside positions but its given does not ask "
                 "for rbc.placed (an unplaced report carries no position)", severity="warning"))
-        if max_leg > bound:
+        unbounded = r.unbounded if r.unbounded is not None else raw.unbounded
+        if max_leg > bound and not unbounded:
             warnings.append(raw.source.at_key(
-                r.expect.key, f"rule {r.id} reads legs[{max_leg}] but its bound is {bound} legs: "
+                r.expect.key, f"{r.role} {r.id} reads legs[{max_leg}] but its bound is {bound} legs: "
                 "it can never apply (vacuous) unless checked with more --legs", severity="warning"))
         rules.append(rule)
 
@@ -637,4 +638,6 @@ def _check_pack(raw: RawPack) -> Pack:
     return Pack(raw.path, raw.text, raw.sha256, raw.name, raw.title, raw.description, raw.legs,
                 raw.scope, params, lets, onboard, _topo(raw.onboard, graph, "onboard"),
                 raw.q_scale, raw.rounding, trackside, _topo(raw.trackside, graph, "trackside"),
-                tuple(rules), tuple(sorted(warnings, key=lambda d: (d.line, d.column))))
+                tuple(r for r in rules if r.role == "rule"),
+                tuple(sorted(warnings, key=lambda d: (d.line, d.column))), raw.unbounded,
+                tuple(r for r in rules if r.role == "lemma"))

@@ -171,3 +171,89 @@ def write_atomic(path: Path, text: str) -> None:
 
 def cex_path(out_dir: Path, pack: Pack, rule: Rule) -> Path:
     return out_dir / pack.name / f"{rule.id}.json"
+
+
+# ---- counterexamples to induction (DESIGN 4.7) -------------------------------------------
+
+INDUCTION_FORMAT = "verifier-induction/1"
+INDUCTION_CAUTION = (
+    "This file records a counterexample to induction: a path of states of the stated model, "
+    "from a state after some legs (not necessarily one a real run reaches) in which the rule "
+    "and every proved lemma held, to a state one or more legs later in which the rule is false. "
+    "It shows why the rule was not proved for any number of legs; it is not a world in which "
+    "the rule is false. " + _TOOL_CAUTION)
+
+
+def state_values(view) -> dict:
+    """Every derived vocabulary value at one state (a simulator view without legs)."""
+    out = {}
+    for name, entry in sorted(vocab.GLOBAL.items()):
+        if entry.kind in ("input", "hidden-input") and name != "legs.count":
+            continue
+        out[name] = plain(view.get(name), entry.ty)
+    return out
+
+
+def induction_path(out_dir: Path, pack: Pack, rule: Rule) -> Path:
+    return out_dir / pack.name / f"{rule.id}.induction.json"
+
+
+def build_induction(pack: Pack, rule: Rule, lemmas, outcome, bound: int, solver: str) -> dict:
+    """The file of a counterexample to induction: the rule, the lemmas assumed, the first
+    state, the legs after it, and every state's values with the rule's and lemmas' truth."""
+    from verifier.world.scenario import snapshot_to_data
+    from verifier.world.sim import World, applies
+    views, plan = outcome.views, outcome.plan
+    first = views[0].snap
+    legs = [world_to_data(World(legs=(leg,)))["legs"][0] for leg in _legs_of(outcome)]
+    states = []
+    for v in views:
+        states.append({"derived": state_values(v),
+                       "rule": {"given": applies(rule, v), "expect": bool(evaluate(rule.expect.node, v, {}))},
+                       "lemmas": {lemma.id: bool(not applies(lemma, v) or evaluate(lemma.expect.node, v, {}))
+                                  for lemma in lemmas}})
+    world = world_to_data(first.world)
+    del world["legs"]
+    return {
+        "format": INDUCTION_FORMAT,
+        "caution": INDUCTION_CAUTION,
+        "pack": {"name": pack.name, "path": pack.path, "sha256": pack.sha256,
+                 "q_scale": pack.q_scale, "rounding": pack.rounding},
+        "rule": {"id": rule.id, "title": rule.title, "role": rule.role,
+                 "given": rule.given.text if rule.given else None,
+                 "implicit_premise": implicit_premise(rule),
+                 "expect": rule.expect.text, "refs": list(rule.refs), "line": rule.line,
+                 "sha256": rule_hashes(pack, rule)},
+        "lemmas": [{"id": lemma.id, "given": lemma.given.text if lemma.given else None,
+                    "expect": lemma.expect.text, "sha256": rule_hashes(pack, lemma)}
+                   for lemma in lemmas],
+        "verdict": "bounded",
+        "bound": bound,
+        "depth": len(views) - 1,
+        "minimal": outcome.minimal,
+        "scope": pack.scope.as_json(),
+        "world": world,
+        "state": snapshot_to_data(first, plan),
+        "legs": legs,
+        "states": states,
+        "failed": failed_part(rule, views[-1]),
+        "tool": {"verifier": __version__, "solver": solver},
+    }
+
+
+def _legs_of(outcome) -> list:
+    from verifier.world.sim import Leg
+    from verifier.world.vocab import Running
+    return [Leg(x["cab_change"], Running(x["running"]), x["distance"], x["odometer"])
+            for x in outcome.cti["legs"]]
+
+
+def write_induction(out_dir: Path, pack: Pack, rule: Rule, lemmas, outcome, bound: int,
+                    solver: str) -> str:
+    """Write the counterexample to induction (and its diagram) beside the counterexamples."""
+    from verifier.evidence import diagram
+    doc = build_induction(pack, rule, lemmas, outcome, bound, solver)
+    target = induction_path(out_dir, pack, rule)
+    write_atomic(target, dumps(doc))
+    diagram.write_induction_beside(target, doc, rule, outcome.views)
+    return target.as_posix()

@@ -109,13 +109,17 @@ def _slug(text: str) -> str:
     return re.sub(r"[^a-z0-9]+", "-", text.lower()).strip("-")
 
 
+def _leg_stage(title: str, leg, d: dict, known: bool) -> tuple:
+    what = ("cab change, then " if leg.cab_change else "") + leg.running.word
+    return (title, [f"{what}, moving {d['actual_motion'].word}",
+                    f"real {m(leg.distance)}, odometer {m(leg.odometer)}"],
+            d["actual_front"], _sign(d["actual_orientation"]), d["est_front"] if known else None)
+
+
 def render(doc: dict, rule: Rule, st: State) -> str:
     """The SVG text for one counterexample (``doc`` as written by cexfile.build)."""
     w, g = st.world, st.get
-    uid = "d-" + _slug(f"{doc['pack']['name']}-{rule.id}")
     known = g("passage.seen").word != "unknown"
-    placed = bool(g("rbc.placed"))
-
     # the stages: (title, detail lines, real front, orientation sign, est front or None)
     f0, e0 = _front_at_detection(st)
     o0 = _sign(w.direction) * (1 if w.running.word == "forward" else -1)
@@ -124,12 +128,48 @@ def render(doc: dict, rule: Rule, st: State) -> str:
                 f"faces {'nominal' if o0 > 0 else 'reverse'}"],
                f0, o0, e0 if known else None)]
     for i, (leg, d) in enumerate(zip(w.legs, st.legs), 1):
-        what = ("cab change, then " if leg.cab_change else "") + leg.running.word
-        stages.append((f"After leg {i}",
-                       [f"{what}, moving {d['actual_motion'].word}",
-                        f"real {m(leg.distance)}, odometer {m(leg.odometer)}"],
-                       d["actual_front"], _sign(d["actual_orientation"]),
-                       d["est_front"] if known else None))
+        stages.append(_leg_stage(f"After leg {i}", leg, d, known))
+    verdict = f"{doc['pack']['name']} / {rule.id}: violated (up to {doc['bound']} legs)"
+    return _draw(doc, rule, st, stages, verdict, f"Counterexample of rule {rule.id}")
+
+
+def render_induction(doc: dict, rule: Rule, views) -> str:
+    """The SVG text for one counterexample to induction (``doc`` as cexfile.build_induction
+    writes it; ``views`` the simulator's states s0 .. sk): the train at each state of the path,
+    the last state's report."""
+    from verifier.world.sim import advance
+    first = views[0]
+    w = first.world
+    known = first.get("passage.seen").word != "unknown"
+    n = first.snap.count
+    ok = "the rule holds" if len(views) > 1 else ""
+    stages = [(f"A state after {n} leg{'s' if n != 1 else ''}",
+               [f"{first.snap.cab_changes} cab change{'s' if first.snap.cab_changes != 1 else ''}; {ok}",
+                f"faces {first.get('actual.orientation').word}"],
+               first.get("actual.front"), first.snap.orientation,
+               first.get("est.front") if known else None)]
+    snap = first.snap
+    for i, leg in enumerate(_cti_legs(doc), 1):
+        snap, d = advance(snap, leg)
+        last = i == len(views) - 1
+        stages.append(_leg_stage(f"{'Then' if i == 1 else 'And'} leg {n + i}"
+                                 + (": rule false" if last else ""), leg, d, known))
+    verdict = (f"{doc['pack']['name']} / {rule.id}: not proved for any number of legs "
+               f"(holds up to {doc['bound']}; counterexample to induction, depth {doc['depth']})")
+    return _draw(doc, rule, views[-1], stages, verdict,
+                 f"Counterexample to induction of rule {rule.id}")
+
+
+def _cti_legs(doc: dict) -> list:
+    from verifier.world.scenario import world_from_data
+    return list(world_from_data({"legs": doc["legs"]}).legs)
+
+
+def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str) -> str:
+    """The diagram over the stages of a train; ``st`` is the last state (its report)."""
+    w, g = st.world, st.get
+    uid = "d-" + _slug(f"{doc['pack']['name']}-{rule.id}" + ("-induction" if "depth" in doc else ""))
+    placed = bool(g("rbc.placed"))
 
     positions = [F(0), w.offset, -w.locacc, w.locacc]
     for _, _, front, o, est in stages:
@@ -151,8 +191,7 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     add(f'<defs><pattern id="{uid}-hatch" width="6" height="6" patternUnits="userSpaceOnUse" '
         f'patternTransform="rotate(45)"><line x1="0" y1="0" x2="0" y2="6" stroke="{GREY}" '
         f'stroke-width="1.4"/></pattern></defs>')
-    verdict = f"{doc['pack']['name']} / {rule.id}: violated (up to {doc['bound']} legs)"
-    add(_t(16, 26, verdict, size=16, weight="bold"))
+    add(_t(16, 26, _clip(verdict, 110), size=16, weight="bold"))
     add(_t(16, 46, _clip(rule.title, 130), size=12, fill=GREY))
     y = F(64)
 
@@ -323,8 +362,7 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     out.insert(0, f'<line x1="{P(x_org)}" y1="{P(origin_top)}" x2="{P(x_org)}" y2="{P(y_last_stage)}" '
                   f'stroke="{GREY}" stroke-width="1" stroke-dasharray="2 3"/>')
     height = y + 12
-    desc = (f"Counterexample of rule {rule.id} of pack {doc['pack']['name']}: "
-            + " ".join(lines))
+    desc = f"{what} of pack {doc['pack']['name']}: " + " ".join(lines)
     head = (f'<svg xmlns="http://www.w3.org/2000/svg" class="cex-diagram" id="{uid}" width="{WIDTH}" '
             f'height="{P(height)}" viewBox="0 0 {WIDTH} {P(height)}" role="img" '
             f'aria-labelledby="{uid}-title {uid}-desc" font-family="{FONT}">\n'
@@ -444,6 +482,13 @@ def _legend(out, uid, y):
 
 def svg_path(json_path: Path) -> Path:
     return json_path.with_suffix(".svg")
+
+
+def write_induction_beside(json_path: Path, doc: dict, rule: Rule, views) -> Path:
+    """Write the diagram of a counterexample to induction next to its file."""
+    target = svg_path(Path(json_path))
+    cexfile.write_atomic(target, render_induction(doc, rule, views))
+    return target
 
 
 def write_beside(json_path: Path, doc: dict, rule: Rule, st: State) -> Path:

@@ -25,6 +25,8 @@ from verifier.world.scope import Bound, Scope
 SLUG = re.compile(r"^[a-z0-9][a-z0-9-]*$")
 IDENT = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 MAX_LEGS = 8
+DEFAULT_LEGS = 3
+ANY = "any"        # legs = "any": proved for every number of legs where the tool can (DESIGN 4.7)
 
 TABLES = {
     "pack": {"name", "title", "legs", "description"},
@@ -35,6 +37,7 @@ TABLES = {
     "onboard": set(vocab.ONBOARD_OUTPUTS) | {"q_scale", "rounding"},
     "trackside": set(vocab.TRACKSIDE_OUTPUTS),
     "rule": {"id", "title", "given", "expect", "refs", "legs", "note"},
+    "lemma": {"id", "title", "given", "expect", "refs", "note"},
 }
 
 
@@ -59,6 +62,8 @@ class RawRule:
     legs: int | None
     line: int
     index: int
+    unbounded: bool | None = None   # legs = "any" (None: as the pack says)
+    role: str = "rule"              # or "lemma"
 
 
 @attrs.frozen
@@ -80,6 +85,8 @@ class RawPack:
     rules: tuple
     source: SourceFile = attrs.field(eq=False, repr=False)
     diagnostics: tuple = ()   # errors and warnings of the loading stage
+    unbounded: bool = False   # [pack] legs = "any"
+    lemmas: tuple = ()        # RawRule with role "lemma", in file order
 
 
 class _Collector:
@@ -278,9 +285,11 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
         elif k == "rule":
             if not isinstance(v, list):
                 c.at((k,), "rules are written as [[rule]] tables")
+        elif k == "lemma":
+            pass    # checked with the lemmas below
         elif not isinstance(v, dict):
             c.at((k,), f"'{k}' must be a table: [{k}]")
-    tables = {k: (v if isinstance(v, dict) else {}) for k, v in data.items() if k != "rule"}
+    tables = {k: (v if isinstance(v, dict) else {}) for k, v in data.items() if k not in ("rule", "lemma")}
 
     pack_t = tables.get("pack", {})
     if "pack" not in data:
@@ -294,10 +303,8 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
             c.at(("pack", "name"), f"pack name must be a slug (lower-case letters, digits, '-'), got {name!r}")
         if not isinstance(pack_t.get("title", ""), str) or "title" not in pack_t:
             c.at(("pack",), "[pack] needs a title (a string)")
-    legs = pack_t.get("legs", 3)
-    if isinstance(legs, bool) or not isinstance(legs, int) or not (0 <= legs <= MAX_LEGS):
-        c.at(("pack", "legs"), f"pack legs must be a whole number 0..{MAX_LEGS}, got {legs!r}")
-        legs = 3
+    legs, unbounded = _legs(c, ("pack", "legs"), pack_t.get("legs", DEFAULT_LEGS), "pack")
+    legs = DEFAULT_LEGS if legs is None else legs
     description = pack_t.get("description", "")
     if not isinstance(description, str):
         c.at(("pack", "description"), "description must be a string")
@@ -351,41 +358,69 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     _unknown_keys(c, ("trackside",), ts_t, TABLES["trackside"], "[trackside]")
     trackside = _design(c, "trackside", ts_t, vocab.TRACKSIDE_OUTPUTS, vocab.DEFAULT_TRACKSIDE)
 
-    rules = []
-    seen_ids: dict[str, int] = {}
+    seen_ids: dict[str, tuple] = {}
     raw_rules = data.get("rule", []) if isinstance(data.get("rule", []), list) else []
     if not raw_rules and "pack" in data:
         c.diags.append(src.diag(1, 1, "the pack has no [[rule]]", severity="warning"))
-    for i, r in enumerate(raw_rules):
-        base = ("rule", i)
+    rules = _rules(c, src, raw_rules, "rule", seen_ids)
+    raw_lemmas = data.get("lemma", [])
+    if not isinstance(raw_lemmas, list):
+        c.at(("lemma",), "lemmas are written as [[lemma]] tables")
+        raw_lemmas = []
+    lemmas = _rules(c, src, raw_lemmas, "lemma", seen_ids)
+
+    # Errors found so far travel with the pack: the checker adds its own and reports them all.
+    return RawPack(shown, text, sha256, name, pack_t.get("title", ""), description, legs, scope,
+                   params, lets, onboard, q_scale, rounding, trackside, tuple(rules), src,
+                   tuple(c.diags), unbounded, tuple(lemmas))
+
+
+def _legs(c: _Collector, key: tuple, value, what: str) -> tuple:
+    """A ``legs`` value: a whole number 0..MAX_LEGS, or "any". Returns (bound, unbounded);
+    (None, False) after an error."""
+    if value == ANY:
+        return None, True
+    if isinstance(value, bool) or not isinstance(value, int) or not (0 <= value <= MAX_LEGS):
+        hint = ' (write legs = "any" for every number of legs)' if isinstance(value, str) else ""
+        c.at(key, f"{what} legs must be a whole number 0..{MAX_LEGS} or \"any\", got {value!r}{hint}")
+        return None, False
+    return value, False
+
+
+def _rules(c: _Collector, src: SourceFile, raw: list, table: str, seen_ids: dict) -> list:
+    """The [[rule]] or [[lemma]] tables. Ids are unique across both (they name files)."""
+    out = []
+    for i, r in enumerate(raw):
+        base = (table, i)
         if not isinstance(r, dict):
-            c.at(base, "a rule must be a table")
+            c.at(base, f"a {table} must be a table")
             continue
-        _unknown_keys(c, base, r, TABLES["rule"], "[[rule]]")
+        _unknown_keys(c, base, r, TABLES[table], f"[[{table}]]")
         ok = True
-        for req in ("id", "title", "expect"):
+        for req in ("id", "title", "expect") if table == "rule" else ("id", "expect"):
             if req not in r:
-                c.at(base, f"rule is missing '{req}'")
+                c.at(base, f"{table} is missing '{req}'")
                 ok = False
         rid = r.get("id", f"#{i + 1}")
         if "id" in r and (not isinstance(rid, str) or not SLUG.match(rid)):
-            c.at(base + ("id",), f"rule id must be a slug (lower-case letters, digits, '-'), got {rid!r}")
+            c.at(base + ("id",), f"{table} id must be a slug (lower-case letters, digits, '-'), got {rid!r}")
             ok = False
         elif isinstance(rid, str) and rid in seen_ids:
-            first = src.places.get(("rule", seen_ids[rid]))
-            where = f"line {first.line}" if first else f"rule {seen_ids[rid] + 1}"
-            c.at(base + ("id",), f"duplicate rule id '{rid}' (first used at {where})")
+            first = src.places.get(seen_ids[rid])
+            where = f"line {first.line}" if first else f"{seen_ids[rid][0]} {seen_ids[rid][1] + 1}"
+            what = "rule id" if table == seen_ids[rid][0] == "rule" else "id"
+            c.at(base + ("id",), f"duplicate {what} '{rid}' (first used at {where})")
             ok = False
         elif isinstance(rid, str):
-            seen_ids[rid] = i
-        title = r.get("title", "")
+            seen_ids[rid] = base
+        title = r.get("title", rid if table == "lemma" else "")
         if not isinstance(title, str):
             c.at(base + ("title",), "title must be a string")
             ok = False
-        given = _expr(c, base + ("given",), r["given"], what=f"rule {rid} given") if "given" in r else None
+        given = _expr(c, base + ("given",), r["given"], what=f"{table} {rid} given") if "given" in r else None
         if "given" in r and given is None:
             ok = False
-        expect = _expr(c, base + ("expect",), r["expect"], what=f"rule {rid} expect") if "expect" in r else None
+        expect = _expr(c, base + ("expect",), r["expect"], what=f"{table} {rid} expect") if "expect" in r else None
         refs = r.get("refs", [])
         if not (isinstance(refs, list) and all(isinstance(x, str) for x in refs)):
             c.at(base + ("refs",), "refs must be a list of strings")
@@ -394,20 +429,16 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
         if not isinstance(note, str):
             c.at(base + ("note",), "note must be a string")
             note = ""
-        rlegs = r.get("legs")
-        if rlegs is not None and (isinstance(rlegs, bool) or not isinstance(rlegs, int)
-                                  or not (0 <= rlegs <= MAX_LEGS)):
-            c.at(base + ("legs",), f"rule legs must be a whole number 0..{MAX_LEGS}, got {rlegs!r}")
-            ok = False
+        rlegs, unbounded = None, (True if table == "lemma" else None)
+        if "legs" in r:
+            rlegs, unbounded = _legs(c, base + ("legs",), r["legs"], table)
+            if rlegs is None and not unbounded:
+                ok = False
         place = src.places.get(base)
         if ok and expect is not None:
-            rules.append(RawRule(rid, title, given, expect, tuple(refs), note, rlegs,
-                                 place.line if place else 1, i))
-
-    # Errors found so far travel with the pack: the checker adds its own and reports them all.
-    return RawPack(shown, text, sha256, name, pack_t.get("title", ""), description, legs, scope,
-                   params, lets, onboard, q_scale, rounding, trackside, tuple(rules), src,
-                   tuple(c.diags))
+            out.append(RawRule(rid, title, given, expect, tuple(refs), note, rlegs,
+                               place.line if place else 1, i, unbounded, table))
+    return out
 
 
 _FUNCTION_WORDS = {"abs", "min", "max", "flip", "side", "along", "floor_to", "ceil_to",

@@ -90,12 +90,12 @@ def solver_version() -> str:
 
 def encoder_version() -> str:
     """A digest of the source of everything that turns pack text into a solved problem
-    (parser, typer, vocabulary, encoder, solver driver). Any edit to them changes it, so a
+    (parser, typer, vocabulary, encoder, solver driver, the induction driver). Any edit to them changes it, so a
     cached verdict never outlives the code that computed it."""
     root = Path(__file__).resolve().parent.parent
     files = sorted([*root.joinpath("lang").glob("*.py"), root / "lang" / "grammar.lark",
                     *root.joinpath("check").glob("*.py"), *root.joinpath("smt").glob("*.py"),
-                    root / "world" / "vocab.py", root / "world" / "scope.py"])
+                    root / "world" / "vocab.py", root / "world" / "scope.py", root / "induct.py"])
     h = hashlib.sha256()
     for f in files:
         h.update(f.relative_to(root).as_posix().encode() + b"\0")

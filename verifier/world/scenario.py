@@ -164,3 +164,135 @@ def read_scenario(path: str | Path) -> World:
         return world_from_data(data)
     except ValueError as exc:
         raise PackError([Diagnostic(shown, 1, 1, str(exc))]) from None
+
+
+# ---- states after some legs (DESIGN 4.7): solver data, files, and the simulator's Snapshot ----
+
+_SIGN_WORD = {1: "nominal", -1: "reverse"}
+_STATE_LENGTHS = ("actual.front", "est.front_passage", "actual.travelled", "est.travelled",
+                  "actual.over_reading", "actual.under_reading")
+
+
+def _leg_value(field: str, v):
+    """A frozen leg field from plain data (bool, number, word) to the simulator's value."""
+    from verifier.world.vocab import LEG
+    ty = LEG[field].ty
+    if ty == "Bool":
+        return bool(v)
+    if ty == "Running":
+        if isinstance(v, bool):
+            return Running.FORWARD if v else Running.BACKWARD
+        return Running(str(v))
+    if ty == "Direction":
+        if isinstance(v, str):
+            return Direction[v.upper()]
+        return {1: Direction.NOMINAL, -1: Direction.REVERSE, 0: Direction.UNKNOWN}[int(v)]
+    return Fraction(v) if not isinstance(v, str) else parse_length(v, field)
+
+
+def snapshot_from_flat(world: dict, state: dict, plan):
+    """The simulator's state from the solver's plain data (``verifier.smt.induction``):
+    ``world`` flat as a counterexample's inputs, ``state`` keyed by the solver's names
+    (``acc.N.J`` for accumulator family N, case J; ``legs.I.FIELD`` for frozen legs)."""
+    from verifier.world.sim import Snapshot
+    accs = {}
+    for n, fam in enumerate(plan.accumulators):
+        accs[fam.key] = {}
+        for j, case in enumerate(fam.valuations):
+            v = state[f"acc.{n}.{j}"]
+            accs[fam.key][case] = bool(v) if fam.kind in ("all", "any") else Fraction(v)
+    frozen = {(i, f): _leg_value(f, state[f"legs.{i}.{f}"]) for i, f in plan.frozen
+              if f"legs.{i}.{f}" in state}
+    return Snapshot(world_from_flat(world), int(state["legs.count"]), int(state["cab_changes"]),
+                    int(state["actual.orientation"]), int(state["actual.motion"]),
+                    *(Fraction(state[k]) for k in _STATE_LENGTHS), accs, frozen)
+
+
+def _word(v) -> object:
+    if isinstance(v, (Direction, Running)):
+        return v.word
+    if isinstance(v, bool):
+        return v
+    if isinstance(v, Fraction):
+        return fmt(v)
+    return v
+
+
+def snapshot_to_data(snap, plan) -> dict:
+    """A state as file data: the legs so far, the real and estimated positions, the
+    accumulators by their readable form, the frozen legs."""
+    out = {"legs.count": snap.count, "cab_changes": snap.cab_changes,
+           "actual.orientation": _SIGN_WORD[snap.orientation],
+           "actual.motion": _SIGN_WORD[snap.motion]}
+    for k in _STATE_LENGTHS:
+        out[k] = fmt(getattr(snap, _FIELD[k]))
+    accs = []
+    for fam in plan.accumulators:
+        cases = []
+        for case in fam.valuations:
+            v = snap.accumulators[fam.key][case]
+            value = v if isinstance(v, bool) else (int(v) if fam.kind == "count" else fmt(v))
+            cases.append({"case": [_word(x) for x in case], "value": value})
+        accs.append({"of": fam.text, "cases": cases})
+    out["accumulators"] = accs
+    frozen: dict = {}
+    for (i, f), v in sorted(snap.frozen.items()):
+        frozen.setdefault(str(i), {})[f] = int(v) if f == "index" else _word(v)
+    out["legs"] = frozen
+    return out
+
+
+_FIELD = {"actual.front": "front", "est.front_passage": "est_front_passage",
+          "actual.travelled": "travelled", "est.travelled": "measured",
+          "actual.over_reading": "over", "actual.under_reading": "under"}
+
+
+def snapshot_from_data(data, world: World, plan, where: str = "state"):
+    """A state from file data (``snapshot_to_data``); raise ValueError naming the field."""
+    from verifier.world.sim import Snapshot
+    if not isinstance(data, dict):
+        raise ValueError(f"{where} must be a table")
+
+    def need(key):
+        if key not in data:
+            raise ValueError(f"{where} lacks '{key}'")
+        return data[key]
+
+    def sign_of(key):
+        v = need(key)
+        if v not in _SIGN_WORD.values():
+            raise ValueError(f"{where}.{key} must be nominal or reverse, got {v!r}")
+        return 1 if v == "nominal" else -1
+
+    def whole(key):
+        v = need(key)
+        if isinstance(v, bool) or not isinstance(v, int):
+            raise ValueError(f"{where}.{key} must be a whole number, got {v!r}")
+        return v
+
+    lengths = [parse_length(need(k), f"{where}.{k}") for k in _STATE_LENGTHS]
+    by_text = {}
+    for a in need("accumulators"):
+        if not isinstance(a, dict) or "of" not in a or "cases" not in a:
+            raise ValueError(f"{where}.accumulators: each needs 'of' and 'cases'")
+        by_text[a["of"]] = a["cases"]
+    accs = {}
+    for fam in plan.accumulators:
+        if fam.text not in by_text:
+            raise ValueError(f"{where}.accumulators lacks {fam.text}")
+        cases = {tuple(c["case"]): c["value"] for c in by_text[fam.text]}
+        accs[fam.key] = {}
+        for case in fam.valuations:
+            v = cases.get(tuple(_word(x) for x in case))
+            if v is None:
+                raise ValueError(f"{where}.accumulators: {fam.text} lacks the case {[_word(x) for x in case]}")
+            accs[fam.key][case] = bool(v) if fam.kind in ("all", "any") else (
+                Fraction(v) if not isinstance(v, str) else parse_length(v, fam.text))
+    frozen = {}
+    legs = data.get("legs", {})
+    for i, f in plan.frozen:
+        leg = legs.get(str(i), {})
+        if f in leg:
+            frozen[(i, f)] = _leg_value(f, leg[f])
+    return Snapshot(world, whole("legs.count"), whole("cab_changes"), sign_of("actual.orientation"),
+                    sign_of("actual.motion"), *lengths, accs, frozen)

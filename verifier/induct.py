@@ -1,0 +1,221 @@
+"""Rules for any number of legs (DESIGN 4.7): the induction step after the bounded base case,
+lemmas first, counterexamples to induction replayed in the simulator and written as files.
+
+A rule checked with ``legs = "any"`` first gets today's bounded verdict up to B legs (the base
+case, B >= depth - 1). Only when that holds is the step asked, at depth k = 1, 2, ... up to the
+induction depth, strengthened by every lemma of the pack already proved for any number of legs
+(lemmas are proved in file order, each with the ones before it). The verdict is then ``holds``
+for any number of legs, or ``bounded`` (it holds up to B legs; not proved for any number) with
+the counterexample to induction of the deepest step tried, never ``holds`` by default.
+"""
+
+from __future__ import annotations
+
+import time
+
+import attrs
+
+from verifier.check.model import Pack, Rule
+from verifier.check.unbounded import Plan, plan_for, rule_formulas
+from verifier.world.sim import SnapView, advance, applies, evaluate, holds, snapshot_problems
+
+DEFAULT_DEPTH = 4
+MAX_DEPTH = 8
+
+
+@attrs.frozen
+class Replayed:
+    """A counterexample to induction as the simulator sees it."""
+
+    views: tuple              # SnapView of s0 .. sk
+    problems: tuple           # why it is not a counterexample to induction (empty: it is)
+
+
+def plan_with_lemmas(pack: Pack, rule: Rule, lemmas) -> Plan:
+    formulas = rule_formulas(rule)
+    for lemma in lemmas:
+        formulas += rule_formulas(lemma)
+    return plan_for(pack, formulas)
+
+
+def base_bound(pack: Pack, rule: Rule, legs, depth: int) -> int:
+    """The bound of the bounded check: for a rule proved for any number of legs, at least
+    depth - 1 (the base case of k-induction) and at least the highest legs[i] it names."""
+    bound = pack.bound_for(rule, legs)
+    if pack.unbounded_for(rule, legs):
+        from verifier.lang.pack import MAX_LEGS
+        bound = min(MAX_LEGS, max(bound, depth - 1, rule.premise_legs))
+    return bound
+
+
+def replay(pack: Pack, rule: Rule, lemmas, plan: Plan, cti: dict) -> Replayed:
+    """Run a counterexample to induction (solver data: world, state, legs) step by step in the
+    simulator: s0 must be in the domain of states, every leg in scope, the rule true at s0 ..
+    s(k-1) and false at sk, every lemma true throughout."""
+    from verifier.world.scenario import snapshot_from_flat
+    from verifier.world.sim import Leg
+    from verifier.world.vocab import Running
+    problems = []
+    try:
+        snap = snapshot_from_flat(cti["world"], cti["state"], plan)
+    except (KeyError, ValueError) as exc:
+        return Replayed((), (f"the state cannot be read: {exc}",))
+    problems += [f"s0: {p}" for p in snapshot_problems(snap, pack.scope, plan)]
+    views = [SnapView(pack, snap, plan)]
+    scope = pack.scope
+    for i, x in enumerate(cti["legs"], 1):
+        leg = Leg(x["cab_change"], Running(x["running"]), x["distance"], x["odometer"])
+        if not scope.leg_distance[0] <= leg.distance <= scope.leg_distance[1] or leg.odometer < 0:
+            problems.append(f"leg {i} outside the scope")
+        snap, _ = advance(snap, leg, pack, plan)
+        basis = snap.measured if scope.odometry_basis == "measured" else snap.travelled
+        if snap.over > scope.odometry_over.at(basis) or snap.under > scope.odometry_under.at(basis):
+            problems.append(f"the reading error after leg {i} exceeds its bound")
+        views.append(SnapView(pack, snap, plan))
+    try:
+        for i, v in enumerate(views):
+            for lemma in lemmas:
+                if not holds(lemma, v):
+                    problems.append(f"lemma {lemma.id} is false at s{i}")
+            if i < len(views) - 1 and not holds(rule, v):
+                problems.append(f"the rule is false at s{i}, before the last state")
+        last = views[-1]
+        if holds(rule, last):
+            problems.append(f"the rule holds at s{len(views) - 1}")
+    except (KeyError, IndexError, ZeroDivisionError) as exc:
+        problems.append(f"the simulator failed: {exc!r}")
+    return Replayed(tuple(views), tuple(problems))
+
+
+def compare_values(pack: Pack, plan: Plan, cti: dict, views, rule: Rule) -> list[str]:
+    """Names on which the encoding and the simulator disagree at some state of the path."""
+    from verifier.smt import induction, solve
+    names = [n for n in solve.COMPARED]
+    enc = induction.evaluate_path(pack, plan, cti, names, (rule,))
+    if enc is None:
+        return ["the encoding rejects the path (outside its domain or scope)"]
+    out = []
+    for i, (values, view) in enumerate(zip(enc, views)):
+        for n in names:
+            sv, mv = values[n], view.get(n)
+            mv = mv.word if hasattr(mv, "word") else mv
+            if sv != mv:
+                out.append(f"s{i} {n}: solver {sv}, simulator {mv}")
+        for part, want in (("given", applies(rule, view)),
+                           ("expect", bool(evaluate(rule.expect.node, view, {})))):
+            got = values[f"rule:{rule.id}:{part}"]   # the given with its implicit premise, as applies()
+            if got != want:
+                out.append(f"s{i} {part}: solver {got}, simulator {want}")
+    return out
+
+
+@attrs.frozen
+class Outcome:
+    """How the proof for any number of legs went (plain data for the engine)."""
+
+    verdict: str              # holds (any number) or bounded
+    proof: dict
+    message: str = ""
+    cti: dict | None = None   # the solver's counterexample to induction, replayed
+    views: tuple = ()
+    minimal: bool = True
+    seconds: float = 0.0
+    error: str = ""           # an internal disagreement (solver and simulator)
+    plan: Plan | None = None
+    decided: bool = True      # no budget ran out (only decided outcomes are cached)
+    cached: bool = False
+
+
+def prove(pack: Pack, rule: Rule, lemmas: tuple, bound: int, *, depth: int = DEFAULT_DEPTH,
+          rlimit: int | None = None, timeout: float | None = None, cache=None) -> Outcome:
+    """The induction step of a rule whose bounded check up to ``bound`` legs holds. With a
+    ``cache`` (:class:`verifier.cache.Cache`) a decided outcome is stored, and a stored one is
+    used: its counterexample to induction is replayed in the simulator all the same."""
+    t0 = time.monotonic()
+    key = None
+    if cache is not None:
+        from verifier.cache import induction_key
+        key = induction_key(pack, rule, lemmas, bound, depth)
+        hit = cache.get_data(key)
+        if hit is not None:
+            out = _confirm(pack, rule, lemmas, plan_with_lemmas(pack, rule, lemmas), hit, t0)
+            if out is not None:
+                return attrs.evolve(out, cached=True)
+            cache.count_as_miss()
+    out = _prove(pack, rule, lemmas, bound, depth, rlimit, timeout, t0)
+    if key is not None and not out.error and out.decided:
+        cache.put_data(key, {"verdict": out.verdict, "proof": out.proof, "message": out.message,
+                             "cti": out.cti, "minimal": out.minimal})
+    return out
+
+
+def _confirm(pack, rule, lemmas, plan, hit: dict, t0: float):
+    """An outcome from the cache, its counterexample to induction replayed; None if that
+    fails (then it is solved again)."""
+    try:
+        cti = hit["cti"]
+        base = dict(verdict=hit["verdict"], proof=hit["proof"], message=hit["message"],
+                    minimal=hit["minimal"], plan=plan)
+    except (KeyError, TypeError):
+        return None
+    if cti is None:
+        return Outcome(**base, seconds=time.monotonic() - t0)
+    rep = replay(pack, rule, lemmas, plan, cti)
+    if rep.problems or compare_values(pack, plan, cti, rep.views, rule):
+        return None
+    return Outcome(**base, cti=cti, views=rep.views, seconds=time.monotonic() - t0)
+
+
+def _prove(pack, rule, lemmas, bound, depth, rlimit, timeout, t0) -> Outcome:
+    from verifier.smt import induction
+    plan = plan_with_lemmas(pack, rule, lemmas)
+    ids = [lemma.id for lemma in lemmas]
+    base = {"kind": "bounded", "legs": bound}
+    if plan.unsupported:
+        return Outcome("bounded", {**base, "induction": "not attempted"},
+                       "not proved for any number of legs: " + "; ".join(plan.unsupported),
+                       seconds=time.monotonic() - t0, plan=plan)
+    kw = {}
+    if rlimit is not None:
+        kw["rlimit"] = rlimit
+    if timeout is not None:
+        kw["timeout"] = timeout
+    last = None
+    for k in range(1, min(depth, bound + 1) + 1):
+        last = induction.step(pack, rule, lemmas, plan, k, minimise=False, **kw)
+        if last.status == "proved":
+            return Outcome("holds", {"kind": "induction", "base_legs": bound, "depth": k,
+                                     "lemmas": list(last.lemmas_used)},
+                           seconds=time.monotonic() - t0, plan=plan)
+        if last.status == "unknown":
+            return Outcome("bounded", {**base, "induction": f"undecided at depth {k}",
+                                       "lemmas": ids},
+                           f"not proved for any number of legs: the induction step at depth {k} "
+                           f"was left undecided ({last.reason})",
+                           seconds=time.monotonic() - t0, plan=plan, decided=False)
+    # the counterexample to induction on record is the first one (two consecutive states),
+    # minimised by the ladder; the deeper steps only had to fail
+    deepest = last.depth
+    last = induction.step(pack, rule, lemmas, plan, 1, **kw)
+    if last.status != "failed":   # pragma: no cover - the same question answered before
+        return Outcome("bounded", base, seconds=time.monotonic() - t0, plan=plan,
+                       error=f"the step at depth 1 answered {last.status} when asked again")
+    rep = replay(pack, rule, lemmas, plan, last.cti)
+    if rep.problems:
+        return Outcome("bounded", base, seconds=time.monotonic() - t0, plan=plan,
+                       error="the simulator does not confirm the counterexample to induction: "
+                             + "; ".join(rep.problems))
+    disagree = compare_values(pack, plan, last.cti, rep.views, rule)
+    if disagree:
+        return Outcome("bounded", base, seconds=time.monotonic() - t0, plan=plan,
+                       error="simulator and solver disagree on the counterexample to induction: "
+                             + "; ".join(disagree))
+    n = last.cti["state"]["legs.count"]
+    msg = (f"not proved for any number of legs: from a state after {n} leg{'s' if n != 1 else ''} "
+           f"in which the rule held, one more leg breaks it"
+           + (f" (with lemma{'s' if len(ids) != 1 else ''} {', '.join(ids)})" if ids else "")
+           + (f"; the steps of depth 2 to {deepest} fail too" if deepest > 1 else ""))
+    return Outcome("bounded", {**base, "induction": f"fails up to depth {deepest}", "lemmas": ids},
+                   msg, last.cti, rep.views, last.minimal, time.monotonic() - t0, plan=plan,
+                   decided=last.minimal)
+
