@@ -4,6 +4,9 @@ grows with the bound. Prints figures side by side in one run; it is not a test.
     .venv/bin/python bench/benchmark.py            # all of rules/, K = 1, 2, 4
     .venv/bin/python bench/benchmark.py --quick    # K = 1, 2 only
 
+It also times the proofs for any number of legs (DESIGN 4.7) of the packs that ask for them
+against the bounded check of the same packs at K = 3.
+
 Ratios, not absolute times, are what to compare between machines.
 """
 
@@ -33,6 +36,22 @@ def run(packs, legs=None):
     return total, solver, len(rules), verdicts
 
 
+def any_vs_bounded(packs) -> None:
+    """Each pack with rules for any number of legs: the whole proof (base case up to 3 legs,
+    lemmas, induction steps) against the bounded check at K = 3, and how many rules and lemmas
+    the proof covers."""
+    for pack in packs:
+        if not any(pack.unbounded_for(r) for r in pack.rules + pack.lemmas):
+            continue
+        t_any, _, n, verdicts = run([pack])
+        t_k3, _, _, _ = run([pack], legs=3)
+        results = check_packs([pack], CheckOptions(out=None))[0].results
+        proved = sum(1 for r in results if r.unbounded)
+        print(f"any number of legs, {pack.name}: {t_any:6.2f} s for {n} rules and lemmas "
+              f"({proved} proved for any number, {verdicts}); bounded K = 3: {t_k3:6.2f} s; "
+              f"ratio any / K=3 = {t_any / t_k3:.2f}")
+
+
 def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("paths", nargs="*", default=[str(ROOT / "rules")])
@@ -55,6 +74,7 @@ def main() -> int:
         print(f"K = {k}: {t:7.2f} s total, {s:7.2f} s solver ({s / t:.2f}), {v}")
     base = times[bounds[0]]
     print("growth: " + ", ".join(f"K={k}: x{times[k] / base:.1f}" for k in bounds))
+    any_vs_bounded(packs)
     try:
         from bench_edits import report as edits_report  # added by the cache/jobs work
     except ImportError:

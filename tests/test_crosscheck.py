@@ -32,9 +32,10 @@ def test_crosscheck_agrees_and_says_which_checks_ran(capsys):
                         "no-such-world": "vacuous", "second-leg-counted": "holds",
                         "travel-rounded": "holds"}
     xc = doc["crosscheck"]
-    assert len(xc["checks"]) == 3
+    assert len(xc["checks"]) == 4
     assert "second solver" in xc["checks"][0] and "cvc5" in xc["checks"][0]
     assert "boundary worlds" in xc["checks"][1] and "replayed" in xc["checks"][2]
+    assert "induction step" in xc["checks"][3]
     c = xc["counts"]
     assert c["obligations"] == 9 and c["second_agree"] == 9 and c["disagreements"] == 0
     assert c["boundary_worlds"] >= 8

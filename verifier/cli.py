@@ -243,7 +243,7 @@ def cmd_replay(args) -> int:
     for o in outcomes:
         counts[o.status] = counts.get(o.status, 0) + 1
     print("summary: " + (", ".join(f"{v} {k}" for k, v in sorted(counts.items())) or "nothing replayed"))
-    return EXIT_OK if all(o.status == "still violated" for o in outcomes) else EXIT_FAIL
+    return EXIT_OK if all(o.status in ("still violated", "still not inductive") for o in outcomes) else EXIT_FAIL
 
 
 def cmd_show(args) -> int:
@@ -354,7 +354,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     r = sub.add_parser("replay", help="re-run archived counterexamples against today's rules",
                        description="For each counterexample file: still violated, now holds, rule "
-                                   "changed or rule gone. Exit 0 when every file is still violated.")
+                                   "changed or rule gone; for each counterexample to induction "
+                                   "(.induction.json): still not inductive, no longer breaks, rule "
+                                   "changed or rule gone. Exit 0 when every file still says what it said.")
     r.add_argument("paths", nargs="*", metavar="PATH", help="counterexample files or directories (default: counterexamples/)")
     r.set_defaults(func=cmd_replay)
 

@@ -10,6 +10,9 @@
     the encoding on the expect and with the verdict (no failing world for a rule that holds, no
     world at all for a vacuous one). This checks the encoding against the simulator.
 (c) Replay of every counterexample and witness, which the engine always does.
+(d) For a rule proved for any number of legs (DESIGN 4.7): the induction step at the depth that
+    proved it, with the lemmas it used, is exported as SMT-LIB and re-solved by cvc5, which must
+    not find a counterexample to induction.
 
 A disagreement turns the rule's verdict into ``error`` (kind ``internal``, exit code 4) with
 both answers in the message. An undecided second solver is recorded, never counted as
@@ -96,6 +99,22 @@ def _second(pack, rule, bound, verdict, timeout) -> tuple[dict, dict, dict, list
     return got, {k: want[k] for k in got}, how, problems
 
 
+def _second_step(pack, rule, proof: dict, timeout, got, want, how, problems) -> None:
+    """(d): the induction step that proved a rule, re-solved by cvc5."""
+    from verifier.induct import plan_with_lemmas
+    from verifier.smt import induction, second
+    lemmas = tuple(pack.rule(x) for x in proof.get("lemmas", ()))
+    plan = plan_with_lemmas(pack, rule, lemmas)
+    text = induction.step_obligation(pack, rule, lemmas, plan, proof["depth"])
+    ans = second.solve_text(text, timeout=min(timeout, 60.0))
+    got["induction"], want["induction"] = ans.status, "unsat"
+    how["induction"] = {"text": ans.how() + (f" ({ans.reason})" if ans.reason else ""),
+                        "cases": ans.cases, "options": ans.options}
+    if ans.status == "sat":
+        problems.append(f"induction step of depth {proof['depth']}: z3 proved it, "
+                        f"{second.version()} finds a counterexample to induction")
+
+
 def _boundary(pack, rule, bound, verdict, count, timeout) -> tuple[int, list]:
     from verifier.smt.concrete import boundary_worlds
     samples = boundary_worlds(pack, rule, bound, count=count, timeout=timeout)
@@ -143,6 +162,8 @@ def crosscheck_results(packs, results, opts, *, boundary: int = 4, second_timeou
                 continue
             rule = pack.rule(r.rule)
             got, want, how, problems = _second(pack, rule, r.bound, r.verdict, timeout)
+            if r.unbounded:
+                _second_step(pack, rule, r.proof, timeout, got, want, how, problems)
             n, more = _boundary(pack, rule, r.bound, r.verdict, boundary, min(timeout, 20.0))
             problems += more
             crosses.append(RuleCross(pack.name, rule.id, r.verdict, got, want, how, n, tuple(problems)))
@@ -154,5 +175,6 @@ def crosscheck_results(packs, results, opts, *, boundary: int = 4, second_timeou
     checks = (f"(a) same obligation, second solver: {second.version()} re-solved the exported SMT-LIB "
               "(an obligation it cannot decide whole is divided into cases that cover every world)",
               f"(b) up to {boundary} boundary worlds per rule replayed in the simulator",
-              "(c) every counterexample and witness replayed in the simulator (as on every check)")
+              "(c) every counterexample and witness replayed in the simulator (as on every check)",
+              f"(d) every induction step that proved a rule for any number of legs re-solved by {second.version()}")
     return new_results, CrossReport(checks, tuple(crosses), second.version())

@@ -50,21 +50,31 @@ def base_bound(pack: Pack, rule: Rule, legs, depth: int) -> int:
 
 def replay(pack: Pack, rule: Rule, lemmas, plan: Plan, cti: dict) -> Replayed:
     """Run a counterexample to induction (solver data: world, state, legs) step by step in the
-    simulator: s0 must be in the domain of states, every leg in scope, the rule true at s0 ..
-    s(k-1) and false at sk, every lemma true throughout."""
+    simulator (see :func:`replay_states`)."""
     from verifier.world.scenario import snapshot_from_flat
-    from verifier.world.sim import Leg
-    from verifier.world.vocab import Running
-    problems = []
     try:
         snap = snapshot_from_flat(cti["world"], cti["state"], plan)
     except (KeyError, ValueError) as exc:
         return Replayed((), (f"the state cannot be read: {exc}",))
-    problems += [f"s0: {p}" for p in snapshot_problems(snap, pack.scope, plan)]
+    return replay_states(pack, rule, lemmas, plan, snap, cti_legs(cti))
+
+
+def cti_legs(cti: dict) -> list:
+    """The legs of a counterexample to induction (solver data) as the simulator's legs."""
+    from verifier.world.sim import Leg
+    from verifier.world.vocab import Running
+    return [Leg(x["cab_change"], Running(x["running"]), x["distance"], x["odometer"])
+            for x in cti["legs"]]
+
+
+def replay_states(pack: Pack, rule: Rule, lemmas, plan: Plan, snap, legs) -> Replayed:
+    """From state ``snap``, run ``legs`` in the simulator: the state must be in the domain of
+    states, every leg in scope, the rule true at s0 .. s(k-1) and false at sk, every lemma
+    true throughout. ``problems`` says what is not so."""
+    problems = [f"s0: {p}" for p in snapshot_problems(snap, pack.scope, plan)]
     views = [SnapView(pack, snap, plan)]
     scope = pack.scope
-    for i, x in enumerate(cti["legs"], 1):
-        leg = Leg(x["cab_change"], Running(x["running"]), x["distance"], x["odometer"])
+    for i, leg in enumerate(legs, 1):
         if not scope.leg_distance[0] <= leg.distance <= scope.leg_distance[1] or leg.odometer < 0:
             problems.append(f"leg {i} outside the scope")
         snap, _ = advance(snap, leg, pack, plan)
@@ -79,8 +89,7 @@ def replay(pack: Pack, rule: Rule, lemmas, plan: Plan, cti: dict) -> Replayed:
                     problems.append(f"lemma {lemma.id} is false at s{i}")
             if i < len(views) - 1 and not holds(rule, v):
                 problems.append(f"the rule is false at s{i}, before the last state")
-        last = views[-1]
-        if holds(rule, last):
+        if holds(rule, views[-1]):
             problems.append(f"the rule holds at s{len(views) - 1}")
     except (KeyError, IndexError, ZeroDivisionError) as exc:
         problems.append(f"the simulator failed: {exc!r}")

@@ -16,7 +16,8 @@ from verifier.world.sim import State, applies, evaluate, scope_problems
 @attrs.frozen
 class Outcome:
     file: str
-    status: str      # still violated, now holds, rule changed, rule gone
+    status: str      # still violated, now holds, rule changed, rule gone; for counterexamples
+                     # to induction: still not inductive, no longer breaks
     detail: str
 
 
@@ -38,16 +39,59 @@ def read_counterexample(path: Path) -> dict:
     return doc
 
 
-def replay_file(path: Path) -> Outcome:
+def _find(path: Path, recorded: Path):
+    """The recorded pack path, relative to where the check ran: from here, then from every
+    folder above the file (an archive keeps the checkout's layout)."""
+    candidates = [recorded] if recorded.is_absolute() else (
+        [Path.cwd() / recorded] + [a / recorded for a in path.resolve().parents])
+    return next((c for c in candidates if c.is_file()), None)
+
+
+def replay_induction(path: Path) -> Outcome:
+    """A counterexample to induction against today's pack: ``still not inductive`` when the
+    recorded path still breaks the induction step (the rule holds at the first state and fails
+    one leg later, every lemma holding), ``no longer breaks it`` otherwise, ``rule changed`` or
+    ``rule gone``."""
+    from verifier.evidence import ctistory
     from verifier.loader import load_pack
+    shown = path.as_posix()
+    doc = ctistory.read_file(path).doc
+    recorded = Path(doc["pack"]["path"])
+    pack_path = _find(path, recorded)
+    if pack_path is None:
+        return Outcome(shown, "rule gone", f"pack {recorded.as_posix()} not found")
+    pack = load_pack(pack_path, recorded.as_posix())
+    rid = doc["rule"]["id"]
+    try:
+        rule, lemmas, _, _, rep = ctistory.rebuild(pack, doc)
+    except ValueError as exc:
+        if str(exc).startswith("rule.id"):
+            return Outcome(shown, "rule gone", f"pack {pack.name} has no rule '{rid}' any more")
+        return Outcome(shown, "rule changed", f"rule {rid}: the recorded path no longer fits "
+                       f"today's pack ({exc})")
+    same = cexfile.rule_hashes(pack, rule) == doc["rule"].get("sha256") and all(
+        cexfile.rule_hashes(pack, lemma) == entry.get("sha256")
+        for lemma, entry in zip(lemmas, doc["lemmas"]))
+    still = not rep.problems
+    verdict = "still breaks the induction step" if still else "no longer breaks the induction step"
+    if not same:
+        return Outcome(shown, "rule changed", f"rule {rid}, a lemma or a definition they use was "
+                       f"edited; the recorded path {verdict}")
+    if still:
+        return Outcome(shown, "still not inductive", f"rule {rid}")
+    return Outcome(shown, "no longer breaks", f"rule {rid} unchanged, but the recorded path "
+                   f"{verdict}: " + "; ".join(rep.problems))
+
+
+def replay_file(path: Path) -> Outcome:
+    from verifier.evidence import ctistory
+    from verifier.loader import load_pack
+    if ctistory.is_induction_file(path):
+        return replay_induction(path)
     shown = path.as_posix()
     doc = read_counterexample(path)
     recorded = Path(doc["pack"]["path"])
-    # the recorded path is relative to where the check ran: look from here, then from every
-    # folder above the file (an archive keeps the checkout's layout)
-    candidates = [recorded] if recorded.is_absolute() else (
-        [Path.cwd() / recorded] + [a / recorded for a in path.resolve().parents])
-    pack_path = next((c for c in candidates if c.is_file()), None)
+    pack_path = _find(path, recorded)
     if pack_path is None:
         return Outcome(shown, "rule gone", f"pack {recorded.as_posix()} not found (looked in the "
                        "working directory and every folder above the file)")

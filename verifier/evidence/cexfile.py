@@ -198,14 +198,15 @@ def induction_path(out_dir: Path, pack: Pack, rule: Rule) -> Path:
     return out_dir / pack.name / f"{rule.id}.induction.json"
 
 
-def build_induction(pack: Pack, rule: Rule, lemmas, outcome, bound: int, solver: str) -> dict:
+def build_induction(pack: Pack, rule: Rule, lemmas, views, plan, legs, *, bound: int,
+                    minimal: bool, solver: str) -> dict:
     """The file of a counterexample to induction: the rule, the lemmas assumed, the first
-    state, the legs after it, and every state's values with the rule's and lemmas' truth."""
+    state, the legs after it (the simulator's), and every state's values (``views``, the
+    simulator's states s0 .. sk) with the rule's and lemmas' truth."""
     from verifier.world.scenario import snapshot_to_data
     from verifier.world.sim import World, applies
-    views, plan = outcome.views, outcome.plan
     first = views[0].snap
-    legs = [world_to_data(World(legs=(leg,)))["legs"][0] for leg in _legs_of(outcome)]
+    legs = [world_to_data(World(legs=(leg,)))["legs"][0] for leg in legs]
     states = []
     for v in views:
         states.append({"derived": state_values(v),
@@ -230,7 +231,7 @@ def build_induction(pack: Pack, rule: Rule, lemmas, outcome, bound: int, solver:
         "verdict": "bounded",
         "bound": bound,
         "depth": len(views) - 1,
-        "minimal": outcome.minimal,
+        "minimal": minimal,
         "scope": pack.scope.as_json(),
         "world": world,
         "state": snapshot_to_data(first, plan),
@@ -241,18 +242,13 @@ def build_induction(pack: Pack, rule: Rule, lemmas, outcome, bound: int, solver:
     }
 
 
-def _legs_of(outcome) -> list:
-    from verifier.world.sim import Leg
-    from verifier.world.vocab import Running
-    return [Leg(x["cab_change"], Running(x["running"]), x["distance"], x["odometer"])
-            for x in outcome.cti["legs"]]
-
-
 def write_induction(out_dir: Path, pack: Pack, rule: Rule, lemmas, outcome, bound: int,
                     solver: str) -> str:
     """Write the counterexample to induction (and its diagram) beside the counterexamples."""
     from verifier.evidence import diagram
-    doc = build_induction(pack, rule, lemmas, outcome, bound, solver)
+    from verifier.induct import cti_legs
+    doc = build_induction(pack, rule, lemmas, outcome.views, outcome.plan, cti_legs(outcome.cti),
+                          bound=bound, minimal=outcome.minimal, solver=solver)
     target = induction_path(out_dir, pack, rule)
     write_atomic(target, dumps(doc))
     diagram.write_induction_beside(target, doc, rule, outcome.views)

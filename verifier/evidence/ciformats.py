@@ -1,13 +1,17 @@
 """Verdicts in the formats CI servers read: JUnit XML and SARIF 2.1.0 (``check --format``).
 
-JUnit: one test case per rule; violated and vacuous are failures, unknown and error are
-errors; a pack that could not be loaded is an error test case of its own.
+JUnit: one test case per rule (and lemma); violated and vacuous are failures, unknown, bounded
+(not proved for any number of legs) and error are errors; a pack that could not be loaded is an
+error test case of its own. Each case says what kind of proof its verdict is.
 
 SARIF 2.1.0 (OASIS standard): one result per violated, vacuous or unknown rule, located at the
 rule's line in its pack, with the counterexample file (and its diagram) as related locations.
 Violated and vacuous results are ``kind: fail, level: error``; unknown is ``kind: open`` (the
 tool could not decide, SARIF 2.1.0 section 3.27.9), whose level must then be ``none``. Rules
 with verdict ``error`` and packs that could not be loaded are tool execution notifications.
+``bounded`` (holds up to its bound, not proved for any number of legs, DESIGN 4.7) is ``open``
+like unknown, with the counterexample to induction as a related location. Every result and
+rule carries the kind of proof in its properties.
 """
 
 from __future__ import annotations
@@ -22,13 +26,20 @@ SARIF_SCHEMA = "https://json.schemastore.org/sarif-2.1.0.json"
 FAILURES = ("violated", "vacuous")
 
 
+def _proof(r) -> str:
+    from verifier.engine import proof_detail, proof_words
+    return proof_words(r) + (f" ({proof_detail(r)})" if proof_detail(r) else "")
+
+
 def _detail(r) -> str:
     lines = [f"{r.title}", f"verdict: {r.verdict}" + (f" ({r.kind})" if r.kind else "")
-             + f", for up to {r.bound} leg{'s' if r.bound != 1 else ''}"]
+             + f", for {_proof(r)}"]
     if r.premise:
         lines.append(f"implicit premise: {r.premise}")
     if r.counterexample:
         lines.append(f"counterexample: {r.counterexample}")
+    if r.induction:
+        lines.append(f"counterexample to induction: {r.induction}")
     if r.message:
         lines.append(r.message)
     return "\n".join(lines)
@@ -42,7 +53,8 @@ def junit(results, diags) -> str:
         suite = ET.SubElement(root, "testsuite", name=p.name, file=p.path)
         st = dict(tests=0, failures=0, errors=0, time=0.0)
         for r in p.results:
-            case = ET.SubElement(suite, "testcase", name=r.rule, classname=p.name, file=p.path,
+            case = ET.SubElement(suite, "testcase", name=("lemma " if r.role == "lemma" else "") + r.rule,
+                                 classname=p.name, file=p.path,
                                  line=str(r.line), time=f"{r.seconds:.3f}")
             st["tests"] += 1
             st["time"] += r.seconds
@@ -51,14 +63,14 @@ def junit(results, diags) -> str:
                 el = ET.SubElement(case, "failure", type=r.verdict,
                                    message=r.message or f"rule {r.rule} is {r.verdict}")
                 el.text = _detail(r)
-            elif r.verdict in ("unknown", "error"):
+            elif r.verdict in ("unknown", "bounded", "error"):
                 st["errors"] += 1
                 el = ET.SubElement(case, "error", type=r.verdict + (f" ({r.kind})" if r.kind else ""),
                                    message=r.message or f"rule {r.rule} is {r.verdict}")
                 el.text = _detail(r)
             else:
                 out = ET.SubElement(case, "system-out")
-                out.text = f"holds for up to {r.bound} leg{'s' if r.bound != 1 else ''}"
+                out.text = f"holds for {_proof(r)}"
         for k in ("tests", "failures", "errors"):
             suite.set(k, str(st[k]))
             tot[k] += st[k]
@@ -103,16 +115,20 @@ def sarif(results, diags) -> dict:
             index[rid] = len(rules)
             rules.append({"id": rid, "name": r.rule,
                           "shortDescription": {"text": r.title},
-                          "properties": {"pack": p.name, "pack_path": p.path, "line": r.line}})
-            if r.verdict in FAILURES or r.verdict == "unknown":
+                          "properties": {"pack": p.name, "pack_path": p.path, "line": r.line,
+                                         "role": r.role, "proof": r.proof}})
+            if r.verdict in FAILURES or r.verdict in ("unknown", "bounded"):
                 fail = r.verdict in FAILURES
                 words = {"violated": "is violated", "vacuous": "is vacuous (no world in scope satisfies its given)",
-                         "unknown": "could not be decided (the solver gave up)"}[r.verdict]
-                text = f"Rule {rid} {words} for up to {r.bound} leg{'s' if r.bound != 1 else ''}"
+                         "unknown": "could not be decided (the solver gave up)",
+                         "bounded": "holds but is not proved for any number of legs"}[r.verdict]
+                text = f"{r.role.capitalize()} {rid} {words}, for up to {r.bound} leg{'s' if r.bound != 1 else ''}"
                 if r.message:
                     text += f": {r.message}"
                 if r.counterexample:
                     text += f". Counterexample: {r.counterexample}"
+                if r.induction:
+                    text += f". Counterexample to induction: {r.induction}"
                 res = {"ruleId": rid, "ruleIndex": index[rid],
                        "kind": "fail" if fail else "open", "level": "error" if fail else "none",
                        "message": {"text": text},
@@ -121,13 +137,20 @@ def sarif(results, diags) -> dict:
                            "verifierRule/v1": hashlib.sha256(rid.encode("utf-8")).hexdigest()},
                        "properties": {"verdict": r.verdict, "bound": r.bound,
                                       "counterexample": r.counterexample,
-                                      "implicit_premise": r.premise}}
+                                      "implicit_premise": r.premise, "proof": r.proof,
+                                      "counterexample_to_induction": r.induction}}
                 if r.counterexample:
                     svg = r.counterexample[:-5] + ".svg" if r.counterexample.endswith(".json") else None
                     related = [{"id": 1, **_loc(r.counterexample), "message": {"text": "counterexample file"}}]
                     if svg:
                         related.append({"id": 2, **_loc(svg), "message": {"text": "counterexample diagram"}})
                     res["relatedLocations"] = related
+                if r.induction:
+                    related = res.setdefault("relatedLocations", [])
+                    related.append({"id": len(related) + 1, **_loc(r.induction),
+                                    "message": {"text": "counterexample to induction"}})
+                    related.append({"id": len(related) + 1, **_loc(r.induction[:-5] + ".svg"),
+                                    "message": {"text": "diagram of the counterexample to induction"}})
                 results_out.append(res)
             elif r.verdict == "error":
                 notes.append({"level": "error",

@@ -154,10 +154,12 @@ def render_induction(doc: dict, rule: Rule, views) -> str:
         last = i == len(views) - 1
         stages.append(_leg_stage(f"{'Then' if i == 1 else 'And'} leg {n + i}"
                                  + (": rule false" if last else ""), leg, d, known))
-    verdict = (f"{doc['pack']['name']} / {rule.id}: not proved for any number of legs "
-               f"(holds up to {doc['bound']}; counterexample to induction, depth {doc['depth']})")
+    verdict = f"{doc['pack']['name']} / {rule.id}: bounded (holds up to {doc['bound']} legs)"
+    note = ("Counterexample to induction: the rule holds at the first state and fails one leg "
+            "later, so it is not proved for any number of legs. The first state need not be one "
+            "a real run reaches: a lemma that excludes it may complete the proof.")
     return _draw(doc, rule, views[-1], stages, verdict,
-                 f"Counterexample to induction of rule {rule.id}")
+                 f"Counterexample to induction of rule {rule.id}", (note,))
 
 
 def _cti_legs(doc: dict) -> list:
@@ -165,7 +167,7 @@ def _cti_legs(doc: dict) -> list:
     return list(world_from_data({"legs": doc["legs"]}).legs)
 
 
-def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str) -> str:
+def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, notes=()) -> str:
     """The diagram over the stages of a train; ``st`` is the last state (its report)."""
     w, g = st.world, st.get
     uid = "d-" + _slug(f"{doc['pack']['name']}-{rule.id}" + ("-induction" if "depth" in doc else ""))
@@ -329,7 +331,7 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str) -> s
 
     # ---- the verdict in words
     fd = cexfile.failed_detail(rule, st)
-    lines = []
+    lines = list(notes)
     if placed:
         lines.append(interval_words(real, g("rbc.min_safe_front"), g("rbc.max_safe_front")))
         whole = whole_train_words(g("actual.rear"), real, g("rbc.min_safe_rear"), g("rbc.max_safe_front"))

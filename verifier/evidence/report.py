@@ -10,7 +10,8 @@ Files in DIR:
 - ``timings.json``: seconds per rule (they vary from run to run).
 - ``index.html``: the page; it shows the timings too.
 - ``counterexamples/<pack>/<rule>.json`` and ``.svg``: copies of the counterexample files and
-  their diagrams, each checked by re-simulation (verifier show) before it is copied.
+  their diagrams, each checked by re-simulation (verifier show) before it is copied; likewise
+  ``<rule>.induction.json`` and ``.induction.svg`` for counterexamples to induction.
 
 A directory that exists, is not empty and has no manifest of ours is never written into.
 """
@@ -32,8 +33,8 @@ from verifier.evidence import cexfile
 from verifier.world.scenario import fmt
 
 FORMAT = "verifier-report/1"
-VERDICT_MARK = {"holds": "PASS", "violated": "FAIL", "vacuous": "FAIL", "unknown": "OPEN",
-                "error": "ERROR"}
+VERDICT_MARK = {"holds": "PASS", "violated": "FAIL", "vacuous": "FAIL", "bounded": "OPEN",
+                "unknown": "OPEN", "error": "ERROR"}
 
 
 def _sha(data: bytes) -> str:
@@ -100,7 +101,7 @@ def traceability(packs, results) -> list:
     verdicts = {(p.name, r.rule): r.verdict for p in results for r in p.results}
     table: dict = {}
     for pack in packs:
-        for rule in pack.rules:
+        for rule in pack.rules + pack.lemmas:
             if (pack.name, rule.id) not in verdicts:
                 continue
             for ref in rule.refs or ("(no clause cited)",):
@@ -115,7 +116,7 @@ def _assumptions(pack) -> dict:
     def formulas(d):
         return {k: {"text": f.text, "source": "default" if f.default else "pack"} for k, f in sorted(d.items())}
     return {"world": pack.scope.as_json(), "q_scale": pack.q_scale, "rounding": pack.rounding,
-            "legs": pack.legs,
+            "legs": "any" if pack.unbounded else pack.legs,
             "params": {k: fmt(v[1]) for k, v in sorted(pack.params.items())},
             "onboard": formulas(pack.onboard), "trackside": formulas(pack.trackside)}
 
@@ -133,10 +134,14 @@ def build(packs, results, diags, opts, *, explained: dict) -> tuple[dict, dict]:
         for r in pr.results:
             counts[r.verdict] += 1
             rule = pack.rule(r.rule)
-            cex = None
+            cex = cti = None
             if r.counterexample and (pr.name, r.rule) in explained:
                 e = explained[(pr.name, r.rule)]
                 cex = {"file": e["file"], "sha256": e["sha256"], "diagram": e["diagram"],
+                       "diagram_sha256": e["diagram_sha256"], "checked_values": e["checked"]}
+            if r.induction and (pr.name, r.rule, "induction") in explained:
+                e = explained[(pr.name, r.rule, "induction")]
+                cti = {"file": e["file"], "sha256": e["sha256"], "diagram": e["diagram"],
                        "diagram_sha256": e["diagram_sha256"], "checked_values": e["checked"]}
             rules.append({
                 "id": r.rule, "title": r.title, "line": r.line,
@@ -146,6 +151,7 @@ def build(packs, results, diags, opts, *, explained: dict) -> tuple[dict, dict]:
                 "error_kind": r.kind or None, "message": r.message, "minimal": r.minimal,
                 "solver": r.solver or SOLVER, "rlimit_budget": budget, "rlimit_used": r.rlimit,
                 "solver_checks": r.checks, "counterexample": cex, "witness": r.witness,
+                "role": r.role, "proof": r.proof, "counterexample_to_induction": cti,
             })
             timings.append({"pack": pr.name, "rule": r.rule, "seconds": round(r.seconds, 3),
                             "cached": r.cached})
@@ -179,6 +185,8 @@ def write_report(out: Path, packs, results, diags, opts) -> Path:
     stories: dict = {}
     for pr in results:
         for r in pr.results:
+            if r.induction:
+                _copy_induction(out, by_pack[pr.name], pr.name, r, explained, stories)
             if not r.counterexample:
                 continue
             src = Path(r.counterexample)
@@ -204,6 +212,41 @@ def write_report(out: Path, packs, results, diags, opts) -> Path:
     return out / "index.html"
 
 
+def _copy_induction(out: Path, pack, name: str, r, explained: dict, stories: dict) -> None:
+    """Check a counterexample to induction by re-simulation, then copy it and its diagram."""
+    from verifier.evidence import ctistory, diagram
+    key = (name, r.rule, "induction")
+    src = Path(r.induction)
+    try:
+        e = ctistory.explain_file(src, pack=pack)
+    except VerifierError as exc:
+        stories[key] = ("error", str(exc), None)
+        return
+    rel = Path("counterexamples") / name / f"{r.rule}.induction.json"
+    data = src.read_bytes()
+    svg = diagram.render_induction(e.doc, e.rule, e.views)
+    cexfile.write_atomic(out / rel, data.decode("utf-8"))
+    cexfile.write_atomic(out / rel.with_suffix(".svg"), svg)
+    explained[key] = {"file": rel.as_posix(), "sha256": _sha(data),
+                      "diagram": rel.with_suffix(".svg").as_posix(),
+                      "diagram_sha256": _sha(svg.encode("utf-8")), "checked": e.checked}
+    stories[key] = ("ok", e.text, svg)
+
+
+def proof_cell(r: dict) -> str:
+    """The kind of proof of a manifest rule, in words."""
+    p = r.get("proof") or {}
+    if p.get("kind") == "induction":
+        lemmas = p.get("lemmas") or []
+        return (f"any number of legs (k-induction, depth {p['depth']}, base case {p['base_legs']} "
+                f"legs" + (f"; lemmas {', '.join(lemmas)}" if lemmas else "") + ")")
+    n = r["bound"]
+    out = f"{n} leg{'s' if n != 1 else ''}"
+    if p.get("induction"):
+        out += f"; not for any number ({p['induction']})"
+    return out
+
+
 # ---- the page --------------------------------------------------------------------------------
 
 CSS = """
@@ -217,7 +260,7 @@ th{background:#ececec}code,pre{font-family:"DejaVu Sans Mono",Consolas,monospace
 pre{background:#f6f6f6;border:1px solid #cfcfcf;padding:8px 10px;white-space:pre-wrap}
 .caution{border:3px double #1a1a1a;padding:10px 14px;background:#fffbe6;margin:12px 0}
 .verdict{font-weight:bold;white-space:nowrap}
-.v-holds{background:#e7f4ea}.v-violated,.v-vacuous{background:#fbe4e6}.v-unknown{background:#fff3d6}
+.v-holds{background:#e7f4ea}.v-violated,.v-vacuous{background:#fbe4e6}.v-unknown,.v-bounded{background:#fff3d6}
 .v-error{background:#efe3f7}
 .mark{display:inline-block;min-width:3.6em;border:1px solid #1a1a1a;padding:0 4px;margin-right:4px;
  text-align:center;font-size:11px;background:#fff}
@@ -261,7 +304,7 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
 
     # rules
     a('<h2 id="rules">Rules</h2>')
-    a('<table id="rule-table"><thead><tr><th>Pack</th><th>Rule</th><th>Verdict</th><th>Bound</th>'
+    a('<table id="rule-table"><thead><tr><th>Pack</th><th>Rule</th><th>Verdict</th><th>Proved for</th>'
       '<th>Time</th><th>Solver</th><th>rlimit used / budget</th><th>Checks</th><th>Cites</th></tr></thead><tbody>')
     for p in manifest["packs"]:
         for r in p["rules"]:
@@ -276,13 +319,15 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
                 (f'<div class="muted">{_e(r["message"])}</div>' if r["message"] and r["verdict"] != "holds" else ""),
                 (f'<div><a href="#cex-{_e(p["name"])}-{_e(r["id"])}">counterexample</a></div>'
                  if r["counterexample"] else ""),
+                (f'<div><a href="#cti-{_e(p["name"])}-{_e(r["id"])}">counterexample to induction</a></div>'
+                 if r["counterexample_to_induction"] else ""),
             ])
             a(f'<tr class="rule v-{_e(r["verdict"])}" id="{_e(anchor)}" data-pack="{_e(p["name"])}" '
               f'data-rule="{_e(r["id"])}" data-verdict="{_e(r["verdict"])}">'
               f'<td>{_e(p["name"])}<div class="muted">{_e(p["path"])}:{r["line"]}</div></td>'
-              f'<td><code>{_e(r["id"])}</code>{text}</td>'
+              f'<td>{"lemma " if r["role"] == "lemma" else ""}<code>{_e(r["id"])}</code>{text}</td>'
               f'<td class="verdict"><span class="mark">{VERDICT_MARK[r["verdict"]]}</span>{_e(verdict)}</td>'
-              f'<td class="num">{r["bound"]} leg{"s" if r["bound"] != 1 else ""}</td>'
+              f'<td>{_e(proof_cell(r))}</td>'
               f'<td class="num">{secs.get((p["name"], r["id"]), 0):.3f} s'
               f'{" (cached verdict, replayed)" if (p["name"], r["id"]) in cached else ""}</td>'
               f'<td>{_e(r["solver"])}</td>'
@@ -331,11 +376,37 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
     if not any_cex:
         a("<p>No rule was violated.</p>")
 
+    # counterexamples to induction
+    ctis = [(p, r) for p in manifest["packs"] for r in p["rules"] if r["verdict"] == "bounded"]
+    if ctis:
+        a('<h2 id="induction">Counterexamples to induction</h2>')
+        a('<p class="muted">Rules that hold up to their bound but were not proved for any number of '
+          "legs. Each file shows a state in which the rule holds and, one leg later, one in which it "
+          "does not; the first state need not be reachable. They are not counterexamples.</p>")
+    for p, r in ctis:
+        key = (p["name"], r["id"], "induction")
+        a(f'<section class="cti" id="cti-{_e(p["name"])}-{_e(r["id"])}">')
+        a(f'<h3>{_e(p["name"])} / {_e(r["id"])}</h3>')
+        if key not in stories:
+            a(f'<p class="muted">{_e(r["message"])}</p></section>')
+            continue
+        status, text, svg = stories[key]
+        if status != "ok":
+            a(f'<p><strong>The file failed its check and is not explained:</strong></p><pre>{_e(text)}</pre></section>')
+            continue
+        c = r["counterexample_to_induction"]
+        a(f'<p>File <a href="{_e(c["file"])}">{_e(c["file"])}</a> (sha256 <code>{_e(c["sha256"])}</code>), '
+          f'diagram <a href="{_e(c["diagram"])}">{_e(c["diagram"])}</a>; {c["checked_values"]} recorded '
+          "values re-checked by simulation.</p>")
+        a(f'<div class="diagram">{svg}</div>')
+        a(f"<pre class=\"story\">{_e(text)}</pre></section>")
+
     # assumptions
     a('<h2 id="assumptions">Assumptions of the model</h2>')
     a("<p>The verdicts quantify over the worlds of the model of the design contract (one balise group, "
       "relative positioning in the LRBG frame, odometry with split over- and under-reading bounds, "
-      "exact arithmetic) inside each pack's scope, up to each rule's bound of movement legs. These are "
+      "exact arithmetic) inside each pack's scope, up to each rule's bound of movement legs, or for any "
+      "number of legs where the table says so (k-induction over the legs, DESIGN 4.7). These are "
       "the scope and error bounds actually used, and the onboard and trackside formulas assessed.</p>")
     for p in manifest["packs"]:
         asm = p["assumptions"]

@@ -496,11 +496,17 @@ def _front_at_detection(st: State) -> tuple:
 def show(file: str, pack_path: str | None = None, svg: str | None = None) -> tuple[str, str | None]:
     """``verifier show``: the checked story, and the diagram written to ``svg`` when asked
     ("" = beside the file, "-" = returned instead of the story)."""
-    from verifier.evidence import diagram
-    e = explain_file(file, pack_path=pack_path)
-    if svg is None:
-        return e.text, None
-    text = diagram.render(e.doc, e.rule, e.state)
+    from verifier.evidence import ctistory, diagram
+    if ctistory.is_induction_file(Path(file)):
+        e = ctistory.explain_file(file, pack_path=pack_path)
+        if svg is None:
+            return e.text, None
+        text = diagram.render_induction(e.doc, e.rule, e.views)
+    else:
+        e = explain_file(file, pack_path=pack_path)
+        if svg is None:
+            return e.text, None
+        text = diagram.render(e.doc, e.rule, e.state)
     if svg == "-":
         return text, None
     target = diagram.svg_path(Path(file)) if svg == "" else Path(svg)

@@ -478,3 +478,28 @@ def bounded_state(pack: Pack, plan: Plan, world: dict, *, timeout: float = 30.0)
         return out
     finally:
         s.pop()
+
+
+def step_obligation(pack: Pack, rule: Rule, lemmas: tuple, plan: Plan, depth: int) -> str:
+    """The induction step at ``depth`` as a portable SMT-LIB 2.6 script for another solver:
+    ``unsat`` means the step is proved (the rule holds for any number of legs, given its base
+    case), ``sat`` that a counterexample to induction exists. The lemmas are asserted."""
+    from verifier.errors import InternalError
+    from verifier.smt import export
+    ctx = z3.Context()
+    path = Path(pack, plan, depth, ctx)
+    facts = [holds_at(v, rule) for v in path.views[:-1]]
+    facts.append(z3.Not(holds_at(path.views[-1], rule)))
+    facts += [holds_at(v, lemma) for lemma in lemmas for v in path.views]
+    s = z3.Solver(ctx=ctx)
+    s.add(*path.constraints, *facts)
+    body = [export.show(export._portable(e)) for e in export.parse_sexprs(s.sexpr())]
+    head = [f"; verifier: induction step of depth {depth} of {rule.role} '{rule.id}' of pack "
+            f"'{pack.name}' ({pack.path}), lemmas: {', '.join(x.id for x in lemmas) or 'none'}",
+            "; unsat: no counterexample to induction (the step is proved)",
+            "(set-info :smt-lib-version 2.6)", f"(set-logic {export.LOGIC})"]
+    text = "\n".join(head + body + ["(check-sat)", "(exit)", ""])
+    bad = export.nonstandard(text)
+    if bad:
+        raise InternalError(f"the induction step of {rule.id} is not portable SMT-LIB: {', '.join(bad)}")
+    return text
