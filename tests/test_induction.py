@@ -30,7 +30,7 @@ from verifier.smt.solve import COMPARED
 from verifier.strategies import worlds
 from verifier.world.scenario import snapshot_from_flat
 from verifier.world.sim import Leg, SnapView, World, advance, snapshot_problems, start
-from verifier.world.vocab import GLOBAL, Direction, Running
+from verifier.world.vocab import GLOBAL, Running
 
 FEW = settings(max_examples=40, deadline=None, database=None, derandomize=True,
                suppress_health_check=list(HealthCheck))
@@ -425,7 +425,6 @@ def test_replay_rejudges_counterexamples_to_induction(few_cti, capsys):
 
 
 def test_ci_formats_and_report_say_what_kind_of_proof(few_cti, capsys):
-    from verifier.engine import check_packs
     pack, _ = few_cti
     capsys.readouterr()
     assert main(["check", "p.toml", "--format", "sarif"]) == 3

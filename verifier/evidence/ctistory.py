@@ -15,7 +15,8 @@ import attrs
 from verifier.check.model import Pack, Rule
 from verifier.errors import Diagnostic, PackError
 from verifier.evidence import cexfile
-from verifier.evidence.story import LOOSE, _count_leaves, _diff, _Doc, _find_pack, comparison_words, m
+from verifier.evidence.story import (LOOSE, _count_leaves, _diff, _Doc, _find_pack, comparison_words, m,
+                                     require_fields)
 from verifier.world.scenario import snapshot_from_data, world_from_data
 
 PREFIX = "verifier-induction/"
@@ -53,19 +54,9 @@ def read_file(path: Path) -> _Doc:
     if not isinstance(doc, dict) or doc.get("format") != cexfile.INDUCTION_FORMAT:
         raise d.error("format", f"{doc.get('format') if isinstance(doc, dict) else None!r} is not "
                                 f"read by this verifier (it reads {cexfile.INDUCTION_FORMAT!r})")
-    for field, kind in (("pack", dict), ("rule", dict), ("lemmas", list), ("world", dict),
-                        ("state", dict), ("legs", list), ("states", list), ("bound", int),
-                        ("depth", int), ("minimal", bool), ("tool", dict), ("caution", str)):
-        if field not in doc:
-            raise d.error(field, "missing from the file")
-        if not isinstance(doc[field], kind) or (kind is int and isinstance(doc[field], bool)):
-            raise d.error(field, f"must be {'a table' if kind is dict else kind.__name__}, "
-                                 f"got {json.dumps(doc[field])}")
-    for field in ("name", "path", "sha256"):
-        if not isinstance(doc["pack"].get(field), str):
-            raise d.error(f"pack.{field}", "missing or not a string")
-    if not isinstance(doc["rule"].get("id"), str):
-        raise d.error("rule.id", "missing or not a string")
+    require_fields(d, (("pack", dict), ("rule", dict), ("lemmas", list), ("world", dict),
+                       ("state", dict), ("legs", list), ("states", list), ("bound", int),
+                       ("depth", int), ("minimal", bool), ("tool", dict), ("caution", str)))
     if not all(isinstance(x, dict) and isinstance(x.get("id"), str) for x in doc["lemmas"]):
         raise d.error("lemmas", "each lemma needs an id")
     return d

@@ -25,7 +25,7 @@ from pathlib import Path
 from verifier.check.model import Rule
 from verifier.evidence import cexfile
 from verifier.evidence.story import (_front_at_detection, comparison_words, interval_words, m,
-                                     value_words, whole_train_words)
+                                     whole_train_words)
 from verifier.lang.ast import LENGTH
 from verifier.world.scenario import fmt
 from verifier.world.sim import State
@@ -139,7 +139,6 @@ def render_induction(doc: dict, rule: Rule, views) -> str:
     the last state's report."""
     from verifier.world.sim import advance
     first = views[0]
-    w = first.world
     known = first.get("passage.seen").word != "unknown"
     n = first.snap.count
     ok = "the rule holds" if len(views) > 1 else ""

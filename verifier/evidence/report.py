@@ -275,6 +275,26 @@ def _e(x) -> str:
     return escape("" if x is None else str(x))
 
 
+def _evidence(a, kind: str, p: dict, r: dict, story, c: dict | None, missing: str) -> None:
+    """One explained evidence file on the page: a counterexample (kind cex) or a counterexample
+    to induction (cti), its diagram and its story; or why there is none."""
+    a(f'<section class="{kind}" id="{kind}-{_e(p["name"])}-{_e(r["id"])}">')
+    a(f'<h3>{_e(p["name"])} / {_e(r["id"])}</h3>')
+    if story is None:
+        a(f'<p class="muted">{_e(missing)}</p></section>')
+        return
+    status, text, svg = story
+    if status != "ok":
+        a(f'<p><strong>The {"counterexample " if kind == "cex" else ""}file failed its check and is '
+          f'not explained:</strong></p><pre>{_e(text)}</pre></section>')
+        return
+    a(f'<p>File <a href="{_e(c["file"])}">{_e(c["file"])}</a> (sha256 <code>{_e(c["sha256"])}</code>), '
+      f'diagram <a href="{_e(c["diagram"])}">{_e(c["diagram"])}</a>; {c["checked_values"]} recorded '
+      "values re-checked by simulation.</p>")
+    a(f'<div class="diagram">{svg}</div>')
+    a(f"<pre class=\"story\">{_e(text)}</pre></section>")
+
+
 def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
     secs = {(t["pack"], t["rule"]): t["seconds"] for t in timings["rules"]}
     cached = {(t["pack"], t["rule"]) for t in timings["rules"] if t.get("cached")}
@@ -358,21 +378,8 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
             if r["verdict"] != "violated":
                 continue
             any_cex = True
-            a(f'<section class="cex" id="cex-{_e(p["name"])}-{_e(r["id"])}">')
-            a(f'<h3>{_e(p["name"])} / {_e(r["id"])}</h3>')
-            if key not in stories:
-                a('<p class="muted">No counterexample file was written (check ran with --no-files).</p></section>')
-                continue
-            status, text, svg = stories[key]
-            if status != "ok":
-                a(f'<p><strong>The counterexample file failed its check and is not explained:</strong></p><pre>{_e(text)}</pre></section>')
-                continue
-            c = r["counterexample"]
-            a(f'<p>File <a href="{_e(c["file"])}">{_e(c["file"])}</a> (sha256 <code>{_e(c["sha256"])}</code>), '
-              f'diagram <a href="{_e(c["diagram"])}">{_e(c["diagram"])}</a>; {c["checked_values"]} recorded '
-              "values re-checked by simulation.</p>")
-            a(f'<div class="diagram">{svg}</div>')
-            a(f"<pre class=\"story\">{_e(text)}</pre></section>")
+            _evidence(a, "cex", p, r, stories.get(key), r["counterexample"],
+                      "No counterexample file was written (check ran with --no-files).")
     if not any_cex:
         a("<p>No rule was violated.</p>")
 
@@ -384,22 +391,8 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
           "legs. Each file shows a state in which the rule holds and, one leg later, one in which it "
           "does not; the first state need not be reachable. They are not counterexamples.</p>")
     for p, r in ctis:
-        key = (p["name"], r["id"], "induction")
-        a(f'<section class="cti" id="cti-{_e(p["name"])}-{_e(r["id"])}">')
-        a(f'<h3>{_e(p["name"])} / {_e(r["id"])}</h3>')
-        if key not in stories:
-            a(f'<p class="muted">{_e(r["message"])}</p></section>')
-            continue
-        status, text, svg = stories[key]
-        if status != "ok":
-            a(f'<p><strong>The file failed its check and is not explained:</strong></p><pre>{_e(text)}</pre></section>')
-            continue
-        c = r["counterexample_to_induction"]
-        a(f'<p>File <a href="{_e(c["file"])}">{_e(c["file"])}</a> (sha256 <code>{_e(c["sha256"])}</code>), '
-          f'diagram <a href="{_e(c["diagram"])}">{_e(c["diagram"])}</a>; {c["checked_values"]} recorded '
-          "values re-checked by simulation.</p>")
-        a(f'<div class="diagram">{svg}</div>')
-        a(f"<pre class=\"story\">{_e(text)}</pre></section>")
+        _evidence(a, "cti", p, r, stories.get((p["name"], r["id"], "induction")),
+                  r["counterexample_to_induction"], r["message"])
 
     # assumptions
     a('<h2 id="assumptions">Assumptions of the model</h2>')

@@ -166,9 +166,21 @@ def read_file(path: Path) -> _Doc:
     if int(version) != mine:
         raise d.error("format", f"format version {int(version)} is not read by this verifier "
                                 f"(it reads {cexfile.FORMAT!r})")
-    for field, kind in (("pack", dict), ("rule", dict), ("world", dict), ("derived", dict),
-                        ("bound", int), ("verdict", str), ("minimal", bool), ("scope", dict),
-                        ("tool", dict), ("caution", str)):
+    require_fields(d, (("pack", dict), ("rule", dict), ("world", dict), ("derived", dict),
+                       ("bound", int), ("verdict", str), ("minimal", bool), ("scope", dict),
+                       ("tool", dict), ("caution", str)))
+    if not isinstance(doc["tool"].get("solver"), str):
+        raise d.error("tool.solver", "missing or not a string")
+    if doc["verdict"] != "violated":
+        raise d.error("verdict", f"is {doc['verdict']!r}; a counterexample file records a violated rule")
+    return d
+
+
+def require_fields(d: _Doc, fields) -> None:
+    """Each (field, type) must be in the file with that type; then the pack's name, path and
+    sha256 and the rule's id must be strings."""
+    doc = d.doc
+    for field, kind in fields:
         if field not in doc:
             raise d.error(field, "missing from the file")
         if not isinstance(doc[field], kind) or (kind is int and isinstance(doc[field], bool)):
@@ -179,11 +191,6 @@ def read_file(path: Path) -> _Doc:
             raise d.error(f"pack.{field}", "missing or not a string")
     if not isinstance(doc["rule"].get("id"), str):
         raise d.error("rule.id", "missing or not a string")
-    if not isinstance(doc["tool"].get("solver"), str):
-        raise d.error("tool.solver", "missing or not a string")
-    if doc["verdict"] != "violated":
-        raise d.error("verdict", f"is {doc['verdict']!r}; a counterexample file records a violated rule")
-    return d
 
 
 def _find_pack(d: _Doc, path: Path, pack_path: str | None) -> Pack:

@@ -26,11 +26,11 @@ from verifier.check.model import Pack, Rule
 from verifier.check.unbounded import Plan
 from verifier.lang.ast import BOOL, COUNT, DIRECTION, RUNNING
 from verifier.smt import solve
+from verifier.smt.concrete import _plain as _plain_value
 from verifier.smt.encode import OVERRIDE, _Terms
-from verifier.world.vocab import LEG, Direction, Running
+from verifier.world.vocab import LEG
 
 _SORT = {"all": "bool", "any": "bool", "count": "int"}
-_DIR_WORD = {1: "nominal", -1: "reverse", 0: "unknown"}
 
 
 def _sort_of(ty: str) -> str:
@@ -258,25 +258,10 @@ def step(pack: Pack, rule: Rule, lemmas: tuple, plan: Plan, depth: int, *,
 def _ladder(ses, path: Path) -> bool:
     """The ladder of DESIGN 6 over a path: fewest legs before s0, fewest cab changes, fewest
     balises; errors to 0; inputs least on the grid; then s0's own values (least, or least
-    magnitude), Booleans false first, directions nominal first."""
-    I, V, K = path.inputs, path.state_vars, path.K
-    L = solve._Steps(ses)
-    try:
-        L.least_int(V["legs.count"], 0)
-        L.least_int(V["cab_changes"], 0)
-        L.least_int(I["lrbg.balises"], 1)
-        errors = [I["lrbg.offset"], I["passage.detect_error"]] + [
-            I[f"legs.{i}.odometer"] - I[f"legs.{i}.distance"] for i in range(1, K + 1)]
-        zeroed = [L.try_fix(e == 0) for e in errors]
-        L.least_int(I["lrbg.read"], 1)
-        L.least_int(I["lrbg.locacc"], 0)
-        L.least_on_grid(I["train.length"], Fraction(0))
-        L.least_on_grid(I["train.antenna"], Fraction(0))
-        for i in range(1, K + 1):
-            L.least_on_grid(I[f"legs.{i}.distance"], Fraction(0))
-        for e, z in zip(errors, zeroed):
-            if not z:
-                L.least_magnitude(e)
+    magnitude; Booleans false first, directions nominal first); then the inputs' Booleans."""
+    V = path.state_vars
+
+    def state(L) -> None:
         for name in ("actual.travelled", "est.travelled", "actual.over_reading", "actual.under_reading"):
             L.least_on_grid(V[name], Fraction(0))
         for name in ("actual.front", "est.front_passage"):
@@ -296,22 +281,8 @@ def _ladder(ses, path: Path) -> bool:
                 L.least_magnitude(c)
         L.try_fix(V["actual.orientation"] == 1)
         L.try_fix(V["actual.motion"] == 1)
-        L.try_fix(z3.Not(I["lrbg.linked"]))
-        for i in range(1, K + 1):
-            L.try_fix(z3.Not(I[f"legs.{i}.cab_change"]))
-        L.try_fix(I["passage.direction"] == 1)
-        L.try_fix(I["passage.running"])
-        for i in range(1, K + 1):
-            L.try_fix(I[f"legs.{i}.running"])
-    except solve._Unknown:
-        return False
-    return True
 
-
-def _plain(v, sort_ty: str):
-    if sort_ty == "bool":
-        return z3.is_true(v)
-    return solve._fraction(v)
+    return solve.ladder(ses, path.inputs, path.K, V["legs.count"], V["cab_changes"], state)
 
 
 def read_path(model, path: Path) -> dict:
@@ -375,16 +346,6 @@ def _fix(path: Path, data: dict) -> list:
     return a
 
 
-def _value(v, ty: str):
-    if ty == "Bool":
-        return z3.is_true(v)
-    if ty == "Running":
-        return "forward" if z3.is_true(v) else "backward"
-    if ty == "Direction":
-        return _DIR_WORD[v.as_long()]
-    return solve._fraction(v)
-
-
 def evaluate_path(pack: Pack, plan: Plan, data: dict, names, rules=(), *, timeout: float = 30.0):
     """The encoding's values at every state of one path given as plain data: a list (s0 ..
     sk) of {name: value} for ``names`` (vocabulary names), with ``rule:<id>:given`` and
@@ -415,7 +376,7 @@ def evaluate_path(pack: Pack, plan: Plan, data: dict, names, rules=(), *, timeou
     m = s.model()
     out = [dict() for _ in path.views]
     for i, key, ty, term in wanted:
-        out[i][key] = _value(m.evaluate(term, model_completion=True), ty)
+        out[i][key] = _plain_value(m.evaluate(term, model_completion=True), ty)
     return out
 
 
@@ -430,18 +391,6 @@ def bounded_accumulators(enc, plan: Plan) -> dict:
             out[(n, j)] = enc.expr(rep, {OVERRIDE: over})
     return out
 
-
-def state_words(state: dict) -> dict:
-    """s0's orientation and motion as words (they are signs in the solver)."""
-    out = dict(state)
-    for k in ("actual.orientation", "actual.motion"):
-        if k in out:
-            out[k] = _DIR_WORD[int(out[k])]
-    return out
-
-
-__all__ = ["Path", "View", "Step", "step", "read_path", "evaluate_path", "bounded_accumulators",
-           "holds_at", "state_words", "Direction", "Running"]
 
 
 def bounded_state(pack: Pack, plan: Plan, world: dict, *, timeout: float = 30.0) -> dict:

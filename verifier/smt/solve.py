@@ -182,12 +182,19 @@ class _Steps:
 
 def _ladder(ses: _Session, enc: Encoding) -> bool:
     """Fix every input by the fixed ladder of DESIGN 6. Returns whether every step was decided."""
-    T, I, K = enc.terms, enc.inputs, enc.K
+    return ladder(ses, enc.inputs, enc.K, enc.terms["legs.count"], enc.terms["cab_changes"])
+
+
+def ladder(ses: _Session, I: dict, K: int, count, cab_changes, more=None) -> bool:
+    """The ladder of DESIGN 6 over the inputs ``I`` of up to ``K`` legs, with ``count`` and
+    ``cab_changes`` the terms its first step minimises; ``more(steps)`` fixes further values
+    (a state's, for a counterexample to induction) after the inputs and before the Booleans.
+    Returns whether every step was decided."""
     L = _Steps(ses)
     try:
         # (1) fewest legs, then fewest cab changes, then fewest balises
-        L.least_int(T["legs.count"], 0)
-        L.least_int(T["cab_changes"], 0)
+        L.least_int(count, 0)
+        L.least_int(cab_changes, 0)
         L.least_int(I["lrbg.balises"], 1)
         # (2) each error to 0 where possible
         errors = [I["lrbg.offset"], I["passage.detect_error"]] + [
@@ -203,6 +210,8 @@ def _ladder(ses: _Session, enc: Encoding) -> bool:
         for e, z in zip(errors, zeroed):
             if not z:
                 L.least_magnitude(e)
+        if more is not None:
+            more(L)
         # (4) Booleans false first, enums in declaration order
         L.try_fix(z3.Not(I["lrbg.linked"]))
         for i in range(1, K + 1):
