@@ -6,6 +6,7 @@ from pathlib import Path
 import pytest
 
 ROOT = Path(__file__).resolve().parent.parent
+pytest_plugins = ["pytester"]   # the pytest plugin of verifier is tested in subprocesses
 
 
 def pack_text(rules: str, *, name: str = "t", legs: int = 2, world: str = "", onboard: str = "",

@@ -231,9 +231,83 @@ def cmd_selftest(args) -> int:
     return EXIT_OK if data["passed"] else EXIT_FAIL
 
 
+def _impl_table(rep) -> str:
+    from verifier.implcheck.runner import describe_sources
+    lines = [f"implementation {rep.onboard.spec} ({rep.onboard.module_file or 'no file'}, sha256 "
+             f"{rep.onboard.module_sha256[:16]}...)"
+             + (f" with trackside {rep.trackside.spec}" if rep.trackside else "")
+             + f" against pack {rep.pack} ({rep.path})"]
+    width = max((len(r.rule) for r in rep.rules), default=10)
+    for r in rep.rules:
+        lines.append(f"  {r.status:<11} {r.rule:<{width}}  {r.worlds} worlds ({describe_sources(r.sources)}), "
+                     f"given held in {r.applied}")
+        if r.status == "failed":
+            n = len(r.world.legs)
+            lines.append(f"              found by {r.found_by}; shrunk to {n} leg{'s' if n != 1 else ''}"
+                         + (f" (from {r.legs_before})" if r.legs_before != n else ""))
+            if r.counterexample:
+                lines.append(f"              counterexample: {r.counterexample}")
+        if r.message:
+            lines.append(f"              {r.message}")
+    for f in rep.findings:
+        lines.append(f"  contract    {f.kind}: {f.message}" + (f" (at {f.where})" if f.where else ""))
+        if f.file:
+            lines.append(f"              world: {f.file} (found by {f.found_by})")
+    counts: dict = {}
+    for r in rep.rules:
+        counts[r.status] = counts.get(r.status, 0) + 1
+    lines.append(f"summary: {', '.join(f'{counts.get(k, 0)} {k}' for k in ('passed', 'failed', 'not checked'))}; "
+                 f"{len(rep.findings)} contract finding{'s' if len(rep.findings) != 1 else ''}; "
+                 f"{rep.calls} calls of the implementation in {rep.seconds:.1f} s")
+    lines.append(f"note: {CAUTION}")
+    return "\n".join(lines)
+
+
+def cmd_test(args) -> int:
+    """verifier test PACK --impl MODULE:FUNCTION (logic in verifier.implcheck)."""
+    from verifier.cache import Cache
+    from verifier.implcheck import interface, runner
+    from verifier.loader import load_pack
+    reports = []
+    progress = _Progress(sys.stderr.isatty() and not args.json)
+    for path in args.packs:
+        pack = load_pack(path)
+        _print_diags(pack.warnings)
+        onboard = args.impl or pack.implementation.get("onboard")
+        if not onboard:
+            raise UsageError(f"no implementation for {pack.path}: give --impl MODULE:FUNCTION or set "
+                             "onboard in its [implementation] table")
+        search = tuple(args.path or ()) + tuple(pack.implementation.get("path", ()))
+        loaded = interface.load(onboard, search)
+        ts = args.trackside_impl or pack.implementation.get("trackside")
+        trackside = interface.load(ts, search) if ts else None
+        opts = runner.ImplOptions(
+            max_examples=args.max_examples, seed=args.seed, smt=not args.no_smt,
+            hypothesis=not args.no_hypothesis, out=None if args.no_files else Path(args.out),
+            call_timeout=args.call_timeout, legs=args.legs, rules=tuple(args.rule or ()),
+            cache=None if args.no_cache else Cache(warn=lambda w: print(f"verifier: warning: {w}", file=sys.stderr)))
+        if opts.rules:
+            unknown = [r for r in opts.rules if r not in {x.id for x in pack.rules}]
+            if unknown:
+                from verifier.errors import suggest
+                raise UsageError(f"pack {pack.name} has no rule '{unknown[0]}'"
+                                 + suggest(unknown[0], [x.id for x in pack.rules]))
+        try:
+            rep = runner.check(pack, loaded, trackside, opts, progress=progress.say)
+        finally:
+            progress.clear()
+        reports.append(rep)
+    if args.json:
+        print(json.dumps({"implementations": [r.as_json() for r in reports]}, indent=2, sort_keys=True))
+    else:
+        print("\n".join(_impl_table(r) for r in reports))
+    codes = [r.exit_code() for r in reports]
+    return EXIT_FAIL if EXIT_FAIL in codes else max(codes, default=EXIT_OK)
+
+
 def cmd_replay(args) -> int:
     from verifier.replay import replay_paths
-    outcomes = replay_paths(args.paths or ["counterexamples"])
+    outcomes = replay_paths(args.paths or ["counterexamples"], impl=args.impl, search=tuple(args.path or ()))
     width = max((len(o.file) for o in outcomes), default=10)
     for o in outcomes:
         print(f"{o.status:<15} {o.file:<{width}}  {o.detail}")
@@ -243,7 +317,8 @@ def cmd_replay(args) -> int:
     for o in outcomes:
         counts[o.status] = counts.get(o.status, 0) + 1
     print("summary: " + (", ".join(f"{v} {k}" for k, v in sorted(counts.items())) or "nothing replayed"))
-    return EXIT_OK if all(o.status in ("still violated", "still not inductive") for o in outcomes) else EXIT_FAIL
+    return EXIT_OK if all(o.status in ("still violated", "still not inductive", "still breaks")
+                          for o in outcomes) else EXIT_FAIL
 
 
 def cmd_show(args) -> int:
@@ -352,12 +427,48 @@ def build_parser() -> argparse.ArgumentParser:
     st.add_argument("--profile", choices=("ci", "thorough"), help="validation profile (default: VERIFIER_PROFILE or ci)")
     st.set_defaults(func=cmd_selftest)
 
+    t = sub.add_parser("test", help="check your own implementation against a rule pack",
+                       description="Use a rule pack as the test oracle of your implementation: worlds "
+                                   "from the solver (where each rule is tight, and its witness), from "
+                                   "archived counterexamples and from Hypothesis go through your "
+                                   "onboard function (docs/implementations.md); every rule is checked "
+                                   "on what it returns, the rest of the world from the simulator. A "
+                                   "failure is made minimal and written as a counterexample file. Exit "
+                                   "code: 0 every rule passed; 1 a rule failed or the implementation "
+                                   "broke the interface; 2 bad input; 3 some rule could not be checked.")
+    t.add_argument("packs", nargs="+", metavar="PACK")
+    t.add_argument("--impl", metavar="MODULE:FUNCTION", help="the onboard implementation (default: "
+                   "the pack's [implementation] onboard)")
+    t.add_argument("--trackside-impl", metavar="MODULE:FUNCTION", help="a trackside implementation "
+                   "(default: the pack's [implementation] trackside, else the pack's trackside formulas)")
+    t.add_argument("--path", action="append", metavar="DIR", help="put DIR on the import path (repeatable)")
+    t.add_argument("--rule", action="append", metavar="ID", help="check only this rule (repeatable)")
+    t.add_argument("--max-examples", type=int, default=200, metavar="N",
+                   help="Hypothesis examples per rule (default 200)")
+    t.add_argument("--seed", type=int, metavar="N", help="Hypothesis seed (default: a fixed one, so "
+                   "that runs repeat)")
+    t.add_argument("--legs", type=int, metavar="K", help="legs of generated worlds (default: the "
+                   "rule's bound; 6 for legs = \"any\")")
+    t.add_argument("--no-smt", action="store_true", help="no worlds from the solver")
+    t.add_argument("--no-hypothesis", action="store_true", help="no worlds from Hypothesis")
+    t.add_argument("--call-timeout", type=float, default=5.0, metavar="SECONDS",
+                   help="time limit per call of the implementation (default 5)")
+    t.add_argument("--out", default="counterexamples", metavar="DIR",
+                   help="where counterexample files go (DIR/<pack>/impl/<module.function>/)")
+    t.add_argument("--no-files", action="store_true", help="write no files")
+    t.add_argument("--no-cache", action="store_true", help="do not use .verifier-cache/ for the solver's witnesses")
+    t.add_argument("--json", action="store_true", help="print one JSON object")
+    t.set_defaults(func=cmd_test)
+
     r = sub.add_parser("replay", help="re-run archived counterexamples against today's rules",
                        description="For each counterexample file: still violated, now holds, rule "
                                    "changed or rule gone; for each counterexample to induction "
                                    "(.induction.json): still not inductive, no longer breaks, rule "
                                    "changed or rule gone. Exit 0 when every file still says what it said.")
     r.add_argument("paths", nargs="*", metavar="PATH", help="counterexample files or directories (default: counterexamples/)")
+    r.add_argument("--impl", metavar="MODULE:FUNCTION", help="replay counterexamples of an "
+                   "implementation with this one (default: the one each file records)")
+    r.add_argument("--path", action="append", metavar="DIR", help="put DIR on the import path (repeatable)")
     r.set_defaults(func=cmd_replay)
 
     s = sub.add_parser("simulate", help="evaluate one hand-written world exactly",

@@ -83,12 +83,20 @@ def replay_induction(path: Path) -> Outcome:
                    f"{verdict}: " + "; ".join(rep.problems))
 
 
-def replay_file(path: Path) -> Outcome:
+def replay_file(path: Path, impl: str | None = None, search: tuple = ()) -> Outcome:
     from verifier.evidence import ctistory
     from verifier.loader import load_pack
     if ctistory.is_induction_file(path):
         return replay_induction(path)
     shown = path.as_posix()
+    try:
+        head = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, json.JSONDecodeError):
+        head = None
+    if isinstance(head, dict) and (head.get("format") == "verifier-contract/1" or "implementation" in head):
+        from verifier.implcheck.replay import replay_impl_file
+        pack_path = _find(path, Path(str(head.get("pack", {}).get("path", ""))))
+        return replay_impl_file(path, head, pack_path, impl, search)
     doc = read_counterexample(path)
     recorded = Path(doc["pack"]["path"])
     pack_path = _find(path, recorded)
@@ -118,7 +126,9 @@ def replay_file(path: Path) -> Outcome:
     return Outcome(shown, "now holds", f"rule {rid} unchanged, but the recorded world no longer violates it (tool or model changed)")
 
 
-def replay_paths(paths) -> list[Outcome]:
+def replay_paths(paths, impl: str | None = None, search: tuple = ()) -> list[Outcome]:
+    """Re-judge every file under ``paths``; counterexamples of an implementation are replayed
+    with ``impl`` (module:function) when given, else with the one they record."""
     files = []
     for p in map(Path, paths):
         if p.is_dir():
@@ -127,4 +137,4 @@ def replay_paths(paths) -> list[Outcome]:
             files.append(p)
         else:
             raise PackError([Diagnostic(p.as_posix(), 1, 1, "no such file or directory")])
-    return [replay_file(f) for f in files]
+    return [replay_file(f, impl, search) for f in files]

@@ -59,6 +59,7 @@ class Pack:
     warnings: tuple = ()
     unbounded: bool = False     # [pack] legs = "any"
     lemmas: tuple = ()          # Rule objects with role "lemma", in file order
+    implementation: dict = attrs.field(factory=dict, hash=False)   # [implementation] (verifier test)
 
     def rule(self, rule_id: str) -> Rule:
         """The rule or lemma with this id."""

@@ -640,4 +640,4 @@ def _check_pack(raw: RawPack) -> Pack:
                 raw.q_scale, raw.rounding, trackside, _topo(raw.trackside, graph, "trackside"),
                 tuple(r for r in rules if r.role == "rule"),
                 tuple(sorted(warnings, key=lambda d: (d.line, d.column))), raw.unbounded,
-                tuple(r for r in rules if r.role == "lemma"))
+                tuple(r for r in rules if r.role == "lemma"), dict(raw.implementation))

@@ -19,7 +19,7 @@ from pathlib import Path
 import attrs
 
 from verifier.check.model import Pack, Rule
-from verifier.errors import Diagnostic, PackError
+from verifier.errors import Diagnostic, PackError, VerifierError
 from verifier.evidence import cexfile
 from verifier.lang.ast import LENGTH
 from verifier.world.scenario import fmt, world_from_data
@@ -271,12 +271,18 @@ def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | No
     if not len(world.legs) <= bound <= 8:
         raise d.error("bound", f"is {bound}, but the world has {len(world.legs)} legs (the bound "
                                "must be at least that and at most 8)")
-    st = State(pack, world)
     try:
-        fresh = cexfile.build(pack, rule, st, verdict="violated", bound=bound,
-                              solver=doc["tool"]["solver"], minimal=doc["minimal"])
+        if "implementation" in doc:     # a counterexample of a user's implementation
+            from verifier.implcheck.replay import fresh_doc
+            fresh, st = fresh_doc(pack, rule, doc)
+        else:
+            st = State(pack, world)
+            fresh = cexfile.build(pack, rule, st, verdict="violated", bound=bound,
+                                  solver=doc["tool"]["solver"], minimal=doc["minimal"])
     except (IndexError, ZeroDivisionError) as exc:
         raise d.error("world", f"the recorded world cannot be simulated under the rule: {exc}") from None
+    except VerifierError as exc:
+        raise d.error("implementation", str(exc)) from None
     diffs: list = []
     for key in sorted(set(fresh) | set(doc)):
         if key in LOOSE:
@@ -354,7 +360,8 @@ def _dir_words(d) -> str:
     return {"nominal": "nominal (increasing N_PIG)", "reverse": "reverse (decreasing N_PIG)"}.get(d.word, d.word)
 
 
-def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, checked: int) -> str:
+def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, checked: int,
+               checked_line: str | None = None) -> str:
     w, g = st.world, st.get
     out: list[str] = []
     add = out.append
@@ -424,6 +431,10 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
         f"{m(g('est.travelled'))}; reading error bounds over {m(g('est.bound_over'))}, "
         f"under {m(g('est.bound_under'))}.")
     add("")
+    if doc.get("implementation"):
+        spec = doc["implementation"]["onboard"]["spec"]
+        add(f"The position report below is the one {spec} returned in this world; the real train and "
+            "the estimate above are the simulator's (DESIGN 4.2, 4.3).")
     add("The position report")
     add(f"  As lengths: D_LRBG {m(g('report.d_lrbg'))} on the {g('report.q_dlrbg').word} side, "
         f"L_DOUBTOVER {m(g('report.l_doubtover'))}, L_DOUBTUNDER {m(g('report.l_doubtunder'))}, "
@@ -462,7 +473,8 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
     elif f:
         add(f"  The first false part of expect is `{f['text']}`, which is false in this world.")
     add("")
-    add(f"Checked: all {checked} recorded values agree with a fresh exact simulation of the recorded "
+    add(checked_line or
+        f"Checked: all {checked} recorded values agree with a fresh exact simulation of the recorded "
         f"world under {pack.path} (tool that wrote the file: verifier {doc['tool'].get('verifier', '?')}, "
         f"{doc['tool'].get('solver', '?')}).")
     add(f"Caution: {cexfile.CAUTION}")

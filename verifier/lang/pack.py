@@ -38,6 +38,7 @@ TABLES = {
     "trackside": set(vocab.TRACKSIDE_OUTPUTS),
     "rule": {"id", "title", "given", "expect", "refs", "legs", "note"},
     "lemma": {"id", "title", "given", "expect", "refs", "note"},
+    "implementation": {"onboard", "trackside", "path"},
 }
 
 
@@ -87,6 +88,7 @@ class RawPack:
     diagnostics: tuple = ()   # errors and warnings of the loading stage
     unbounded: bool = False   # [pack] legs = "any"
     lemmas: tuple = ()        # RawRule with role "lemma", in file order
+    implementation: dict = attrs.field(factory=dict)   # [implementation]: onboard, trackside, path
 
 
 class _Collector:
@@ -358,6 +360,26 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     _unknown_keys(c, ("trackside",), ts_t, TABLES["trackside"], "[trackside]")
     trackside = _design(c, "trackside", ts_t, vocab.TRACKSIDE_OUTPUTS, vocab.DEFAULT_TRACKSIDE)
 
+    impl_t = tables.get("implementation", {})
+    _unknown_keys(c, ("implementation",), impl_t, TABLES["implementation"], "[implementation]")
+    implementation = {}
+    for k in ("onboard", "trackside"):
+        if k in impl_t:
+            v = impl_t[k]
+            if not isinstance(v, str) or v.count(":") != 1 or not all(v.split(":")):
+                c.at(("implementation", k), f"implementation {k} must be \"module:function\", got {v!r}")
+            else:
+                implementation[k] = v
+    if "path" in impl_t:
+        v = impl_t["path"]
+        v = [v] if isinstance(v, str) else v
+        if not (isinstance(v, list) and all(isinstance(x, str) for x in v)):
+            c.at(("implementation", "path"), "implementation path must be a folder or a list of folders "
+                 "(relative to the pack file)")
+        else:
+            base = Path(shown).parent
+            implementation["path"] = tuple((base / x).as_posix() for x in v)
+
     seen_ids: dict[str, tuple] = {}
     raw_rules = data.get("rule", []) if isinstance(data.get("rule", []), list) else []
     if not raw_rules and "pack" in data:
@@ -372,7 +394,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     # Errors found so far travel with the pack: the checker adds its own and reports them all.
     return RawPack(shown, text, sha256, name, pack_t.get("title", ""), description, legs, scope,
                    params, lets, onboard, q_scale, rounding, trackside, tuple(rules), src,
-                   tuple(c.diags), unbounded, tuple(lemmas))
+                   tuple(c.diags), unbounded, tuple(lemmas), implementation)
 
 
 def _legs(c: _Collector, key: tuple, value, what: str) -> tuple:
