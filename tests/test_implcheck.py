@@ -279,10 +279,21 @@ def test_the_fixture_checks_a_callable_with_the_profile_settings(pytester):
         def test_reference(verifier_rules):
             verifier_rules.check(kestrel_onboard.report, rules=("one-cab-change-flips-orientation",))
 
+        # each seeded bug, through the fixture (the solver's worlds are on, as by default)
         @pytest.mark.verifier_pack({str(ROOT / "rules" / "position-report.toml")!r})
-        def test_buggy(verifier_rules):
+        def test_buggy_cab(verifier_rules):
             verifier_rules.check(kestrel_onboard_buggy.report_cab, rules=("one-cab-change-flips-orientation",))
+
+        @pytest.mark.verifier_pack({str(ROOT / "rules" / "confidence-interval.toml")!r})
+        def test_buggy_round(verifier_rules):
+            verifier_rules.check(kestrel_onboard_buggy.report_round, rules=("rounding-never-shrinks-interval",))
+
+        @pytest.mark.verifier_pack({str(ROOT / "rules" / "position-report.toml")!r})
+        def test_buggy_side(verifier_rules):
+            verifier_rules.check(kestrel_onboard_buggy.report_side, rules=("terminus-reversal-front-side",))
     """)
     res = pytester.runpytest_subprocess("-p", "no:cacheprovider")
-    res.assert_outcomes(passed=1, failed=1)
-    assert "one-cab-change-flips-orientation failed" in res.stdout.str()
+    res.assert_outcomes(passed=1, failed=3)
+    out = res.stdout.str()
+    for rid in ("one-cab-change-flips-orientation", "rounding-never-shrinks-interval", "terminus-reversal-front-side"):
+        assert f"{rid} failed" in out
