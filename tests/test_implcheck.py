@@ -297,3 +297,26 @@ def test_the_fixture_checks_a_callable_with_the_profile_settings(pytester):
     out = res.stdout.str()
     for rid in ("one-cab-change-flips-orientation", "rounding-never-shrinks-interval", "terminus-reversal-front-side"):
         assert f"{rid} failed" in out
+
+
+def test_a_trackside_implementation_is_checked_too(write_pack):
+    # the reference trackside (SUBSET-026 3.6.4.1.5) keeps the envelope; one that applies the
+    # doubts the wrong way round breaks it as soon as they differ. They differ when the over- and
+    # under-reading bounds do (here 5 m + 5 % against 1 m + 1 %): running front first the
+    # over-reading bound lies behind the estimate, so swapped, the real front of an over-read run
+    # falls outside. One leg is enough (no leg: both doubts are Q_LOCACC + their fixed parts,
+    # and the detection error alone stays within the smaller one)
+    from conftest import pack_text, rule_toml
+    envelope = ("along(report.q_dirlrbg, actual.front - rbc.min_safe_front) >= 0 m and "
+                "along(report.q_dirlrbg, rbc.max_safe_front - actual.front) >= 0 m")
+    pack = load_pack(write_pack(pack_text(rule_toml("inside", envelope, "rbc.placed"), world="""
+        odometry_over = { fixed = "5 m", rate = "5 %" }
+        odometry_under = { fixed = "1 m", rate = "1 %" }
+        """)))
+    good = check(pack, impl("kestrel_onboard:report"), impl("kestrel_trackside:place"),
+                 ImplOptions(out=None, max_examples=50))
+    assert [r.status for r in good.rules] == ["passed"] and not good.findings
+    bad = check(pack, impl("kestrel_onboard:report"), impl("kestrel_trackside:place_swapped"),
+                ImplOptions(out=None, max_examples=50))
+    r = bad.rules[0]
+    assert r.status == "failed" and len(r.world.legs) == 1

@@ -210,8 +210,9 @@ def cmd_mutate(args) -> int:
     """verifier mutate PACK... (logic in verifier.mutate)."""
     from verifier.loader import load_pack
     from verifier.mutate import run_catalogue
+    from verifier.parallel import check_jobs
     packs = [load_pack(p) for p in args.packs]
-    rep = run_catalogue(packs, timeout=args.timeout)
+    rep = run_catalogue(packs, timeout=args.timeout, jobs=check_jobs(args.jobs))
     if args.json:
         print(json.dumps(rep.as_json(), indent=2, sort_keys=True))
     else:
@@ -417,6 +418,7 @@ def build_parser() -> argparse.ArgumentParser:
     m.add_argument("packs", nargs="+", metavar="PACK")
     m.add_argument("--json", action="store_true", help="print one JSON object")
     m.add_argument("--timeout", type=float, default=20.0, metavar="SECONDS", help="per solver question (default 20)")
+    m.add_argument("--jobs", type=int, default=1, metavar="N", help="decide mutants in N worker processes")
     m.set_defaults(func=cmd_mutate)
 
     st = sub.add_parser("selftest", help="write the tool validation dossier",

@@ -250,17 +250,39 @@ def baseline(pack: Pack, timeout: float) -> dict:
 
 
 def run_mutants(pack: Pack, *, timeout: float = 20.0, limit: int | None = None,
-                progress=None, killed_elsewhere: dict | None = None) -> MutationReport:
+                progress=None, killed_elsewhere: dict | None = None, jobs: int = 1) -> MutationReport:
     """Generate and decide every mutant of ``pack`` (or the first ``limit``).
 
     ``killed_elsewhere`` maps mutant keys already killed by another pack to that pack's name:
-    those are not decided again (a catalogue run, where the packs share the default design)."""
-    from verifier.smt.concrete import same_formula, same_outputs, violation_status
+    those are not decided again (a catalogue run, where the packs share the default design).
+    With ``jobs`` > 1 the mutants are decided in that many worker processes (each decision is a
+    set of fresh solver contexts, so the verdicts are those of a serial run; only which rule is
+    named as the killer may differ)."""
     t0 = time.monotonic()
     base = baseline(pack, timeout)
+    todo = mutants(pack)[:limit] if limit else mutants(pack)
+    if jobs > 1 and len(todo) > 1:
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+        chunks = [list(range(i, len(todo), jobs)) for i in range(jobs)]
+        ctx = multiprocessing.get_context("spawn")
+        with ProcessPoolExecutor(max_workers=jobs, mp_context=ctx) as pool:
+            futures = [pool.submit(_decide_all, pack, [todo[i] for i in c], base, timeout, killed_elsewhere)
+                       for c in chunks]
+            by_index = {}
+            for c, f in zip(chunks, futures):
+                by_index.update(zip(c, f.result()))
+        results = [by_index[i] for i in range(len(todo))]
+    else:
+        results = _decide_all(pack, todo, base, timeout, killed_elsewhere, progress)
+    return MutationReport(pack.name, pack.path, tuple(results), time.monotonic() - t0)
+
+
+def _decide_all(pack: Pack, todo, base: dict, timeout: float, killed_elsewhere, progress=None) -> list:
+    """The verdict of each mutant of ``todo`` (killed, equivalent, survived, invalid, undecided)."""
+    from verifier.smt.concrete import same_formula, same_outputs, violation_status
     names = observable_names()
     results = []
-    todo = mutants(pack)[:limit] if limit else mutants(pack)
     kills: dict = {}          # rule id -> kills so far (rules that kill often are asked first)
     for i, m in enumerate(todo, 1):
         t1 = time.monotonic()
@@ -316,7 +338,7 @@ def run_mutants(pack: Pack, *, timeout: float = 20.0, limit: int | None = None,
             else:
                 by = "the outputs differ, but no rule of the pack is violated by the difference"
         results.append(MutantResult(m, status, by, time.monotonic() - t1))
-    return MutationReport(pack.name, pack.path, tuple(results), time.monotonic() - t0)
+    return results
 
 
 @attrs.frozen
@@ -352,13 +374,13 @@ class CatalogueReport:
                 "packs": [p.as_json() for p in self.packs]}
 
 
-def run_catalogue(packs, *, timeout: float = 20.0, progress=None) -> CatalogueReport:
+def run_catalogue(packs, *, timeout: float = 20.0, progress=None, jobs: int = 1) -> CatalogueReport:
     """Mutants of every pack; a mutant killed by an earlier pack is not decided again."""
     t0 = time.monotonic()
     killed: dict = {}
     reports = []
     for pack in packs:
-        rep = run_mutants(pack, timeout=timeout, progress=progress, killed_elsewhere=killed)
+        rep = run_mutants(pack, timeout=timeout, progress=progress, killed_elsewhere=killed, jobs=jobs)
         for r in rep.results:
             if r.status == "killed" and r.mutant.key not in killed:
                 killed[r.mutant.key] = pack.name
