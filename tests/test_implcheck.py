@@ -320,3 +320,16 @@ def test_a_trackside_implementation_is_checked_too(write_pack):
                 ImplOptions(out=None, max_examples=50))
     r = bad.rules[0]
     assert r.status == "failed" and len(r.world.legs) == 1
+
+
+def test_the_pack_can_name_its_implementation(tmp_path, monkeypatch, capsys):
+    monkeypatch.chdir(tmp_path)
+    text = (ROOT / "rules" / "position-report.toml").read_text()
+    (tmp_path / "p.toml").write_text(text + f'\n[implementation]\nonboard = "kestrel_onboard_buggy:report_cab"\n'
+                                     f'path = "{EXAMPLES.as_posix()}"\n')
+    code = main(["test", "p.toml", "--no-files", "--no-cache", "--max-examples", "10",
+                 "--rule", "one-cab-change-flips-orientation"])
+    assert code == 1 and "implementation kestrel_onboard_buggy:report_cab" in capsys.readouterr().out
+    (tmp_path / "q.toml").write_text(text + '\n[implementation]\nonboard = "no colon"\n')
+    assert main(["test", "q.toml"]) == 2
+    assert 'implementation onboard must be "module:function"' in capsys.readouterr().err

@@ -240,7 +240,8 @@ def _impl_table(rep) -> str:
              + f" against pack {rep.pack} ({rep.path})"]
     width = max((len(r.rule) for r in rep.rules), default=10)
     for r in rep.rules:
-        lines.append(f"  {r.status:<11} {r.rule:<{width}}  {r.worlds} worlds ({describe_sources(r.sources)}), "
+        lines.append(f"  {r.status:<11} {r.rule:<{width}}  {r.worlds} world{'s' if r.worlds != 1 else ''} "
+                     f"({describe_sources(r.sources)}), "
                      f"given held in {r.applied}")
         if r.status == "failed":
             n = len(r.world.legs)

@@ -182,7 +182,11 @@ def load(spec: str, search: tuple = ()) -> Loaded:
             raise UsageError(f"module {mod_name} has no {fn_name!r}" + suggest(fn_name, names))
     if not callable(fn):
         raise UsageError(f"{spec} is not callable")
-    path = getattr(module, "__file__", None)
+    return _loaded(spec, fn, getattr(module, "__file__", None))
+
+
+def _loaded(spec: str, fn, path) -> Loaded:
+    """A Loaded, with its module file shown relative to the working directory and hashed."""
     digest, shown = "", ""
     if path:
         digest = hashlib.sha256(Path(path).read_bytes()).hexdigest()
@@ -204,14 +208,7 @@ def wrap(fn) -> Loaded:
         path = inspect.getsourcefile(fn)
     except TypeError:
         path = None
-    digest, shown = "", ""
-    if path:
-        digest = hashlib.sha256(Path(path).read_bytes()).hexdigest()
-        try:
-            shown = Path(path).resolve().relative_to(Path.cwd().resolve()).as_posix()
-        except ValueError:
-            shown = Path(path).as_posix()
-    return Loaded(spec, fn, shown, digest)
+    return _loaded(spec, fn, path)
 
 
 # ---- calling, with a time limit and validation ---------------------------------------------------
