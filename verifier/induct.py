@@ -51,20 +51,12 @@ def base_bound(pack: Pack, rule: Rule, legs, depth: int) -> int:
 def replay(pack: Pack, rule: Rule, lemmas, plan: Plan, cti: dict) -> Replayed:
     """Run a counterexample to induction (solver data: world, state, legs) step by step in the
     simulator (see :func:`replay_states`)."""
-    from verifier.world.scenario import snapshot_from_flat
+    from verifier.world.scenario import legs_from_flat, snapshot_from_flat
     try:
         snap = snapshot_from_flat(cti["world"], cti["state"], plan)
     except (KeyError, ValueError) as exc:
         return Replayed((), (f"the state cannot be read: {exc}",))
-    return replay_states(pack, rule, lemmas, plan, snap, cti_legs(cti))
-
-
-def cti_legs(cti: dict) -> list:
-    """The legs of a counterexample to induction (solver data) as the simulator's legs."""
-    from verifier.world.sim import Leg
-    from verifier.world.vocab import Running
-    return [Leg(x["cab_change"], Running(x["running"]), x["distance"], x["odometer"])
-            for x in cti["legs"]]
+    return replay_states(pack, rule, lemmas, plan, snap, legs_from_flat(cti["legs"]))
 
 
 def replay_states(pack: Pack, rule: Rule, lemmas, plan: Plan, snap, legs) -> Replayed:

@@ -246,8 +246,8 @@ def write_induction(out_dir: Path, pack: Pack, rule: Rule, lemmas, outcome, boun
                     solver: str) -> str:
     """Write the counterexample to induction (and its diagram) beside the counterexamples."""
     from verifier.evidence import diagram
-    from verifier.induct import cti_legs
-    doc = build_induction(pack, rule, lemmas, outcome.views, outcome.plan, cti_legs(outcome.cti),
+    from verifier.world.scenario import legs_from_flat
+    doc = build_induction(pack, rule, lemmas, outcome.views, outcome.plan, legs_from_flat(outcome.cti["legs"]),
                           bound=bound, minimal=outcome.minimal, solver=solver)
     target = induction_path(out_dir, pack, rule)
     write_atomic(target, dumps(doc))

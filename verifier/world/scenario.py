@@ -50,15 +50,18 @@ def world_to_data(w: World) -> dict:
     }
 
 
+def legs_from_flat(legs: list) -> tuple:
+    """Legs from the solver's plain data (cab_change, running word, distance, odometer)."""
+    return tuple(Leg(x["cab_change"], Running(x["running"]), x["distance"], x["odometer"]) for x in legs)
+
+
 def world_from_flat(d: dict) -> World:
     """From the solver's plain inputs (see ``verifier.smt.solve``)."""
     return World(
         balises=d["balises"], read=d["read"], linked=d["linked"], locacc=d["locacc"],
         offset=d["offset"], length=d["length"], antenna=d["antenna"],
         direction=Direction[d["direction"].upper()], running=Running(d["running"]),
-        detect_error=d["detect_error"],
-        legs=tuple(Leg(x["cab_change"], Running(x["running"]), x["distance"], x["odometer"])
-                   for x in d["legs"]))
+        detect_error=d["detect_error"], legs=legs_from_flat(d["legs"]))
 
 
 _KEYS = {"lrbg": {"balises", "read", "linked", "locacc", "offset"},
