@@ -119,3 +119,89 @@ def test_scope_outside_encodable_values_is_an_error(write_pack, line, needle):
     with pytest.raises(PackError) as exc:
         _pack(write_pack, world=line)
     assert needle in str(exc.value)
+
+
+# ---- two groups (DESIGN 4.8, 4.9), worked by hand ----------------------------------------------
+
+TWO = """
+[world]
+groups = 2
+g2_distance = ["100 m", "2 km"]
+[onboard]
+q_scale = "10 cm"
+[[info]]
+id = "eoa"
+group = 1
+at = "1500 m"
+valid = "nominal"
+[[rule]]
+id = "r"
+title = "r"
+expect = "true"
+"""
+
+
+def _two(write_pack):
+    from conftest import pack_text as text
+    return load_pack(write_pack(text("", extra=TWO)))
+
+
+def _relocation_world(g2_orientation, g1_locacc=F(0), g2_locacc=F(4), after=F(100)):
+    from verifier.world.sim import Group2
+    # G1: two balises passed nominal, front first, antenna 2 m behind the front: the antenna is
+    # on G1's mark at the passage. One leg of 300 m brings the antenna onto G2's mark, 300 m on
+    # G1's nominal side; then a leg of ``after`` metres, measured exactly.
+    return World(balises=2, read=2, locacc=g1_locacc, antenna=F(2), length=F(80),
+                 legs=(Leg(False, FWD, F(300), F(300)), Leg(False, FWD, after, after)),
+                 g2=Group2(distance=F(300), side=NOM, orientation=g2_orientation, balises=2,
+                           read=2, linked=True, locacc=g2_locacc, found=True, at=1))
+
+
+def test_passing_an_opposite_facing_second_group(write_pack):
+    # Worked by hand. G2 faces the other way (its nominal direction is G1's reverse): once it is
+    # the LRBG, positions are counted from G2's mark, positive towards G1. The train, moving
+    # away from G1, faces G2's reverse direction: Q_DIRLRBG reverse (code 0, SUBSET-026
+    # 7.5.1.104), Q_DIRTRAIN reverse; its front is 2 + 100 = 102 m on G2's reverse side:
+    # Q_DLRBG 0, D_LRBG 102 m = code 1020 at 10 cm (7.5.1.13, 7.5.1.129). Doubts from G2:
+    # Q_LOCACC 4 m + 5 m + 5 % of the 100 m measured since G2 = 14 m (SUBSET-041 5.3.1.1),
+    # code 140. The end of authority 1500 m from G1 lies 1200 m from G2, on its reverse side.
+    pack = _two(write_pack)
+    st = State(pack, _relocation_world(REV))
+    assert st.get("g2.in_window") and st.get("g2.lrbg") and st.get("lrbg.group") == 2
+    assert st.get("actual.front") == st.get("est.front") == -102
+    assert st.get("report.code.q_dirlrbg") == 0 and st.get("report.code.q_dirtrain") == 0
+    assert st.get("report.code.q_dlrbg") == 0 and st.get("report.code.d_lrbg") == 1020
+    assert st.get("est.l_doubtover") == 14 and st.get("report.code.l_doubtover") == 140
+    assert st.info_value("eoa", "real") == -1200 == st.info_value("eoa", "position")
+    assert st.info_value("eoa", "accepted")        # the train faces G1's nominal direction
+    # the same world with G2 facing G1's way: everything nominal, the front at +102 m
+    st = State(pack, _relocation_world(NOM))
+    assert st.get("report.code.q_dirlrbg") == 1 and st.get("est.front") == 102
+    assert st.info_value("eoa", "real") == 1200
+
+
+def test_relocation_with_a_different_location_accuracy(write_pack):
+    # Worked by hand: G1 with Q_LOCACC 12 m (the default national value, SUBSET-026 A.3.2) and
+    # G2 with 3 m. At G2's detection the doubts restart from G2: 3 m + 5 m = 8 m (no distance
+    # measured since G2 yet); a further 1000 m gives 3 m + 5 m + 50 m = 58 m, where G1 would have
+    # given 12 m + 5 m + 5 % of 1300 m = 82 m (SUBSET-041 5.3.1.1).
+    pack = _two(write_pack)
+    st = State(pack, _relocation_world(NOM, g1_locacc=F(12), g2_locacc=F(3), after=F(0)))
+    assert st.get("lrbg.locacc") == 3 and st.get("est.l_doubtover") == 8
+    st = State(pack, _relocation_world(NOM, g1_locacc=F(12), g2_locacc=F(3), after=F(1000)))
+    assert st.get("est.l_doubtover") == 58 and st.get("est.l_doubtunder") == 58
+    import attrs
+    unlinked_one = attrs.evolve(_relocation_world(NOM, g1_locacc=F(12), g2_locacc=F(3), after=F(1000)),
+                                g2=attrs.evolve(_relocation_world(NOM).g2, linked=False, balises=1, read=1,
+                                                locacc=F(3)))
+    st = State(pack, unlinked_one)     # an unlinked single balise is not used (3.4.2.3.3)
+    assert st.get("lrbg.group") == 1 and st.get("est.l_doubtover") == 82
+
+
+def test_the_encoding_agrees_on_the_hand_worked_relocations(write_pack):
+    from verifier.differential import compare, flat, simulate
+    from verifier.smt.concrete import Evaluator
+    pack = _two(write_pack)
+    ev = Evaluator(pack, 2)
+    for w in (_relocation_world(REV), _relocation_world(NOM, F(12), F(3), F(1000))):
+        assert compare(simulate(pack, w), ev.evaluate(flat(w))) == []

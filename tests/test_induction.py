@@ -30,7 +30,7 @@ from verifier.smt.solve import COMPARED
 from verifier.strategies import worlds
 from verifier.world.scenario import snapshot_from_flat
 from verifier.world.sim import Leg, SnapView, World, advance, snapshot_problems, start
-from verifier.world.vocab import GLOBAL, Running
+from verifier.world.vocab import GLOBAL, Running, names_for
 
 FEW = settings(max_examples=40, deadline=None, database=None, derandomize=True,
                suppress_health_check=list(HealthCheck))
@@ -236,7 +236,7 @@ def test_d_step_of_one_leg_equals_the_bounded_encoding_of_legs_i_to_i_plus_1(des
     prefix, longer = flat(attrs.evolve(w, legs=w.legs[:i])), flat(attrs.evolve(w, legs=w.legs[:i + 1]))
     s0 = induction.bounded_state(pack, plan, prefix)
     s1 = induction.bounded_state(pack, plan, longer)
-    names = [n for n in GLOBAL if GLOBAL[n].kind not in ("input", "hidden-input")]
+    names = [n for n in names_for(1) if GLOBAL[n].kind not in ("input", "hidden-input")]
     path = induction.evaluate_path(pack, plan, {"world": {**prefix, "legs": []}, "state": s0,
                                                 "legs": [longer["legs"][i]]}, names, (rule,))
     assert path is not None, "the step's domain rejects a reachable state"
@@ -312,7 +312,7 @@ def test_simulator_step_agrees_with_the_encoder_step_on_arbitrary_states(designe
     after, _ = advance(snap, leg, pack, plan)
     basis = after.measured if sc.odometry_basis == "measured" else after.travelled
     in_scope = after.over <= sc.odometry_over.at(basis) and after.under <= sc.odometry_under.at(basis)
-    names = [n for n in GLOBAL if GLOBAL[n].kind not in ("input", "hidden-input")]
+    names = [n for n in names_for(1) if GLOBAL[n].kind not in ("input", "hidden-input")]
     path = induction.evaluate_path(pack, plan, {"world": world, "state": state, "legs": [
         {"cab_change": leg.cab_change, "running": leg.running.word, "distance": dist, "odometer": odo}]},
         names, (rule,))

@@ -16,7 +16,7 @@ import attrs
 
 from verifier.world.scenario import fmt
 from verifier.world.sim import State, World, applies, evaluate, scope_problems
-from verifier.world.vocab import GLOBAL, LEG
+from verifier.world.vocab import INFO_FIELDS, LEG, names_for
 
 
 @attrs.frozen
@@ -51,6 +51,12 @@ def flat(world: World) -> dict:
         "detect_error": world.detect_error,
         "legs": [{"cab_change": leg.cab_change, "running": leg.running.word,
                   "distance": leg.distance, "odometer": leg.odometer} for leg in world.legs],
+        **({} if world.g2 is None else {"g2": {
+            "distance": world.g2.distance, "side": world.g2.side.word,
+            "orientation": world.g2.orientation.word, "balises": world.g2.balises,
+            "read": world.g2.read, "linked": world.g2.linked, "locacc": world.g2.locacc,
+            "offset": world.g2.offset, "found": world.g2.found, "at": world.g2.at,
+            "detect_error": world.g2.detect_error}}),
     }
 
 
@@ -66,7 +72,10 @@ class SimSide:
 
 def simulate(pack, world: World) -> SimSide:
     st = State(pack, world)
-    values = {name: plain(st.get(name)) for name in GLOBAL}
+    values = {name: plain(st.get(name)) for name in names_for(pack.scope.groups)}
+    for item in pack.infos:
+        for field in INFO_FIELDS:
+            values[f"info.{item.id}.{field}"] = plain(st.info_value(item.id, field))
     legs = tuple({f: plain(leg[f]) for f in LEG} for leg in st.legs)
     lets = {}
     for name in pack.lets:

@@ -34,7 +34,7 @@ from pathlib import Path
 
 import attrs
 
-from verifier.world.vocab import GLOBAL, LEG
+from verifier.world.vocab import GLOBAL, LEG, names_for
 
 KINDS = (("expr", 4), ("mistyped", 14), ("expr-mutated", 26), ("pack-mutated", 42), ("deep", 5),
          ("huge", 4), ("bytes", 5))
@@ -45,7 +45,7 @@ STAGES = ("toml-or-structure", "type-checker", "solver")
 # ---- generated expressions --------------------------------------------------------------------
 
 _BY_TYPE: dict = {}
-for _n, _e in GLOBAL.items():
+for _n, _e in ((n, GLOBAL[n]) for n in names_for(1)):
     _BY_TYPE.setdefault(_e.ty, []).append(_n)
 _LEG_BY_TYPE: dict = {}
 for _n, _e in LEG.items():

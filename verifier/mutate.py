@@ -237,9 +237,14 @@ def _relevant(rule, m: Mutant) -> bool:
     return (kind, name) in rule.deps
 
 
-def observable_names() -> list[str]:
+def observable_names(pack: Pack | None = None) -> list[str]:
+    """The design outputs and the wire (in every pack), and each information item's onboard
+    decisions (DESIGN 4.9)."""
     from verifier.world.vocab import GLOBAL
-    return [n for n, e in GLOBAL.items() if e.kind in ("onboard-output", "wire", "trackside-output")]
+    out = [n for n, e in GLOBAL.items() if e.kind in ("onboard-output", "wire", "trackside-output")]
+    for item in (pack.infos if pack is not None else ()):
+        out += [f"info.{item.id}.accepted", f"info.{item.id}.position"]
+    return out
 
 
 def baseline(pack: Pack, timeout: float) -> dict:
@@ -281,7 +286,7 @@ def run_mutants(pack: Pack, *, timeout: float = 20.0, limit: int | None = None,
 def _decide_all(pack: Pack, todo, base: dict, timeout: float, killed_elsewhere, progress=None) -> list:
     """The verdict of each mutant of ``todo`` (killed, equivalent, survived, invalid, undecided)."""
     from verifier.smt.concrete import same_formula, same_outputs, violation_status
-    names = observable_names()
+    names = observable_names(pack)
     results = []
     kills: dict = {}          # rule id -> kills so far (rules that kill often are asked first)
     for i, m in enumerate(todo, 1):

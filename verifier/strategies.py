@@ -37,7 +37,7 @@ import attrs
 from hypothesis import strategies as st
 
 from verifier.world.scope import Scope
-from verifier.world.sim import Leg, State, World
+from verifier.world.sim import Leg, State, World, scope_problems
 from verifier.world.vocab import MAX_CODE, Direction, Running
 
 F = Fraction
@@ -285,7 +285,58 @@ def worlds(draw, scope: Scope = Scope(), bound: int = 3, aim: bool = True) -> Wo
         detect_error=detect, legs=_draw_legs(draw, scope, bound, detect))
     if aim and _bool(draw):
         world = _aim(draw, scope, world)
+    if scope.groups == 2:
+        world = _second_group(draw, scope, world)
     return world
+
+
+def _second_group(draw, scope: Scope, world: World) -> World:
+    """A second group for a world (DESIGN 4.8). Most of the time it is found at the end of some
+    leg: that leg is redrawn so that the antenna ends on G2's mark (with the detection error);
+    a world that this puts outside the scope (the reading errors after G2 are bounded afresh)
+    keeps G2 unfound."""
+    from verifier.world.sim import Group2, advance, sign, start
+    dlo, dhi = scope.g2_distance
+    distance = _one_of_or(draw, [dlo, dhi], dlo, dhi)
+    sides = {"nominal": [Direction.NOMINAL], "reverse": [Direction.REVERSE],
+             "any": [Direction.NOMINAL, Direction.REVERSE]}
+    side = _choice(draw, sides[scope.g2_side])
+    orient = _choice(draw, sides[{"same": "nominal", "opposite": "reverse", "any": "any"}[scope.g2_orientation]])
+    blo, bhi = scope.g2_balises
+    balises = _choice(draw, [blo, bhi]) if _bool(draw) else _int(draw, blo, bhi)
+    read = _choice(draw, [1, balises]) if _bool(draw) else _int(draw, 1, balises)
+    llo, lhi = int(scope.g2_locacc[0]), int(scope.g2_locacc[1])
+    locacc = F(_choice(draw, [llo, lhi]) if _bool(draw) else _int(draw, llo, lhi))
+    offset = _one_of_or(draw, [-locacc, locacc, F(0)], -locacc, locacc)
+    g2 = Group2(distance=distance, side=side, orientation=orient, balises=balises, read=read,
+                linked=_bool(draw), locacc=locacc, offset=offset)
+    unfound = attrs.evolve(world, g2=g2)
+    if not world.legs or _int(draw, 0, 3) == 0:
+        return unfound
+    k = _int(draw, 1, len(world.legs))
+    snap = start(world)
+    for leg in world.legs[:k - 1]:
+        snap, _ = advance(snap, leg)
+    leg = world.legs[k - 1]
+    o = -snap.orientation if leg.cab_change else snap.orientation
+    front = snap.front - snap.orientation * world.length if leg.cab_change else snap.front
+    antenna = front - o * world.antenna
+    det = _one_of_or(draw, [F(0), scope.detection, -scope.detection], -scope.detection, scope.detection)
+    mark = sign(side) * distance + sign(orient) * offset
+    for running in (leg.running, Running.BACKWARD if leg.running is Running.FORWARD else Running.FORWARD):
+        m = o if running is Running.FORWARD else -o
+        dist = m * (mark - antenna) + det      # the antenna ends at mark + m * det
+        if not scope.leg_distance[0] <= dist <= scope.leg_distance[1] or not dist > max(F(0), det):
+            continue
+        over, under, measured = _errors_after(scope, world.legs[:k - 1], world.detect_error)
+        olo, ohi = _odometer_range(scope, over, under, measured, dist)
+        odo = _choice(draw, [dist, olo, ohi]) if olo <= dist <= ohi else _choice(draw, [olo, ohi])
+        new = attrs.evolve(leg, running=running, distance=dist, odometer=odo)
+        found = attrs.evolve(world, legs=world.legs[:k - 1] + (new,) + world.legs[k:],
+                             g2=attrs.evolve(g2, found=True, at=k, detect_error=det))
+        if not scope_problems(found, scope, len(found.legs)):
+            return found
+    return unfound
 
 
 def pack_worlds(packs, bound: int | None = None) -> st.SearchStrategy:

@@ -60,6 +60,13 @@ class Pack:
     unbounded: bool = False     # [pack] legs = "any"
     lemmas: tuple = ()          # Rule objects with role "lemma", in file order
     implementation: dict = attrs.field(factory=dict, hash=False)   # [implementation] (verifier test)
+    infos: tuple = ()           # trackside information items ([[info]], DESIGN 4.9)
+
+    def info(self, info_id: str):
+        for i in self.infos:
+            if i.id == info_id:
+                return i
+        raise KeyError(info_id)
 
     def rule(self, rule_id: str) -> Rule:
         """The rule or lemma with this id."""

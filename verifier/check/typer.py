@@ -49,6 +49,7 @@ class _Env:
     world: dict
     diags: list
     qvars: tuple = ()
+    item: bool = False            # an [onboard] info_* formula: item.* names the item (DESIGN 4.9)
     deps: set = attrs.Factory(set)
     reads: dict = attrs.Factory(dict)      # vocabulary name -> (offset, length) of first read
     max_leg: int = 0
@@ -173,6 +174,29 @@ def _resolve_name(env: _Env, node: ast.Name) -> ast.Node:
     if dotted in env.world:
         ty, value = env.world[dotted]
         return _typed(node, ty, ref=("num", value))
+    if first == "item" and len(parts) == 2 and isinstance(parts[1], str):
+        if not env.item:
+            raise env.error(node, "item.* names the information item an [onboard] info_accepted "
+                            "or info_position formula is evaluated for; elsewhere write info.ID.FIELD")
+        if parts[1] not in vocab.ITEM:
+            raise env.error(node, f"items have no field '{parts[1]}'" + suggest(parts[1], vocab.ITEM))
+        env.reads.setdefault(dotted, (node.start, node.end - node.start))
+        return _typed(node, vocab.ITEM[parts[1]][0], ref=("item", parts[1]))
+    if first == "info" and len(parts) >= 2:
+        ids = {i.id: i for i in env.pack.infos}
+        if len(parts) != 3 or not all(isinstance(p, str) for p in parts) or parts[1] not in ids:
+            raise env.error(node, f"unknown information item in '{dotted}'"
+                            + (suggest(str(parts[1]), ids) if ids else " (the pack has no [[info]])"))
+        field = parts[2]
+        if field not in vocab.INFO_FIELDS:
+            raise env.error(node, f"information items have no field '{field}'" + suggest(field, vocab.INFO_FIELDS))
+        ty, _, kind, _ = vocab.INFO_FIELDS[field]
+        env.reads.setdefault(f"info.*.{field}", (node.start, node.end - node.start))
+        if kind == "onboard-output":
+            env.deps.add(("onboard", f"info_{field}"))
+        return _typed(node, ty, ref=("info", parts[1], field))
+    if dotted in vocab.TWO_GROUPS and env.pack.scope.groups != 2:
+        raise env.error(node, f"'{dotted}' names the second group: set [world] groups = 2")
     if dotted in vocab.GLOBAL:
         entry = vocab.GLOBAL[dotted]
         env.reads.setdefault(dotted, (node.start, node.end - node.start))
@@ -473,13 +497,15 @@ def _check_pack(raw: RawPack) -> Pack:
                 "trackside": f"trackside {name}"}[kind]
         env = _Env(raw, e.key, what, readers, params, world, diags)
         env.let_types = let_types
+        env.item = kind == "onboard" and name in vocab.INFO_OUTPUTS
         try:
             node = _check(env, e.node)
         except _Fail:
             return
-        if kind == "onboard" and node.ty not in (vocab.ONBOARD_OUTPUTS[name], ZERO):
-            if not (node.ty == ZERO and vocab.ONBOARD_OUTPUTS[name] == LENGTH):
-                env.error(node, f"must be a {vocab.ONBOARD_OUTPUTS[name]}, not {_show(node.ty)}")
+        outputs = {**vocab.ONBOARD_OUTPUTS, **vocab.INFO_OUTPUTS}
+        if kind == "onboard" and node.ty not in (outputs[name], ZERO):
+            if not (node.ty == ZERO and outputs[name] == LENGTH):
+                env.error(node, f"must be a {outputs[name]}, not {_show(node.ty)}")
                 return
         if kind == "trackside" and node.ty not in (LENGTH, ZERO):
             env.error(node, f"must be a Length, not {_show(node.ty)}")
@@ -551,7 +577,7 @@ def _check_pack(raw: RawPack) -> Pack:
             for r, reader in let_reads(used).items():
                 via.setdefault(r, (used, reader))
         for r, (used, reader) in sorted(via.items(), key=lambda kv: kv[0]):
-            entry = vocab.LEG[r[4:]] if r.startswith("leg.") else vocab.GLOBAL[r]
+            entry = vocab.entry(r)
             if readers in entry.readers:
                 continue
             hidden = _unreadable(entry, readers)
@@ -640,4 +666,4 @@ def _check_pack(raw: RawPack) -> Pack:
                 raw.q_scale, raw.rounding, trackside, _topo(raw.trackside, graph, "trackside"),
                 tuple(r for r in rules if r.role == "rule"),
                 tuple(sorted(warnings, key=lambda d: (d.line, d.column))), raw.unbounded,
-                tuple(r for r in rules if r.role == "lemma"), dict(raw.implementation))
+                tuple(r for r in rules if r.role == "lemma"), dict(raw.implementation), raw.infos)

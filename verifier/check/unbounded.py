@@ -33,7 +33,7 @@ from verifier.world import vocab
 
 #: Names whose value does not depend on the legs: inputs of the group, the train and the
 #: passage, and what follows from them alone.
-STATIC = frozenset(n for n in vocab.GLOBAL if n.split(".")[0] in ("lrbg", "train", "passage"))
+STATIC = frozenset(n for n in vocab.GLOBAL if n.split(".")[0] in ("lrbg", "train", "passage", "g1"))
 
 FINITE = {BOOL: (True, False),
           DIRECTION: (vocab.Direction.NOMINAL, vocab.Direction.REVERSE, vocab.Direction.UNKNOWN),
@@ -239,6 +239,9 @@ def plan_for(pack, formulas, *, designs: bool = True) -> Plan:
             b.definition(("onboard", n))
         for n in pack.trackside:
             b.definition(("trackside", n))
+    if pack.scope.groups == 2:   # the state of DESIGN 4.7 has one group
+        b.unsupported.insert(0, "a pack with two groups: the state of a proof for any number of "
+                                "legs does not carry the second group yet (DESIGN 4.8)")
     return Plan(tuple(b.families.values()), b.uses, tuple(sorted(b.frozen)),
                 tuple(dict.fromkeys(b.unsupported)))
 

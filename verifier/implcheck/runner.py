@@ -426,7 +426,11 @@ class Session:
 
     def __init__(self, pack: Pack, onboard: Loaded, trackside: Loaded | None = None,
                  opts: ImplOptions = ImplOptions(), progress=None):
+        from verifier.errors import UsageError
         from verifier.strategies import worlds as world_strategy
+        if pack.scope.groups == 2:
+            raise UsageError(f"pack {pack.name} has two groups: the implementation interface "
+                             "(docs/implementations.md) observes one group only, so far")
         self.t0 = time.monotonic()
         self.pack, self.onboard, self.trackside, self.opts = pack, onboard, trackside, opts
         self.strategy = world_strategy

@@ -31,14 +31,16 @@ ANY = "any"        # legs = "any": proved for every number of legs where the too
 TABLES = {
     "pack": {"name", "title", "legs", "description"},
     "world": {"balises", "locacc", "train_length", "antenna", "leg_distance", "odometry_over",
-              "odometry_under", "detection", "odometry_basis"},
+              "odometry_under", "detection", "odometry_basis", "groups", "g2_distance", "g2_side",
+              "g2_orientation", "g2_balises", "g2_locacc"},
     "params": None,  # free names
     "let": None,
-    "onboard": set(vocab.ONBOARD_OUTPUTS) | {"q_scale", "rounding"},
+    "onboard": set(vocab.ONBOARD_OUTPUTS) | set(vocab.INFO_OUTPUTS) | {"q_scale", "rounding"},
     "trackside": set(vocab.TRACKSIDE_OUTPUTS),
     "rule": {"id", "title", "given", "expect", "refs", "legs", "note"},
     "lemma": {"id", "title", "given", "expect", "refs", "note"},
     "implementation": {"onboard", "trackside", "path"},
+    "info": {"id", "title", "group", "at", "valid"},
 }
 
 
@@ -68,6 +70,25 @@ class RawRule:
 
 
 @attrs.frozen
+class RawInfo:
+    """A trackside information item (DESIGN 4.9)."""
+
+    id: str
+    title: str
+    group: int
+    at: Fraction
+    for_nominal: bool
+    for_reverse: bool
+    line: int
+
+    @property
+    def location(self) -> Fraction:
+        """Its place in the reference group's frame: counted in the direction of validity (an
+        item valid both ways lies on the nominal side)."""
+        return -self.at if (self.for_reverse and not self.for_nominal) else self.at
+
+
+@attrs.frozen
 class RawPack:
     path: str
     text: str
@@ -89,6 +110,7 @@ class RawPack:
     unbounded: bool = False   # [pack] legs = "any"
     lemmas: tuple = ()        # RawRule with role "lemma", in file order
     implementation: dict = attrs.field(factory=dict)   # [implementation]: onboard, trackside, path
+    infos: tuple = ()         # RawInfo, [[info]] in file order
 
 
 class _Collector:
@@ -216,10 +238,64 @@ def _load_scope(c: _Collector, table: dict) -> Scope:
             c.at(("world", "odometry_basis"), "world.odometry_basis must be \"measured\" or \"real\"")
         else:
             kw["odometry_basis"] = basis
+    _load_second_group(c, table, kw)
     scope = Scope(**kw)
     if scope.antenna[0] > scope.train_length[1]:
         c.at(("world", "antenna"), "world.antenna low is longer than the longest train")
     return scope
+
+
+def _load_second_group(c: _Collector, table: dict, kw: dict) -> None:
+    """``groups`` and the second group's ranges (DESIGN 4.8)."""
+    g2_keys = [k for k in ("g2_distance", "g2_side", "g2_orientation", "g2_balises", "g2_locacc") if k in table]
+    groups = table.get("groups", 1)
+    if isinstance(groups, bool) or groups not in (1, 2):
+        c.at(("world", "groups"), f"world.groups must be 1 or 2, got {groups!r}")
+        return
+    kw["groups"] = groups
+    if groups == 1:
+        for k in g2_keys:
+            c.at(("world", k), f"world.{k} describes the second group: set world.groups = 2")
+        return
+    for name, low in (("g2_distance", F0), ("g2_locacc", F0)):
+        if name not in table:
+            continue
+        key, value = ("world", name), table[name]
+        if not (isinstance(value, list) and len(value) == 2):
+            c.at(key, f"world.{name} must be a range [low, high]")
+            continue
+        lo = _length(c, key, value[0], what=f"world.{name} low")
+        hi = _length(c, key, value[1], what=f"world.{name} high")
+        if lo is None or hi is None:
+            continue
+        if lo > hi or lo < low:
+            c.at(key, f"world.{name} must be a range of lengths from 0 m up, low not above high")
+            continue
+        if name == "g2_locacc" and (lo.denominator != 1 or hi.denominator != 1 or hi > 63):
+            c.at(key, "world.g2_locacc must be whole metres within 0..63 m (Q_LOCACC, SUBSET-026 7.5.1.115)")
+            continue
+        if name == "g2_distance" and lo <= 0:
+            c.at(key, "world.g2_distance must be above 0 m (the two groups are distinct)")
+            continue
+        kw[name] = (lo, hi)
+    if "g2_balises" in table:
+        v = table["g2_balises"]
+        if not (isinstance(v, list) and len(v) == 2 and all(isinstance(x, int) and not isinstance(x, bool) for x in v)
+                and 1 <= v[0] <= v[1] <= 8):
+            c.at(("world", "g2_balises"), f"world.g2_balises must lie within 1..8 (SUBSET-026 7.5.1.82), got {v!r}")
+        else:
+            kw["g2_balises"] = tuple(v)
+    for name, words in (("g2_side", ("nominal", "reverse", "any")), ("g2_orientation", ("same", "opposite", "any"))):
+        if name in table:
+            v = table[name]
+            if v not in words:
+                c.at(("world", name), f"world.{name} must be one of {', '.join(words)}, got {v!r}"
+                     + (suggest(v, words) if isinstance(v, str) else ""))
+            else:
+                kw[name] = v
+
+
+F0 = Fraction(0)
 
 
 def _expr(c: _Collector, key: tuple, value, *, what: str) -> RawExpr | None:
@@ -287,11 +363,11 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
         elif k == "rule":
             if not isinstance(v, list):
                 c.at((k,), "rules are written as [[rule]] tables")
-        elif k == "lemma":
-            pass    # checked with the lemmas below
+        elif k in ("lemma", "info"):
+            pass    # checked with the lemmas and the information items below
         elif not isinstance(v, dict):
             c.at((k,), f"'{k}' must be a table: [{k}]")
-    tables = {k: (v if isinstance(v, dict) else {}) for k, v in data.items() if k not in ("rule", "lemma")}
+    tables = {k: (v if isinstance(v, dict) else {}) for k, v in data.items() if k not in ("rule", "lemma", "info")}
 
     pack_t = tables.get("pack", {})
     if "pack" not in data:
@@ -346,6 +422,15 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     ob_t = tables.get("onboard", {})
     _unknown_keys(c, ("onboard",), ob_t, TABLES["onboard"], "[onboard]")
     onboard = _design(c, "onboard", ob_t, vocab.ONBOARD_OUTPUTS, vocab.DEFAULT_ONBOARD)
+    infos = _infos(c, src, data.get("info", []), scope, {})
+    if infos:     # the item formulas exist only in packs with items (they are mutated, hashed)
+        onboard.update(_design(c, "onboard", ob_t, vocab.INFO_OUTPUTS,
+                               vocab.DEFAULT_INFO_TWO if scope.groups == 2 else vocab.DEFAULT_INFO_ONE))
+    else:
+        for k in vocab.INFO_OUTPUTS:
+            if k in ob_t:
+                c.at(("onboard", k), f"onboard {k} is evaluated for trackside information items: "
+                     "the pack has no [[info]]")
     q_scale = ob_t.get("q_scale", "auto")
     if q_scale not in ("auto", *vocab.Q_SCALES):
         c.at(("onboard", "q_scale"), f"q_scale must be \"10 cm\", \"1 m\", \"10 m\" or \"auto\", got {q_scale!r}")
@@ -394,7 +479,53 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     # Errors found so far travel with the pack: the checker adds its own and reports them all.
     return RawPack(shown, text, sha256, name, pack_t.get("title", ""), description, legs, scope,
                    params, lets, onboard, q_scale, rounding, trackside, tuple(rules), src,
-                   tuple(c.diags), unbounded, tuple(lemmas), implementation)
+                   tuple(c.diags), unbounded, tuple(lemmas), implementation, tuple(infos))
+
+
+def _infos(c: _Collector, src: SourceFile, raw, scope: Scope, seen: dict) -> list:
+    """The [[info]] tables: id, group, at (a length), valid (nominal, reverse, both)."""
+    if not isinstance(raw, list):
+        c.at(("info",), "trackside information items are written as [[info]] tables")
+        return []
+    out = []
+    for i, t in enumerate(raw):
+        base = ("info", i)
+        if not isinstance(t, dict):
+            c.at(base, "an info item must be a table")
+            continue
+        _unknown_keys(c, base, t, TABLES["info"], "[[info]]")
+        ok = True
+        for req in ("id", "at", "valid"):
+            if req not in t:
+                c.at(base, f"info item is missing '{req}'")
+                ok = False
+        iid = t.get("id", "")
+        if "id" in t and (not isinstance(iid, str) or not re.match(r"^[a-z][a-z0-9_]*$", iid)):
+            c.at(base + ("id",), f"info id must be a name (lower-case letters, digits, '_'), got {iid!r}")
+            ok = False
+        elif iid in seen:
+            c.at(base + ("id",), f"duplicate info id '{iid}'")
+            ok = False
+        seen[iid] = i
+        group = t.get("group", 1)
+        if group not in (1, 2) or isinstance(group, bool) or (group == 2 and scope.groups != 2):
+            c.at(base + ("group",), f"info group must be 1{' or 2' if scope.groups == 2 else ''}, got {group!r}")
+            ok = False
+        at = _length(c, base + ("at",), t["at"], what="info at") if "at" in t else None
+        if at is None or at < 0:
+            if at is not None:
+                c.at(base + ("at",), "info at is a distance: 0 m or more")
+            ok = False
+        valid = t.get("valid")
+        if valid not in ("nominal", "reverse", "both"):
+            c.at(base + ("valid",), f"info valid must be nominal, reverse or both, got {valid!r}")
+            ok = False
+        title = t.get("title", iid)
+        place = src.places.get(base)
+        if ok:
+            out.append(RawInfo(iid, str(title), group, at, valid in ("nominal", "both"),
+                               valid in ("reverse", "both"), place.line if place else 1))
+    return out
 
 
 def _legs(c: _Collector, key: tuple, value, what: str) -> tuple:

@@ -20,7 +20,7 @@ import z3
 from verifier.check.model import Pack
 from verifier.smt.encode import Encoding
 from verifier.smt.solve import _fraction
-from verifier.world.vocab import GLOBAL, LEG
+from verifier.world.vocab import GLOBAL, INFO_FIELDS, LEG, names_for
 
 _DIR_WORD = {1: "nominal", -1: "reverse", 0: "unknown"}
 
@@ -67,8 +67,11 @@ class Evaluator:
         self.ctx = z3.Context()
         enc = self.enc = Encoding(pack, bound, self.ctx)
         self.terms: list = []          # (kind, key, type, term)
-        for name, entry in GLOBAL.items():
-            self.terms.append(("name", name, entry.ty, enc.name(name)))
+        for name in names_for(pack.scope.groups):
+            self.terms.append(("name", name, GLOBAL[name].ty, enc.name(name)))
+        for item in pack.infos:      # trackside information items (DESIGN 4.9)
+            for field, (ty, *_rest) in INFO_FIELDS.items():
+                self.terms.append(("name", f"info.{item.id}.{field}", ty, enc.info_term(item.id, field)))
         for i in range(1, bound + 1):
             for field, entry in LEG.items():
                 self.terms.append(("leg", (i, field), entry.ty, enc.legs[i - 1][field]))
@@ -105,6 +108,15 @@ class Evaluator:
              I["passage.running"] == z3.BoolVal(world["running"] == "forward", ctx),
              I["passage.detect_error"] == real(world["detect_error"]),
              I["legs.count"] == len(legs)]
+        g = world.get("g2")
+        if g is not None:
+            code = {"nominal": 1, "reverse": -1}
+            a += [I["g2.distance"] == real(g["distance"]), I["g2.side"] == code[g["side"]],
+                  I["g2.orientation"] == code[g["orientation"]], I["g2.balises"] == int(g["balises"]),
+                  I["g2.read"] == int(g["read"]), I["g2.linked"] == z3.BoolVal(bool(g["linked"]), ctx),
+                  z3.ToReal(I["g2.locacc"]) == real(g["locacc"]), I["g2.offset"] == real(g["offset"]),
+                  I["g2.found"] == z3.BoolVal(bool(g["found"]), ctx), I["g2.at"] == int(g["at"]),
+                  I["g2.detect_error"] == real(g["detect_error"])]
         for i, leg in enumerate(legs, 1):
             a += [I[f"legs.{i}.cab_change"] == z3.BoolVal(bool(leg["cab_change"]), ctx),
                   I[f"legs.{i}.running"] == z3.BoolVal(leg["running"] == "forward", ctx),
@@ -136,7 +148,8 @@ class Evaluator:
         if r != z3.sat:
             raise RuntimeError(f"solver gave up on a concrete world: {s.reason_unknown()}")
         model = s.model()
-        count = len(world.get("legs", []))
+        # the legs since the current LRBG (all of them, unless a second group took over)
+        count = model.evaluate(self.enc.terms["legs.count"], model_completion=True).as_long()
         values, lets, given, expect = {}, {}, {}, {}
         legs = [dict() for _ in range(count)]
         fixed = []
@@ -301,10 +314,14 @@ def same_formula(original: Pack, mutant: Pack, dep: tuple, bound: int, *,
     ctx = z3.Context()
     a = Encoding(original, bound, ctx)
     b = Encoding(mutant, bound, ctx, prefix="mutant!")
-    ta, tb = a.definition(dep), b.definition(dep)
+    if dep[0] == "onboard" and dep[1].startswith("info_"):    # evaluated per item (DESIGN 4.9)
+        field = dep[1][len("info_"):]
+        differ = [a.info_term(i.id, field) != b.info_term(i.id, field) for i in original.infos]
+    else:
+        differ = [a.definition(dep) != b.definition(dep)]
     s = z3.Solver(ctx=ctx)
     s.set("rlimit", rlimit)
     s.set("timeout", int(timeout * 1000))
     s.add(*a.constraints, *b.constraints)
-    s.add(ta != tb)
+    s.add(z3.Or(differ) if differ else z3.BoolVal(False, ctx))
     return {"unsat": "equivalent", "sat": "different"}.get(str(s.check()), "unknown")

@@ -24,6 +24,7 @@ from verifier.world.vocab import MAX_CODE, Q_SCALES, UNKNOWN_CODE, Direction, Ru
 
 _DIR_CODE = {Direction.NOMINAL: 1, Direction.REVERSE: -1, Direction.UNKNOWN: 0}
 OVERRIDE = "$override"   # env key: sub-terms replaced by given terms (accumulator parameters)
+ITEM = "$item"           # env key: the information item an info_* formula is evaluated for
 
 
 class _Terms:
@@ -128,19 +129,23 @@ class _Terms:
         self.constraints.extend([self.pos(-det) <= self.num(sc.odometry_over.fixed),
                                  self.pos(det) <= self.num(sc.odometry_under.fixed)])
 
-    def _first(self, S: dict) -> dict:
+    def _first(self, S: dict, tag: str = "") -> dict:
         """The state at the detection instant, before any leg; adds to ``S`` what follows from
-        the inputs alone (the passage as the onboard sees it)."""
+        the inputs alone (the passage as the onboard sees it). ``tag`` keeps the constants of
+        a second track apart (the world as G2 sees it, DESIGN 4.8)."""
         direction, pfwd = S["passage.direction"], S["passage.running"]
         det = S["passage.detect_error"]
-        o = self.define("actual.orientation@0", z3.If(pfwd, direction, -direction), "int")
-        front = self.define("actual.front@0", S["lrbg.offset"] + self.along(direction, det)
+        o = self.define(f"actual.orientation@{tag}0", z3.If(pfwd, direction, -direction), "int")
+        front = self.define(f"actual.front@{tag}0", S["lrbg.offset"] + self.along(direction, det)
                             + self.along(o, S["train.antenna"]))
-        op = self.define("est.orientation_passage@0", z3.If(pfwd, 1, -1), "int")
-        est_p = self.define("est.front_passage@0", self.along(op, S["train.antenna"]))
-        known = self.define("passage.known", z3.Or(S["lrbg.read"] >= 2, S["lrbg.linked"]), "bool")
+        op = self.define(f"est.orientation_passage@{tag}0", z3.If(pfwd, 1, -1), "int")
+        est_p = self.define(f"est.front_passage@{tag}0", self.along(op, S["train.antenna"]))
+        known = self.define(f"passage.known{'@' + tag if tag else ''}",
+                            z3.Or(S["lrbg.read"] >= 2, S["lrbg.linked"]), "bool")
         S.update({"passage.seen": z3.If(known, direction, 0), "known": known,
                   "frame": z3.If(known, direction, 1)})
+        if not tag:
+            self.known_first = known       # the onboard knows the direction over G1
         S["passage.actual_front"] = front
         S["passage.est_front"] = self.along(S["frame"], est_p)
         return {"count": self.ival(0), "o": o, "op": op, "motion": direction, "front": front,
@@ -149,7 +154,7 @@ class _Terms:
                 "accs": {}, "frozen": {}}
 
     def _step(self, S: dict, st: dict, leg: tuple, *, active, index, tag: str,
-              plan=None, view=None) -> tuple:
+              plan=None, view=None, bounded_if=None) -> tuple:
         """One leg (DESIGN 4.2, 4.3): the state after it and the leg's fields. ``active`` says
         whether the leg happens (the bounded encoding fixes inactive legs to do nothing);
         ``index`` is the leg's number. With a ``plan`` the accumulators and frozen legs of
@@ -173,8 +178,11 @@ class _Terms:
         over = st["over"] + self.pos(odo - dist)
         under = st["under"] + self.pos(dist - odo)
         basis = st["basis"] + (odo if sc.odometry_basis == "measured" else dist)
-        C += [over <= num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * basis,
-              under <= num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * basis]
+        limits = [over <= num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * basis,
+                  under <= num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * basis]
+        # the bound holds from the current LRBG: ``bounded_if`` says when these counters are
+        # the current LRBG's (G1's, up to a relocation; DESIGN 4.8)
+        C += limits if bounded_if is None else [z3.Implies(bounded_if, x) for x in limits]
         known = S["known"]
         fields = {
             "index": index, "cab_change": cab, "running": fwd, "distance": dist,
@@ -226,6 +234,25 @@ class _Terms:
             "est.bound_under": num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * measured,
         })
         self.known = known
+
+    def _group_names(self, S1: dict, G: dict | None, count) -> None:
+        """lrbg.group, journey.legs, g1.* and (two groups) g2.*."""
+        T = self.terms
+        T.update({"journey.legs": count, "g1.balises": S1["lrbg.balises"], "g1.read": S1["lrbg.read"],
+                  "g1.linked": S1["lrbg.linked"], "g1.locacc": S1["lrbg.locacc"],
+                  "g1.offset": S1["lrbg.offset"]})
+        if G is None:
+            T["lrbg.group"] = self.ival(1)
+            return
+        linking = z3.And(G["linked"], self.known_first)
+        T.update({"lrbg.group": z3.If(G["lrbg"], 2, 1), "g2.lrbg": G["lrbg"],
+                  "g2.in_window": G["in_window"], "g2.locacc": z3.ToReal(G["locacc"]),
+                  "g2.link_distance": z3.If(linking, G["distance"], self.num(0)),
+                  "g2.link_side": z3.If(linking, G["side"], 0),
+                  "g2.link_orientation": z3.If(linking, G["orientation"], 0)})
+        for k in ("distance", "side", "orientation", "balises", "read", "linked", "offset",
+                  "found", "at", "detect_error"):
+            T[f"g2.{k}"] = G[k]
 
     # ---- the wire (DESIGN 4.4) ----------------------------------------------------------
     # The step is an Int c (0: 10 cm, 1: 1 m, 2: 10 m). Whether a step fits is written as
@@ -305,6 +332,9 @@ class _Terms:
     def name(self, name: str):
         if name in self.terms:
             return self.terms[name]
+        if name.startswith("info."):           # info.ID.FIELD (DESIGN 4.9)
+            _, info_id, field = name.split(".")
+            return self.info_term(info_id, field)
         if name.startswith("est.") and name[4:] in self.pack.onboard:
             t = self.definition(("onboard", name[4:]))
         elif name.startswith("rbc.") and name[4:] in self.pack.trackside:
@@ -347,6 +377,35 @@ class _Terms:
             return z3.Sum([z3.If(z3.And(a, b), 1, 0) for a, b in items]) if items else self.ival(0)
         zero = self.ival(0) if node.ty == COUNT else self.num(0)
         return z3.Sum([z3.If(a, b, zero) for a, b in items]) if items else zero
+
+    # ---- trackside information items (DESIGN 4.9) -------------------------------------------
+    def item_terms(self, item) -> dict:
+        location = -item.at if (item.for_reverse and not item.for_nominal) else item.at
+        return {"group": self.ival(item.group), "at": self.num(item.at),
+                "for_nominal": z3.BoolVal(item.for_nominal, self.ctx),
+                "for_reverse": z3.BoolVal(item.for_reverse, self.ctx), "location": self.num(location)}
+
+    def info_term(self, info_id: str, field: str):
+        item = self.pack.info(info_id)
+        data = self.item_terms(item)
+        if field in data:
+            return data[field]
+        if field == "real":
+            loc = data["location"]
+            if self.pack.scope.groups == 1:
+                return loc
+            T = self.terms
+            x2 = self.along(T["g2.side"], T["g2.distance"])
+            seen_from = (self.along(T["g2.orientation"], loc - x2) if item.group == 1
+                         else x2 + self.along(T["g2.orientation"], loc))
+            return z3.If(self.name("lrbg.group") == item.group, loc, seen_from)
+        key = (("onboard", f"info_{field}"), info_id)
+        if key not in self._memo:
+            formula = self.pack.definition(key[0])
+            term = self.expr(formula.node, {ITEM: data})
+            sort = "bool" if formula.node.ty == "Bool" else "real"
+            self._memo[key] = self.define(f"onboard.info_{field}.{info_id}", term, sort)
+        return self._memo[key]
 
     def value_term(self, ty: str, value):
         """A constant of a finite type (a parameter's value, DESIGN 4.7)."""
@@ -402,6 +461,10 @@ class _Terms:
                 return env[node.ref[1]][node.ref[2]]
             if kind == "legat":
                 return self.leg_field(node.ref[1], node.ref[2])
+            if kind == "item":
+                return env[ITEM][node.ref[1]]
+            if kind == "info":
+                return self.info_term(node.ref[1], node.ref[2])
             raise AssertionError(node.ref)
         if isinstance(node, ast.Unary):
             x = e(node.operand, env)
@@ -482,11 +545,15 @@ class Encoding(_Terms):
         self._setup(pack, ctx, prefix, [])
         self.K = bound
         self.inputs: dict = {}         # input name -> z3 constant (for models and the ladder)
+        two = pack.scope.groups == 2
         S = self._static()
         count = self.int("legs.count")
         self.inputs["legs.count"] = count
         self.constraints += [count >= 0, count <= bound]
+        if two:
+            G = self._second_inputs()
         st = self._first(S)
+        track, phys = [st], []
         for i in range(1, bound + 1):
             cab, fwd = self.boolean(f"legs.{i}.cab_change"), self.boolean(f"legs.{i}.forward")
             dist, odo = self.real(f"legs.{i}.distance"), self.real(f"legs.{i}.odometer")
@@ -496,11 +563,104 @@ class Encoding(_Terms):
             # an inactive leg is fixed, so that models (and minimal worlds) are canonical
             self.constraints.append(z3.Implies(z3.Not(active), z3.And(z3.Not(cab), fwd, dist == 0, odo == 0)))
             st, fields = self._step(S, st, (cab, fwd, dist, odo), active=active,
-                                    index=self.ival(i), tag=str(i))
+                                    index=self.ival(i), tag=str(i),
+                                    bounded_if=z3.Or(z3.Not(G["lrbg"]), G["at"] >= i) if two else None)
+            track.append(st)
+            phys.append((cab, fwd, dist, odo))
             self.legs.append(fields)
         self._passage_bound(S)
-        self._names(S, st, count)
+        if not two:
+            self._names(S, st, count)
+            self._group_names(S, None, count)
+            return
+        S2, count2 = self._handover(S, G, track, phys, count)
+        st2 = self._first(S2, tag="c")
+        self._passage_bound(S2)
+        self.legs = []
+        off = z3.If(G["lrbg"], G["at"], 0)
+        default = (z3.BoolVal(False, ctx), z3.BoolVal(True, ctx), self.num(0), self.num(0))
+        for j in range(1, bound + 1):
+            leg = []
+            for f in range(4):
+                chosen = default[f]
+                for i in range(bound, j, -1):      # leg j after G2 is the physical leg at + j
+                    chosen = z3.If(off + j == i, phys[i - 1][f], chosen)
+                leg.append(z3.If(G["lrbg"], chosen, phys[j - 1][f]))
+            st2, fields = self._step(S2, st2, tuple(leg), active=count2 >= j, index=self.ival(j),
+                                     tag=f"c{j}", bounded_if=G["lrbg"])
+            self.legs.append(fields)
+        self._names(S2, st2, count2)
+        self._group_names(S, G, count)
 
+    # ---- the second group (DESIGN 4.8) ----------------------------------------------------
+    def _second_inputs(self) -> dict:
+        sc, C, num = self.pack.scope, self.constraints, self.num
+        g = {"distance": self.real("g2.distance"), "side": self.int("g2.side"),
+             "orientation": self.int("g2.orientation"), "balises": self.int("g2.balises"),
+             "read": self.int("g2.read"), "linked": self.boolean("g2.linked"),
+             "locacc": self.int("g2.locacc"), "offset": self.real("g2.offset"),
+             "found": self.boolean("g2.found"), "at": self.int("g2.at"),
+             "detect_error": self.real("g2.detect_error")}
+        self.inputs.update({f"g2.{k}": v for k, v in g.items()})
+        acc = z3.ToReal(g["locacc"])
+        side = {"nominal": [g["side"] == 1], "reverse": [g["side"] == -1],
+                "any": [z3.Or(g["side"] == 1, g["side"] == -1)]}[sc.g2_side]
+        orient = {"same": [g["orientation"] == 1], "opposite": [g["orientation"] == -1],
+                  "any": [z3.Or(g["orientation"] == 1, g["orientation"] == -1)]}[sc.g2_orientation]
+        C += side + orient + [
+            g["distance"] >= num(sc.g2_distance[0]), g["distance"] <= num(sc.g2_distance[1]),
+            g["balises"] >= sc.g2_balises[0], g["balises"] <= sc.g2_balises[1],
+            g["read"] >= 1, g["read"] <= g["balises"],
+            g["locacc"] >= int(sc.g2_locacc[0]), g["locacc"] <= int(sc.g2_locacc[1]),
+            g["offset"] >= -acc, g["offset"] <= acc,
+            g["detect_error"] >= -num(sc.detection), g["detect_error"] <= num(sc.detection),
+            z3.Implies(z3.Not(g["found"]), z3.And(g["at"] == 0, g["detect_error"] == 0)),
+            z3.Implies(g["found"], z3.And(g["at"] >= 1, g["at"] <= self.inputs["legs.count"]))]
+        g["lrbg"] = self.boolean(self.prefix + "g2.lrbg")   # defined by _handover
+        return g
+
+    def _handover(self, S: dict, G: dict, track: list, phys: list, count) -> tuple:
+        """Where G2 is found, whether it becomes the LRBG, and the inputs of the world as the
+        current LRBG sees it (G2's passage; the legs after it are chosen by the caller)."""
+        sc, C, num = self.pack.scope, self.constraints, self.num
+        antenna = S["train.antenna"]
+        mark = self.along(G["side"], G["distance"]) + self.along(G["orientation"], G["offset"])
+        known1 = self.known_first
+        wins, m_at, fwd_at = [], self.ival(0), z3.BoolVal(True, self.ctx)
+        for i in range(len(phys), 0, -1):
+            st = track[i]
+            here = z3.And(G["found"], G["at"] == i)
+            real_antenna = st["front"] - self.along(st["o"], antenna)
+            C.append(z3.Implies(here, real_antenna == mark + self.along(st["motion"], G["detect_error"])))
+            # the leg moves the antenna onto G2 (DESIGN 4.8)
+            C.append(z3.Implies(here, z3.And(phys[i - 1][2] > 0, phys[i - 1][2] > G["detect_error"])))
+            est_antenna = self.along(S["passage.direction"], st["est_p"]) - self.along(st["o"], antenna)
+            u = self.along(G["side"], est_antenna)
+            margin = S["lrbg.locacc"]
+            lo = u - margin - (num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * st["measured"])
+            hi = u + margin + (num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * st["measured"])
+            acc = z3.ToReal(G["locacc"])
+            wins.append(z3.And(here, hi >= G["distance"] - acc, lo <= G["distance"] + acc))
+            m_at = z3.If(G["at"] == i, st["motion"], m_at)
+            fwd_at = z3.If(G["at"] == i, phys[i - 1][1], fwd_at)
+        linking = z3.And(G["linked"], known1)
+        in_window = self.define("g2.in_window", z3.And(linking, z3.Or(wins)) if wins else z3.BoolVal(False, self.ctx), "bool")
+        accepted = z3.If(linking, z3.And(in_window, m_at == G["side"]), G["read"] >= 2)
+        C.append(G["lrbg"] == z3.And(G["found"], accepted))
+        G["in_window"] = in_window
+        r = G["lrbg"]
+        d2 = z3.If(G["orientation"] == 1, m_at, -m_at)
+        S2 = {"lrbg.balises": z3.If(r, G["balises"], S["lrbg.balises"]),
+              "lrbg.read": z3.If(r, G["read"], S["lrbg.read"]),
+              "lrbg.linked": z3.If(r, G["linked"], S["lrbg.linked"]),
+              "lrbg.locacc": z3.If(r, z3.ToReal(G["locacc"]), S["lrbg.locacc"]),
+              "lrbg.offset": z3.If(r, G["offset"], S["lrbg.offset"]),
+              "train.length": S["train.length"], "train.antenna": S["train.antenna"],
+              "passage.direction": z3.If(r, d2, S["passage.direction"]),
+              "passage.running": z3.If(r, fwd_at, S["passage.running"]),
+              "passage.detect_error": z3.If(r, G["detect_error"], S["passage.detect_error"])}
+        count2 = self.define("legs.count@current", count - z3.If(r, G["at"], 0), "int")
+        return S2, count2
 
 def _is_const(node: ast.Node) -> bool:
     if isinstance(node, ast.Num):

@@ -54,6 +54,7 @@ class View(_Terms):
             self.known = S["known"]
         else:
             self._names(S, st, count)
+            self._group_names(S, None, count)
 
     def name(self, name: str):
         if self.st is None and name not in self.terms:

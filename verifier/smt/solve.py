@@ -196,15 +196,25 @@ def ladder(ses: _Session, I: dict, K: int, count, cab_changes, more=None) -> boo
         L.least_int(count, 0)
         L.least_int(cab_changes, 0)
         L.least_int(I["lrbg.balises"], 1)
+        two = "g2.distance" in I            # a second group (DESIGN 4.8): its inputs likewise
+        if two:
+            L.least_int(I["g2.balises"], 1)
         # (2) each error to 0 where possible
         errors = [I["lrbg.offset"], I["passage.detect_error"]] + [
             I[f"legs.{i}.odometer"] - I[f"legs.{i}.distance"] for i in range(1, K + 1)]
+        if two:
+            errors += [I["g2.offset"], I["g2.detect_error"]]
         zeroed = [L.try_fix(e == 0) for e in errors]
         # (3) every other input to its least feasible value, in this documented order
         L.least_int(I["lrbg.read"], 1)
         L.least_int(I["lrbg.locacc"], 0)
         L.least_on_grid(I["train.length"], Fraction(0))
         L.least_on_grid(I["train.antenna"], Fraction(0))
+        if two:
+            L.least_int(I["g2.read"], 1)
+            L.least_int(I["g2.locacc"], 0)
+            L.least_on_grid(I["g2.distance"], Fraction(0))
+            L.least_int(I["g2.at"], 0)
         for i in range(1, K + 1):
             L.least_on_grid(I[f"legs.{i}.distance"], Fraction(0))
         for e, z in zip(errors, zeroed):
@@ -214,6 +224,11 @@ def ladder(ses: _Session, I: dict, K: int, count, cab_changes, more=None) -> boo
             more(L)
         # (4) Booleans false first, enums in declaration order
         L.try_fix(z3.Not(I["lrbg.linked"]))
+        if two:
+            L.try_fix(z3.Not(I["g2.linked"]))
+            L.try_fix(z3.Not(I["g2.found"]))
+            L.try_fix(I["g2.side"] == 1)
+            L.try_fix(I["g2.orientation"] == 1)
         for i in range(1, K + 1):
             L.try_fix(z3.Not(I[f"legs.{i}.cab_change"]))
         L.try_fix(I["passage.direction"] == 1)          # nominal before reverse
@@ -269,6 +284,16 @@ def _read_world(model, enc: Encoding) -> dict:
         "detect_error": _fraction(ev(I["passage.detect_error"])),
         "legs": [],
     }
+    if "g2.distance" in I:
+        g = {k: ev(I[f"g2.{k}"]) for k in ("distance", "side", "orientation", "balises", "read",
+                                           "linked", "locacc", "offset", "found", "at", "detect_error")}
+        word = {1: "nominal", -1: "reverse"}
+        world["g2"] = {"distance": _fraction(g["distance"]), "side": word[g["side"].as_long()],
+                       "orientation": word[g["orientation"].as_long()], "balises": g["balises"].as_long(),
+                       "read": g["read"].as_long(), "linked": z3.is_true(g["linked"]),
+                       "locacc": _fraction(g["locacc"]), "offset": _fraction(g["offset"]),
+                       "found": z3.is_true(g["found"]), "at": g["at"].as_long(),
+                       "detect_error": _fraction(g["detect_error"])}
     for i in range(1, count + 1):
         world["legs"].append({
             "cab_change": z3.is_true(ev(I[f"legs.{i}.cab_change"])),

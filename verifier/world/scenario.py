@@ -10,7 +10,7 @@ from pathlib import Path
 
 from verifier.errors import Diagnostic, PackError
 from verifier.world.numbers import fmt  # noqa: F401 - re-exported: scenario.fmt is public
-from verifier.world.sim import Leg, World
+from verifier.world.sim import Group2, Leg, World
 from verifier.world.vocab import Direction, Running
 
 
@@ -39,7 +39,7 @@ def parse_length(value, where: str) -> Fraction:
 
 
 def world_to_data(w: World) -> dict:
-    return {
+    out = {
         "lrbg": {"balises": w.balises, "read": w.read, "linked": w.linked,
                  "locacc": fmt(w.locacc), "offset": fmt(w.offset)},
         "train": {"length": fmt(w.length), "antenna": fmt(w.antenna)},
@@ -48,6 +48,13 @@ def world_to_data(w: World) -> dict:
         "legs": [{"cab_change": leg.cab_change, "running": leg.running.word,
                   "distance": fmt(leg.distance), "odometer": fmt(leg.odometer)} for leg in w.legs],
     }
+    if w.g2 is not None:
+        g = w.g2
+        out["g2"] = {"distance": fmt(g.distance), "side": g.side.word, "orientation": g.orientation.word,
+                     "balises": g.balises, "read": g.read, "linked": g.linked, "locacc": fmt(g.locacc),
+                     "offset": fmt(g.offset), "found": g.found, "at": g.at,
+                     "detect_error": fmt(g.detect_error)}
+    return out
 
 
 def legs_from_flat(legs: list) -> tuple:
@@ -61,7 +68,13 @@ def world_from_flat(d: dict) -> World:
         balises=d["balises"], read=d["read"], linked=d["linked"], locacc=d["locacc"],
         offset=d["offset"], length=d["length"], antenna=d["antenna"],
         direction=Direction[d["direction"].upper()], running=Running(d["running"]),
-        detect_error=d["detect_error"], legs=legs_from_flat(d["legs"]))
+        detect_error=d["detect_error"], legs=legs_from_flat(d["legs"]),
+        g2=None if d.get("g2") is None else Group2(
+            distance=d["g2"]["distance"], side=Direction[d["g2"]["side"].upper()],
+            orientation=Direction[d["g2"]["orientation"].upper()], balises=d["g2"]["balises"],
+            read=d["g2"]["read"], linked=d["g2"]["linked"], locacc=d["g2"]["locacc"],
+            offset=d["g2"]["offset"], found=d["g2"]["found"], at=d["g2"]["at"],
+            detect_error=d["g2"]["detect_error"]))
 
 
 _KEYS = {"lrbg": {"balises", "read", "linked", "locacc", "offset"},
@@ -74,9 +87,9 @@ def world_from_data(data, where: str = "world") -> World:
     """Parse a scenario; raise ValueError naming the field at fault."""
     if not isinstance(data, dict):
         raise ValueError(f"{where} must be a table")
-    extra = set(data) - set(_KEYS) - {"legs"}
+    extra = set(data) - set(_KEYS) - {"legs", "g2"}
     if extra:
-        raise ValueError(f"{where}: unknown key '{sorted(extra)[0]}' (keys: lrbg, train, passage, legs)")
+        raise ValueError(f"{where}: unknown key '{sorted(extra)[0]}' (keys: lrbg, train, passage, legs, g2)")
     kw: dict = {}
     for table, keys in _KEYS.items():
         t = data.get(table, {})
@@ -140,7 +153,35 @@ def world_from_data(data, where: str = "world") -> World:
             distance=distance,
             odometer=parse_length(leg.get("odometer", leg.get("distance", 0)), f"{lw}.odometer")))
     kw["legs"] = tuple(out)
+    if "g2" in data:
+        kw["g2"] = _group2_from_data(data["g2"], f"{where}.g2", count, flag, word)
     return World(**kw)
+
+
+_G2_KEYS = {"distance", "side", "orientation", "balises", "read", "linked", "locacc", "offset",
+            "found", "at", "detect_error"}
+
+
+def _group2_from_data(t, where: str, count, flag, word) -> Group2:
+    if not isinstance(t, dict):
+        raise ValueError(f"{where} must be a table")
+    bad = set(t) - _G2_KEYS
+    if bad:
+        raise ValueError(f"{where}: unknown key '{sorted(bad)[0]}' (keys: {', '.join(sorted(_G2_KEYS))})")
+    kw: dict = {}
+    for key in ("distance", "locacc", "offset", "detect_error"):
+        if key in t:
+            kw[key] = parse_length(t[key], f"{where}.{key}")
+    for key in ("balises", "read", "at"):
+        if key in t:
+            kw[key] = count(t[key], f"g2.{key}")
+    for key in ("linked", "found"):
+        if key in t:
+            kw[key] = flag(t[key], f"g2.{key}")
+    for key in ("side", "orientation"):
+        if key in t:
+            kw[key] = word(t[key], f"g2.{key}", Direction)
+    return Group2(**kw)
 
 
 def read_scenario(path: str | Path) -> World:

@@ -31,6 +31,13 @@ class Scope:
     odometry_under: Bound = Bound(F(5), F(1, 20))
     detection: Fraction = F(1)                  # 1 m, SUBSET-036 4.2.10.2
     odometry_basis: str = "measured"            # or "real"
+    # a second group (DESIGN 4.8): [world] groups = 2
+    groups: int = 1
+    g2_distance: tuple = (F(50), F(3000))       # engineered distance from G1's mark to G2's
+    g2_side: str = "any"                        # where G2 lies from G1: nominal, reverse or any
+    g2_orientation: str = "any"                 # G2's nominal direction against G1's: same, opposite, any
+    g2_balises: tuple = (1, 8)
+    g2_locacc: tuple = (F(0), F(63))
 
     def constants(self) -> dict:
         """The ``world.*`` names and their values, with their types."""
@@ -48,6 +55,11 @@ class Scope:
             b = getattr(self, key)
             out[f"world.{key}.fixed"] = (LENGTH, b.fixed)
             out[f"world.{key}.rate"] = (NUMBER, b.rate)
+        if self.groups == 2:
+            for key in ("g2_distance", "g2_locacc"):
+                lo, hi = getattr(self, key)
+                out[f"world.{key}.low"] = (LENGTH, lo)
+                out[f"world.{key}.high"] = (LENGTH, hi)
         return out
 
     def as_json(self) -> dict:
@@ -63,4 +75,9 @@ class Scope:
             "odometry_under": {"fixed": q(self.odometry_under.fixed), "rate": q(self.odometry_under.rate)},
             "detection": q(self.detection),
             "odometry_basis": self.odometry_basis,
+            # a one-group scope keeps the form it always had (its files and hashes do not change)
+            **({} if self.groups == 1 else {
+                "groups": 2, "g2_distance": [q(x) for x in self.g2_distance], "g2_side": self.g2_side,
+                "g2_orientation": self.g2_orientation, "g2_balises": list(self.g2_balises),
+                "g2_locacc": [q(x) for x in self.g2_locacc]}),
         }

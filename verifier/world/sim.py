@@ -45,6 +45,25 @@ class World:
     running: Running = FWD
     detect_error: Fraction = F(0)
     legs: tuple = ()
+    g2: "Group2 | None" = None      # the second group of a two-group pack (DESIGN 4.8)
+
+
+@attrs.frozen
+class Group2:
+    """The second group of DESIGN 4.8, in G1's frame: where it lies, which way it faces, what
+    linking says of it, and whether (and at the end of which leg) the train detects it."""
+
+    distance: Fraction = F(100)     # engineered distance from G1's reference mark to G2's
+    side: Direction = NOM           # the way from G1 to G2, in G1's frame
+    orientation: Direction = NOM    # G2's nominal direction in G1's frame (nominal: the same way)
+    balises: int = 2
+    read: int = 2
+    linked: bool = False            # linking announced G2: D_LINK, the direction of passage, Q_LOCACC
+    locacc: Fraction = F(0)
+    offset: Fraction = F(0)         # real reference mark minus engineered, in G2's frame (hidden)
+    found: bool = False             # the train detects G2 ...
+    at: int = 0                     # ... at the end of this leg (0 when not found)
+    detect_error: Fraction = F(0)   # error locating G2's mark, along the movement (hidden)
 
 
 def sign(d: Direction) -> int:
@@ -94,6 +113,8 @@ def scope_problems(world: World, scope: Scope, bound: int) -> list[str]:
         out.append("passage.direction must be nominal or reverse")
     if abs(world.detect_error) > scope.detection:
         out.append(f"|passage.detect_error| above world.detection {scope.detection} m")
+    if (world.g2 is None) != (scope.groups == 1):
+        out.append("a two-group pack's worlds have a second group, and only they" )
     if len(world.legs) > bound:
         out.append(f"{len(world.legs)} legs, above the bound {bound}")
     for i, leg in enumerate(world.legs, 1):
@@ -101,12 +122,26 @@ def scope_problems(world: World, scope: Scope, bound: int) -> list[str]:
             out.append(f"legs[{i}].distance {leg.distance} m outside the scope")
         if leg.odometer < 0:
             out.append(f"legs[{i}].odometer is negative")
-    # the prefix-closed reading error bound (DESIGN 4.1)
-    d = world.detect_error
+    # the prefix-closed reading error bound (DESIGN 4.1); with a relocation, up to the detection
+    # of G2 here, then from G2 on (the rest of the world as seen from G2, DESIGN 4.8)
+    if world.g2 is not None and scope.groups == 2:
+        out += _second_group_problems(world, scope)
+        h = handover(world, scope)
+        if h.accepted:
+            out += _reading_problems(world.detect_error, world.legs[:world.g2.at], scope)
+            out += [f"after G2: {p}" for p in _reading_problems(h.current.detect_error, h.current.legs, scope)]
+            return out
+    out += _reading_problems(world.detect_error, world.legs, scope)
+    return out
+
+
+def _reading_problems(d: Fraction, legs, scope: Scope) -> list[str]:
+    """The reading error bound at the passage and after every leg (DESIGN 4.1)."""
+    out = []
     over, under, measured = max(F(0), -d), max(F(0), d), F(0)
-    for j in range(len(world.legs) + 1):
+    for j in range(len(legs) + 1):
         if j:
-            leg = world.legs[j - 1]
+            leg = legs[j - 1]
             over += max(F(0), leg.odometer - leg.distance)
             under += max(F(0), leg.distance - leg.odometer)
             measured += leg.odometer if scope.odometry_basis == "measured" else leg.distance
@@ -115,6 +150,87 @@ def scope_problems(world: World, scope: Scope, bound: int) -> list[str]:
         if under > scope.odometry_under.at(measured):
             out.append(f"under-reading {_m(under)} after {j} legs exceeds the bound {_m(scope.odometry_under.at(measured))}")
     return out
+
+
+def _second_group_problems(world: World, scope: Scope) -> list[str]:
+    g, out = world.g2, []
+    lo, hi = scope.g2_distance
+    if not lo <= g.distance <= hi:
+        out.append(f"g2.distance {g.distance} m outside {lo}..{hi} m")
+    for name, v, allowed in (("g2.side", g.side, {"nominal": {NOM}, "reverse": {REV}, "any": {NOM, REV}}[scope.g2_side]),
+                             ("g2.orientation", g.orientation,
+                              {"same": {NOM}, "opposite": {REV}, "any": {NOM, REV}}[scope.g2_orientation])):
+        if v not in allowed:
+            out.append(f"{name} {v.word} outside the scope")
+    if not scope.g2_balises[0] <= g.balises <= scope.g2_balises[1] or not 1 <= g.read <= g.balises:
+        out.append(f"g2.balises {g.balises} or g2.read {g.read} outside the scope")
+    if g.locacc.denominator != 1 or not scope.g2_locacc[0] <= g.locacc <= scope.g2_locacc[1]:
+        out.append(f"g2.locacc {g.locacc} m not a whole metre in the scope")
+    if abs(g.offset) > g.locacc:
+        out.append("|g2.offset| above g2.locacc")
+    if abs(g.detect_error) > scope.detection:
+        out.append("|g2.detect_error| above world.detection")
+    if not g.found:
+        if g.at != 0 or g.detect_error != 0:
+            out.append("a group not found has g2.at 0 and no detection error")
+        return out
+    if not 1 <= g.at <= len(world.legs):
+        out.append(f"g2.at {g.at} is not a leg of the world")
+        return out
+    snap = start(world)
+    for leg in world.legs[:g.at]:
+        snap, _ = advance(snap, leg)
+    antenna = snap.front - snap.orientation * world.antenna
+    mark = sign(g.side) * g.distance + sign(g.orientation) * g.offset
+    if not world.legs[g.at - 1].distance > max(F(0), g.detect_error):
+        out.append(f"G2 is found at the end of leg {g.at}, which must move the antenna onto it "
+                   "(more than 0 m, and more than the detection error)")
+    if antenna != mark + snap.motion * g.detect_error:
+        out.append(f"G2 found at the end of leg {g.at}, but the antenna is at {_m(antenna)}, not at G2's "
+                   f"mark {_m(mark)} with the detection error")
+    return out
+
+
+@attrs.frozen
+class Handover:
+    """What the second group does to a world (DESIGN 4.8)."""
+
+    in_window: bool               # a linked G2 was found inside its expectation window
+    accepted: bool                # G2 became the LRBG (at the end of leg g2.at)
+    current: World                # the world as the current LRBG sees it: G2's passage and the legs after it
+
+
+def handover(world: World, scope: Scope) -> Handover:
+    """Whether G2 becomes the LRBG, and the world from then on (DESIGN 4.8): a linked G2 in its
+    window and passed the announced way (SUBSET-026 3.4.4.4.3, 3.4.4.4.7); an unlinked one, or
+    any when the direction over G1 is unknown (no linking can be used), only with two balises
+    read (3.4.4.3.2)."""
+    g = world.g2
+    if g is None or not g.found or not 1 <= g.at <= len(world.legs):
+        return Handover(False, False, world)
+    snap = start(world)
+    for leg in world.legs[:g.at]:
+        snap, _ = advance(snap, leg)
+    in_window = False
+    if g.linked and known(world):
+        est_front = sign(world.direction) * snap.est_front_passage
+        est_antenna = est_front - snap.orientation * world.antenna
+        u = sign(g.side) * est_antenna                 # estimated distance from G1 towards G2
+        margin = world.locacc
+        lo = u - margin - scope.odometry_over.at(snap.measured)
+        hi = u + margin + scope.odometry_under.at(snap.measured)
+        in_window = hi >= g.distance - g.locacc and lo <= g.distance + g.locacc
+        accepted = in_window and snap.motion == sign(g.side)
+    else:
+        accepted = g.read >= 2
+    if not accepted:
+        return Handover(in_window, False, world)
+    leg = world.legs[g.at - 1]
+    current = World(balises=g.balises, read=g.read, linked=g.linked, locacc=g.locacc, offset=g.offset,
+                    length=world.length, antenna=world.antenna,
+                    direction=direction_of(sign(g.orientation) * snap.motion), running=leg.running,
+                    detect_error=g.detect_error, legs=world.legs[g.at:])
+    return Handover(in_window, True, current)
 
 
 @attrs.frozen(eq=True)
@@ -313,6 +429,26 @@ def snapshot_values(snap: Snapshot, scope: Scope) -> dict:
     }
 
 
+def group_values(world: World, h: Handover) -> dict:
+    """The names of the groups (DESIGN 4.8): which is the LRBG, G1's inputs, G2's."""
+    out = {"lrbg.group": F(2 if h.accepted else 1), "journey.legs": F(len(world.legs)),
+           "g1.balises": F(world.balises), "g1.read": F(world.read), "g1.linked": world.linked,
+           "g1.locacc": world.locacc, "g1.offset": world.offset}
+    g = world.g2
+    if g is not None:
+        linked = g.linked and known(world)
+        out.update({
+            "g2.distance": g.distance, "g2.side": g.side, "g2.orientation": g.orientation,
+            "g2.balises": F(g.balises), "g2.read": F(g.read), "g2.linked": g.linked,
+            "g2.locacc": g.locacc, "g2.offset": g.offset, "g2.found": g.found, "g2.at": F(g.at),
+            "g2.detect_error": g.detect_error, "g2.in_window": h.in_window, "g2.lrbg": h.accepted,
+            "g2.link_distance": g.distance if linked else F(0),
+            "g2.link_side": g.side if linked else UNK,
+            "g2.link_orientation": g.orientation if linked else UNK,
+        })
+    return out
+
+
 class _Values:
     """Vocabulary values of one state under one pack, computed on demand and memoised:
     the designs (DESIGN 4.4, 4.5) and the wire over what the state determines."""
@@ -391,6 +527,30 @@ class _Values:
     def quantify(self, node: ast.Quant, env: dict):
         raise NotImplementedError
 
+    # ---- trackside information items (DESIGN 4.9) -------------------------------------
+    def info_value(self, info_id: str, field: str):
+        item = self.pack.info(info_id)
+        data = item_data(item)
+        if field in data:
+            return data[field]
+        if field == "real":
+            return self._info_real(item)
+        key = (("onboard", f"info_{field}"), info_id)
+        if key not in self._memo:
+            self._memo[key] = evaluate(self.pack.definition(key[0]).node, self, {ITEM: data})
+        return self._memo[key]
+
+    def _info_real(self, item) -> Fraction:
+        """Where the item is, in the current LRBG's frame, from the line data."""
+        group = int(self.get("lrbg.group"))
+        if item.group == group:
+            return item.location
+        g = self.world.g2
+        x2, s2 = sign(g.side) * g.distance, sign(g.orientation)
+        if group == 2:                      # an item of G1, seen from G2
+            return s2 * (item.location - x2)
+        return x2 + s2 * item.location      # an item of G2, seen from G1
+
     def leg_at(self, index: int, field: str):
         raise NotImplementedError
 
@@ -405,11 +565,60 @@ class State(_Values):
         self.values: dict = {}
         self.legs: list[dict] = []
         self._memo: dict = {}
-        snap = start(world)
-        for leg in world.legs:
+        # with a second group that became the LRBG, the legs and every name of the current LRBG
+        # are those of the world as G2 sees it (DESIGN 4.8)
+        self.handover = handover(world, pack.scope)
+        self.current = self.handover.current
+        snap = start(self.current)
+        for leg in self.current.legs:
             snap, fields = advance(snap, leg)
             self.legs.append(fields)
         self.values.update(snapshot_values(snap, pack.scope))
+        self.values.update(group_values(world, self.handover))
+
+    def journey_raw(self) -> list:
+        """Every leg since G1's passage with its fields in the frame of the group that was the
+        LRBG during it: [(Leg, fields, group)]."""
+        if not self.handover.accepted:
+            return [(leg, f, 1) for leg, f in zip(self.world.legs, self.legs)]
+        out, snap = [], start(self.world)
+        for leg in self.world.legs[:self.world.g2.at]:
+            snap, f = advance(snap, leg)
+            out.append((leg, f, 1))
+        return out + [(leg, f, 2) for leg, f in zip(self.current.legs, self.legs)]
+
+    @property
+    def journey(self) -> list:
+        """Every leg since G1's passage with its fields in the frame of the current LRBG, and
+        the group that was the LRBG during it: [(Leg, fields, group)]. Legs before a relocation
+        are seen from G2 (DESIGN 4.8); without one this is the legs with ``self.legs``."""
+        if not self.handover.accepted:
+            return [(leg, f, 1) for leg, f in zip(self.world.legs, self.legs)]
+        g = self.world.g2
+        x2, s2 = sign(g.side) * g.distance, sign(g.orientation)
+        out = []
+        snap = start(self.world)
+        for leg in self.world.legs[:g.at]:
+            snap, f = advance(snap, leg)
+            f = dict(f)
+            for k in ("actual_front", "est_front"):
+                f[k] = s2 * (f[k] - x2)
+            for k in ("orientation", "motion", "actual_orientation", "actual_motion"):
+                if f[k] is not UNK:
+                    f[k] = direction_of(s2 * sign(f[k]))
+            out.append((leg, f, 1))
+        return out + [(leg, f, 2) for leg, f in zip(self.current.legs, self.legs)]
+
+    def other_group(self) -> tuple | None:
+        """The group that is not the LRBG, in the current LRBG's frame: (name, position, sign of
+        its nominal direction, balises); None with one group."""
+        g = self.world.g2
+        if g is None:
+            return None
+        x2, s2 = sign(g.side) * g.distance, sign(g.orientation)
+        if self.handover.accepted:
+            return ("G1", s2 * (0 - x2), s2, self.world.balises)
+        return ("G2", x2, s2, g.balises)
 
     def quantify(self, node: ast.Quant, env: dict):
         results = [evaluate(node.body, self, {**env, node.var: leg}) for leg in self.legs]
@@ -444,6 +653,8 @@ class SnapView(_Values):
         self.world = snap.world
         self.plan = plan
         self.values = snapshot_values(snap, pack.scope)
+        self.values.update(group_values(snap.world, Handover(False, False, snap.world)))
+        self.values["journey.legs"] = F(snap.count)
         if static_only:
             self.values = {k: v for k, v in self.values.items() if k in STATIC}
         self.static_only = static_only
@@ -471,6 +682,13 @@ class SnapView(_Values):
 
 
 OVERRIDE = "$override"   # env key: sub-terms replaced by given values (accumulator parameters)
+ITEM = "$item"           # env key: the information item an info_* formula is evaluated for
+
+
+def item_data(item) -> dict:
+    """The item.* values of an information item."""
+    return {"group": F(item.group), "at": item.at, "for_nominal": item.for_nominal,
+            "for_reverse": item.for_reverse, "location": item.location}
 
 
 def evaluate(node: ast.Node, st: _Values, env: dict):
@@ -496,6 +714,10 @@ def evaluate(node: ast.Node, st: _Values, env: dict):
             return env[node.ref[1]][node.ref[2]]
         if kind == "legat":
             return st.leg_at(node.ref[1], node.ref[2])
+        if kind == "item":
+            return env[ITEM][node.ref[1]]
+        if kind == "info":
+            return st.info_value(node.ref[1], node.ref[2])
         raise AssertionError(node.ref)
     if isinstance(node, ast.Unary):
         x = evaluate(node.operand, st, env)

@@ -64,7 +64,7 @@ def _e(name, ty, readers, kind, meaning):
 
 
 GLOBAL = {e.name: e for e in [
-    _e("lrbg.balises", COUNT, OB, "input", "balises in the group (N_TOTAL + 1)"),
+    _e("lrbg.balises", COUNT, OB, "input", "balises in the group (N_TOTAL + 1); with two groups, of the current LRBG (as every lrbg.* and passage.* name)"),
     _e("lrbg.read", COUNT, OB, "input", "balises of the group detected; the reference balise is among them"),
     _e("lrbg.linked", BOOL, OB, "input", "linking announced the group and its direction of passage"),
     _e("lrbg.locacc", LENGTH, BOTH, "input", "location accuracy applied to the group (Q_LOCACC)"),
@@ -123,7 +123,54 @@ GLOBAL = {e.name: e for e in [
     _e("rbc.max_safe_front", LENGTH, TS, "trackside-output", "trackside formula max_safe_front"),
     _e("rbc.min_safe_front", LENGTH, TS, "trackside-output", "trackside formula min_safe_front"),
     _e("rbc.min_safe_rear", LENGTH, TS, "trackside-output", "trackside formula min_safe_rear"),
+    # the groups (DESIGN 4.8); g2.* only in packs with [world] groups = 2
+    _e("lrbg.group", COUNT, BOTH, "derived", "which group is the LRBG: 1, or 2 after G2 became the LRBG (NID_LRBG)"),
+    _e("journey.legs", COUNT, OB, "derived", "legs since the passage over G1 (legs.count counts those since the current LRBG)"),
+    _e("g1.balises", COUNT, OB, "input", "balises in the first group G1"),
+    _e("g1.read", COUNT, OB, "input", "balises of G1 read"),
+    _e("g1.linked", BOOL, OB, "input", "linking announced G1"),
+    _e("g1.locacc", LENGTH, BOTH, "input", "Q_LOCACC of G1"),
+    _e("g1.offset", LENGTH, NOBODY, "hidden-input", "G1's real reference mark minus its engineered location"),
+    _e("g2.distance", LENGTH, TS, "input", "engineered distance from G1's reference mark to G2's (line data)"),
+    _e("g2.side", DIRECTION, TS, "input", "the way from G1 to G2, in G1's frame"),
+    _e("g2.orientation", DIRECTION, TS, "input", "G2's nominal direction in G1's frame: nominal = the same way as G1, reverse = opposite"),
+    _e("g2.balises", COUNT, OB, "input", "balises in G2"),
+    _e("g2.read", COUNT, OB, "input", "balises of G2 read when it is found"),
+    _e("g2.linked", BOOL, OB, "input", "linking announced G2: D_LINK, the direction of passage and its Q_LOCACC"),
+    _e("g2.locacc", LENGTH, BOTH, "input", "Q_LOCACC of G2"),
+    _e("g2.offset", LENGTH, NOBODY, "hidden-input", "G2's real reference mark minus its engineered location, in G2's frame"),
+    _e("g2.found", BOOL, OB, "input", "the train detects G2 (at the end of leg g2.at)"),
+    _e("g2.at", COUNT, OB, "input", "the leg (counted from G1's passage) at whose end G2 is detected; 0 when not found"),
+    _e("g2.detect_error", LENGTH, NOBODY, "hidden-input", "error locating G2's mark, along the movement (positive: the antenna further along than believed)"),
+    _e("g2.in_window", BOOL, OB, "derived", "a linked G2 was found inside its expectation window, D_LINK -/+ its Q_LOCACC widened by the estimate's confidence interval (SUBSET-026 3.4.4.4.3)"),
+    _e("g2.lrbg", BOOL, BOTH, "derived", "G2 became the LRBG: found and, if linked, in its window and passed the announced way, else read with two balises"),
+    _e("g2.link_distance", LENGTH, OB, "derived", "D_LINK as linking gives it (g2.distance when linked and the passage over G1 is known, else 0 m)"),
+    _e("g2.link_side", DIRECTION, OB, "derived", "the way to G2 as linking gives it (unknown without usable linking)"),
+    _e("g2.link_orientation", DIRECTION, OB, "derived", "G2's orientation in G1's frame as linking gives it (unknown without usable linking)"),
 ]}
+
+#: Names only a pack with [world] groups = 2 may use.
+TWO_GROUPS = frozenset(n for n in GLOBAL if n.startswith("g2."))
+def entry(name: str) -> Entry:
+    """The Entry of a name as the checker records reads: vocabulary names, ``leg.F``,
+    ``item.F`` (an info formula's item) and ``info.*.F`` (an information item's field)."""
+    if name.startswith("leg."):
+        return LEG[name[4:]]
+    if name.startswith("item."):
+        return Entry(name, ITEM[name[5:]][0], OB, ITEM[name[5:]][1], "input")
+    if name.startswith("info.*."):
+        ty, readers, kind, meaning = INFO_FIELDS[name[7:]]
+        return Entry(name, ty, readers, meaning, kind)
+    return GLOBAL[name]
+
+
+def names_for(groups: int) -> list:
+    """The vocabulary names a pack with ``groups`` groups may use, in table order."""
+    return [n for n in GLOBAL if groups == 2 or n not in TWO_GROUPS]
+
+
+#: Names written into evidence files only for two-group packs (one-group files keep their form).
+GROUP_NAMES = frozenset(n for n in GLOBAL if n.startswith(("g1.", "g2.", "journey.")) or n == "lrbg.group")
 
 # Per-leg names: leg.FIELD inside a quantifier, legs[i].FIELD outside.
 LEG = {e.name: e for e in [
@@ -144,6 +191,42 @@ ONBOARD_OUTPUTS = {"q_dlrbg": DIRECTION, "d_lrbg": LENGTH, "q_dirlrbg": DIRECTIO
                    "q_dirtrain": DIRECTION, "l_doubtover": LENGTH, "l_doubtunder": LENGTH}
 TRACKSIDE_OUTPUTS = {"est_front": LENGTH, "max_safe_front": LENGTH, "min_safe_front": LENGTH,
                      "min_safe_rear": LENGTH}
+
+# Trackside information items ([[info]], DESIGN 4.9): the onboard design decides, per item,
+# whether it applies and where it lies in the frame of the current LRBG. These formulas read
+# item.* (the item they are evaluated for) besides the onboard's names.
+INFO_OUTPUTS = {"info_accepted": BOOL, "info_position": LENGTH}
+ITEM = {
+    "group": (COUNT, "the item's reference group (1 or 2)"),
+    "at": (LENGTH, "the distance sent, from the reference group in the direction of validity"),
+    "for_nominal": (BOOL, "the item applies to a train facing the reference group's nominal direction"),
+    "for_reverse": (BOOL, "the item applies to a train facing its reverse direction"),
+    "location": (LENGTH, "the item's place in its reference group's frame (at, negative when valid reverse only)"),
+}
+# Per item, as info.ID.FIELD: the item's data (read by both designs), where it really is in the
+# current LRBG's frame (hidden), and the onboard's decisions.
+INFO_FIELDS = {
+    **{k: (ty, BOTH, "input", m) for k, (ty, m) in ITEM.items()},
+    "real": (LENGTH, NOBODY, "derived", "where the item really is, in the frame of the current LRBG (from the line data)"),
+    "accepted": (BOOL, NOBODY, "onboard-output", "onboard formula info_accepted for this item"),
+    "position": (LENGTH, NOBODY, "onboard-output", "onboard formula info_position for this item: where the onboard places it, current LRBG frame"),
+}
+# SUBSET-026 3.6.3.1.4: without an orientation, information for one direction only is rejected
+# and information for both directions is still used.
+DEFAULT_INFO_ONE = {
+    "info_accepted": "(item.for_nominal and item.for_reverse) or (item.for_nominal and est.orientation == nominal) or (item.for_reverse and est.orientation == reverse)",
+    "info_position": "item.location",
+}
+# With two groups an item of the other group is re-referenced by linking (D_LINK, the way to G2
+# and G2's orientation), and only used when linking gives them.
+DEFAULT_INFO_TWO = {
+    "info_accepted": ("(item.group == lrbg.group or g2.link_side != unknown) and ((item.for_nominal and item.for_reverse) or "
+                      "(item.for_nominal and (if item.group == lrbg.group or g2.link_orientation == nominal then est.orientation else flip(est.orientation)) == nominal) or "
+                      "(item.for_reverse and (if item.group == lrbg.group or g2.link_orientation == nominal then est.orientation else flip(est.orientation)) == reverse))"),
+    "info_position": ("if item.group == lrbg.group then item.location "
+                      "else if lrbg.group == 2 then along(g2.link_orientation, item.location - along(g2.link_side, g2.link_distance)) "
+                      "else along(g2.link_side, g2.link_distance) + along(g2.link_orientation, item.location)"),
+}
 
 # The designs under assessment when a pack does not override them (DESIGN 4.4, 4.5), written
 # in the rule language itself so that they are checked, shown and encoded like any formula.
@@ -200,10 +283,21 @@ def markdown() -> str:
               "`nominal`, `reverse`, `unknown` (Direction); `forward`, `backward` (Running);",
               "`params.NAME` from `[params]`; `world.balises.low/high`, `world.locacc.low/high`,",
               "`world.train_length.low/high`, `world.antenna.low/high`, `world.leg_distance.low/high`,",
-              "`world.odometry_over.fixed/rate`, `world.odometry_under.fixed/rate`, `world.detection`.",
-              "", "## Default designs", "", "| output | default formula |", "|---|---|"]
+              "`world.odometry_over.fixed/rate`, `world.odometry_under.fixed/rate`, `world.detection`;",
+              "with two groups also `world.g2_distance.low/high`, `world.g2_locacc.low/high`.",
+              "", "## Trackside information items", "",
+              "Per `[[info]]` item, as `info.ID.FIELD` (DESIGN 4.9); inside `[onboard] info_accepted`",
+              "and `info_position` the item is `item.FIELD` (its data fields).", "",
+              "| field | type | readers | meaning |", "|---|---|---|---|"]
+    for k, (ty, rd, _kind, meaning) in INFO_FIELDS.items():
+        lines.append(f"| `{k}` | {ty} | {', '.join(sorted(rd)) if rd else 'rules only'} | {meaning} |")
+    lines += ["", "## Default designs", "", "| output | default formula |", "|---|---|"]
     for k, v in DEFAULT_ONBOARD.items():
         lines.append(f"| `[onboard] {k}` | `{v}` |")
+    for k, v in DEFAULT_INFO_ONE.items():
+        lines.append(f"| `[onboard] {k}` (one group) | `{v}` |")
+    for k, v in DEFAULT_INFO_TWO.items():
+        lines.append(f"| `[onboard] {k}` (two groups) | `{v}` |")
     for k, v in DEFAULT_TRACKSIDE.items():
         lines.append(f"| `[trackside] {k}` | `{v}` |")
     return "\n".join(lines) + "\n"
