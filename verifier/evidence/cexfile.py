@@ -58,8 +58,11 @@ def rule_hashes(pack: Pack, rule: Rule) -> dict:
 
 def derived_values(st: State) -> dict:
     out = {}
+    two = st.pack.scope.groups == 2
     for name, entry in sorted(vocab.GLOBAL.items()):
         if entry.kind in ("input", "hidden-input") and name != "legs.count":
+            continue
+        if name in vocab.GROUP_NAMES and not two:
             continue
         out[name] = plain(st.get(name), entry.ty)
     legs = []
@@ -189,6 +192,8 @@ def state_values(view) -> dict:
     out = {}
     for name, entry in sorted(vocab.GLOBAL.items()):
         if entry.kind in ("input", "hidden-input") and name != "legs.count":
+            continue
+        if name in vocab.GROUP_NAMES:     # a state of DESIGN 4.7 is of a one-group pack
             continue
         out[name] = plain(view.get(name), entry.ty)
     return out

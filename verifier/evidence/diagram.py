@@ -18,6 +18,8 @@ from __future__ import annotations
 
 import math
 import re
+
+import attrs
 from fractions import Fraction
 from html import escape
 from pathlib import Path
@@ -123,12 +125,25 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     # the stages: (title, detail lines, real front, orientation sign, est front or None)
     f0, e0 = _front_at_detection(st)
     o0 = _sign(w.direction) * (1 if w.running.word == "forward" else -1)
-    stages = [("At detection",
-               [f"passed {w.direction.word}, {'front' if w.running.word == 'forward' else 'rear'} first",
+    relocated = w.g2 is not None and st.handover.accepted
+    if relocated:      # the passage over G1, seen from G2 (DESIGN 4.8)
+        from verifier.world.sim import World, start
+        g = w.g2
+        x2, s2 = _sign(g.side) * g.distance, _sign(g.orientation)
+        first = start(attrs.evolve(w, legs=(), g2=None) if isinstance(w, World) else w)
+        f0, e0 = s2 * (first.front - x2), s2 * (_sign(w.direction) * first.est_front_passage - x2)
+        o0 = s2 * o0
+        known = w.read >= 2 or w.linked
+    title = "At G1's detection" if w.g2 is not None else "At detection"
+    stages = [(title,
+               [f"passed {'G1 ' if relocated else ''}{w.direction.word}{' (its frame)' if relocated else ''}, "
+                f"{'front' if w.running.word == 'forward' else 'rear'} first",
                 f"faces {'nominal' if o0 > 0 else 'reverse'}"],
                f0, o0, e0 if known else None)]
-    for i, (leg, d) in enumerate(zip(w.legs, st.legs), 1):
-        stages.append(_leg_stage(f"After leg {i}", leg, d, known))
+    at = w.g2.at if relocated else 0
+    for i, (leg, d, _group) in enumerate(st.journey, 1):
+        name = f"After leg {i}" + (": G2 is the LRBG" if i == at else "")
+        stages.append(_leg_stage(name, leg, d, (w.g2.read >= 2 or w.g2.linked) if relocated and i > at else known))
     verdict = f"{doc['pack']['name']} / {rule.id}: violated (up to {doc['bound']} legs)"
     return _draw(doc, rule, st, stages, verdict, f"Counterexample of rule {rule.id}")
 
@@ -168,11 +183,22 @@ def _cti_legs(doc: dict) -> list:
 
 def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, notes=()) -> str:
     """The diagram over the stages of a train; ``st`` is the last state (its report)."""
-    w, g = st.world, st.get
+    g = st.get
+    w = getattr(st, "current", st.world)      # the current LRBG's group (G2 after relocation)
+    other = st.other_group() if hasattr(st, "other_group") else None
     uid = "d-" + _slug(f"{doc['pack']['name']}-{rule.id}" + ("-induction" if "depth" in doc else ""))
     placed = bool(g("rbc.placed"))
 
-    positions = [F(0), w.offset, -w.locacc, w.locacc]
+    positions = [F(0), w.offset, -w.locacc, w.locacc] + ([other[1]] if other else [])
+    items = []          # trackside information (DESIGN 4.9): (id, real, placed or None)
+    for item in getattr(st.pack, "infos", ()):
+        try:
+            real = st.info_value(item.id, "real")
+            placed = st.info_value(item.id, "position") if st.info_value(item.id, "accepted") else None
+        except (KeyError, IndexError):
+            continue
+        items.append((item.id, real, placed))
+        positions += [real] + ([placed] if placed is not None else [])
     for _, _, front, o, est in stages:
         positions += [front, front - o * w.length]
         if est is not None:
@@ -198,7 +224,8 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
 
     # ---- metre scale
     y_axis = y + 22
-    add(_t(16, y_axis + 4, "metres, LRBG frame", size=12, weight="bold"))
+    add(_t(16, y_axis + 4, "metres, LRBG frame" if other is None else
+           f"metres, {'G2' if other[0] == 'G1' else 'G1'}'s frame", size=12, weight="bold"))
     add(f'<line x1="{P(X0)}" y1="{P(y_axis)}" x2="{P(X1)}" y2="{P(y_axis)}" stroke="{INK}" stroke-width="1"/>')
     for t in axis.ticks():
         add(f'<line x1="{P(X(t))}" y1="{P(y_axis - 4)}" x2="{P(X(t))}" y2="{P(y_axis + 4)}" stroke="{INK}" stroke-width="1"/>')
@@ -207,7 +234,8 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
 
     # ---- the group
     y_grp = y + 26
-    add(_t(16, y_grp - 4, "The group (LRBG)", size=12, weight="bold"))
+    lrbg_name = "" if other is None else ("G2, " if other[0] == "G1" else "G1, ")
+    add(_t(16, y_grp - 4, f"The group ({lrbg_name}LRBG)", size=12, weight="bold"))
     add(_t(16, y_grp + 11, f"{w.balises} balise{'s' if w.balises != 1 else ''}, {w.read} read, "
                            f"{'linked' if w.linked else 'not linked'}", size=11))
     add(_t(16, y_grp + 25, f"Q_LOCACC {m(w.locacc)}", size=11))
@@ -231,6 +259,31 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
         add(_t(x_org - 6, ya + 4, "nominal", size=10, anchor="end"))
     labels = []
     yb = y_grp + 14
+    if other is not None:
+        # the other group: its balises from its mark, numbered the way its own N_PIG increases
+        name, xo, so, nb = other
+        xg = X(xo)
+        for n in range(nb):
+            bx = xg + so * n * pitch - 6
+            add(f'<rect x="{P(bx)}" y="{P(y_grp - 6)}" width="12" height="12" fill="{LIGHT}" '
+                f'stroke="{INK}" stroke-width="1.4"/>')
+            add(_t(bx + 6, y_grp + 4, str(n), size=9, anchor="middle"))
+        ax2 = xg + so * max(40, (nb - 1) * pitch + 16)
+        add(f'<line x1="{P(xg)}" y1="{P(ya)}" x2="{P(ax2 - so * 8)}" y2="{P(ya)}" stroke="{INK}" '
+            f'stroke-width="1.6" stroke-dasharray="4 2"/>')
+        add(f'<path d="M{P(ax2)} {P(ya)} L{P(ax2 - so * 10)} {P(ya - 5)} L{P(ax2 - so * 10)} {P(ya + 5)} Z" fill="{INK}"/>')
+        labels.append((xg, f"{name} at {m(xo)}, nominal {'to the right' if so > 0 else 'to the left'}"))
+    for iid, real, placed in items:
+        # an information item: a flag where it really is, a hollow one where the onboard puts it
+        xr = X(real)
+        add(f'<path d="M{P(xr)} {P(y_grp + 8)} V{P(y_grp - 12)} L{P(xr + 9)} {P(y_grp - 8)} L{P(xr)} {P(y_grp - 4)}" '
+            f'fill="{INK}" stroke="{INK}" stroke-width="1.2"/>')
+        labels.append((xr, f"{iid} {m(real)}"))
+        if placed is not None and placed != real:
+            xp = X(placed)
+            add(f'<path d="M{P(xp)} {P(y_grp + 8)} V{P(y_grp - 12)} L{P(xp + 9)} {P(y_grp - 8)} L{P(xp)} {P(y_grp - 4)}" '
+                f'fill="#ffffff" stroke="{INK}" stroke-width="1.2"/>')
+            labels.append((xp, f"{iid} placed at {m(placed)}"))
     if w.locacc:
         # location accuracy: a bracket from -locacc to +locacc below the balises
         add(f'<path d="M{P(X(-w.locacc))} {P(yb - 5)} V{P(yb)} H{P(X(w.locacc))} V{P(yb - 5)}" '

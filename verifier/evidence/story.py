@@ -382,7 +382,8 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
     add(f"  expect: {rule.expect.text}")
     add("")
 
-    add("The group (LRBG)")
+    two = w.g2 is not None
+    add("The first group G1" if two else "The group (LRBG)")
     n = w.balises
     add(f"  {n} balise{'s' if n != 1 else ''} (N_PIG 0{f' to {n - 1}' if n > 1 else ' only'}, "
         f"N_TOTAL {n - 1}), {w.read} read; "
@@ -398,18 +399,27 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
         f"{'front end first (running forward)' if w.running.word == 'forward' else 'rear end first (running backward)'}, "
         f"so it faced {o0.word}.")
     seen = g("passage.seen")
+    if two and st.handover.accepted:       # passage.* name G2's passage now: say G1's
+        seen = w.direction if (w.read >= 2 or w.linked) else Direction.UNKNOWN
     why = ("linking announced it" if w.linked else f"{w.read} balises were read") if seen.word != "unknown" \
         else "only one balise of an unlinked group was read, so the group gives no direction"
     add(f"  The onboard sees the passage as {seen.word}, because {why}.")
     add(f"  Balise detection error {signed(w.detect_error)} (positive: the antenna was further "
         "along than the onboard believed).")
     front0, est0 = _front_at_detection(st)
+    if two and st.handover.accepted:       # the current LRBG's passage is G2's: G1's from the start
+        from verifier.world.sim import start
+        first = start(attrs.evolve(w, legs=(), g2=None))
+        front0 = first.front
+        est0 = (1 if seen is Direction.UNKNOWN else (1 if w.direction.word == "nominal" else -1)) * first.est_front_passage
     add(f"  At the detection instant: real front {m(front0)}, estimated front "
         + (f"{m(est0)}." if seen.word != "unknown" else f"{m(est0)} in the passage frame."))
+    if two:
+        _second_group_words(add, st)
     add("")
     if not w.legs:
         add("No legs: the story ends at the passage.")
-    for i, (leg, d) in enumerate(zip(w.legs, st.legs), 1):
+    for i, (leg, d, group) in enumerate(st.journey_raw(), 1):
         parts = []
         if leg.cab_change:
             parts.append("at standstill the driver changes cab: the former rear end becomes the "
@@ -420,7 +430,19 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
                      f"end first), moving {d['actual_motion'].word}: real distance {m(leg.distance)}, "
                      f"measured {m(leg.odometer)} ({reading}).")
         add(f"Leg {i}: " + " ".join(parts))
-        add(f"  After it: real front {m(d['actual_front'])}, estimated front {m(d['est_front'])}.")
+        add(f"  After it: real front {m(d['actual_front'])}, estimated front {m(d['est_front'])}"
+            + (" (G1's frame)." if two and st.handover.accepted and group == 1 else "."))
+        if two and w.g2.found and i == w.g2.at:
+            g2 = w.g2
+            if st.handover.accepted:
+                add(f"  The antenna reaches G2 and G2 becomes the LRBG: from here on every position is "
+                    f"counted from G2's mark, positive in G2's nominal direction ({'the same as' if g2.orientation.word == 'nominal' else 'opposite to'} G1's), "
+                    f"and the confidence interval restarts from G2's Q_LOCACC {m(g2.locacc)}.")
+            else:
+                add("  The antenna reaches G2, which does not become the LRBG (" + (
+                    "found outside its expectation window" if g2.linked and not st.get("g2.in_window")
+                    else "passed against the direction linking announced" if g2.linked and st.get("g2.in_window")
+                    else "not linked and only one balise read") + "): the report stays relative to G1.")
     add("")
     add("At the end")
     add(f"  Real:      front {m(g('actual.front'))}, rear {m(g('actual.rear'))}, faces "
@@ -505,6 +527,27 @@ def whole_train_words(real_rear, real_front, safe_rear, max_front) -> str:
     verb = "are" if len(out) > 1 else "is"
     return (f"The trackside places the whole train between {m(a)} and {m(b)} (min safe rear to "
             f"max safe front); {ends} {verb} outside it.")
+
+
+def _second_group_words(add, st: State) -> None:
+    """The second group of DESIGN 4.8 in words."""
+    g = st.world.g2
+    add("The second group G2")
+    add(f"  {g.balises} balise{'s' if g.balises != 1 else ''}, {g.read} read when found; its mark lies "
+        f"{m(g.distance)} from G1's on G1's {g.side.word} side, and it faces "
+        f"{'the same way as G1' if g.orientation.word == 'nominal' else 'the other way'}; Q_LOCACC "
+        f"{m(g.locacc)}; hidden: real mark {signed(g.offset)} from its engineered location, detection "
+        f"error {signed(g.detect_error)}.")
+    if g.linked:
+        add(f"  Linking announces it: D_LINK {m(g.distance)}, expectation window {m(g.distance - g.locacc)} "
+            f"to {m(g.distance + g.locacc)} (SUBSET-026 3.4.4.4.3)"
+            + ("." if st.get("g2.link_side").word != "unknown" else
+               ", but with no known direction over G1 the onboard cannot use it."))
+    else:
+        add("  Linking does not announce it.")
+    add(f"  It is {'found at the end of leg ' + str(g.at) if g.found else 'not found'}"
+        + (f"{', inside' if st.get('g2.in_window') else ', outside'} its window" if g.found and g.linked else "")
+        + f"; {'it becomes the LRBG' if st.get('g2.lrbg') else 'it does not become the LRBG'}.")
 
 
 def _front_at_detection(st: State) -> tuple:
