@@ -36,6 +36,18 @@ def run(packs, legs=None):
     return total, solver, len(rules), verdicts
 
 
+def two_groups_vs_one(packs, legs: int = 2) -> None:
+    """The two-group packs against the one-group packs at the same bound: seconds per rule."""
+    two = [p for p in packs if p.scope.groups == 2 and "/demo/" not in p.path]
+    one = [p for p in packs if p.scope.groups == 1 and "/demo/" not in p.path]
+    if not two or not one:
+        return
+    t2, _, n2, v2 = run(two, legs=legs)
+    t1, _, n1, v1 = run(one, legs=legs)
+    print(f"two groups at K = {legs}: {n2} rules in {t2:.2f} s ({t2 / n2:.3f} s a rule, {v2}); one group: "
+          f"{n1} rules in {t1:.2f} s ({t1 / n1:.3f} s a rule); ratio per rule = {(t2 / n2) / (t1 / n1):.2f}")
+
+
 def any_vs_bounded(packs) -> None:
     """Each pack with rules for any number of legs: the whole proof (base case up to 3 legs,
     lemmas, induction steps) against the bounded check at K = 3, and how many rules and lemmas
@@ -75,6 +87,7 @@ def main() -> int:
     base = times[bounds[0]]
     print("growth: " + ", ".join(f"K={k}: x{times[k] / base:.1f}" for k in bounds))
     any_vs_bounded(packs)
+    two_groups_vs_one(packs)
     try:
         from bench_edits import report as edits_report  # added by the cache/jobs work
     except ImportError:

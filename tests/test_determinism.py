@@ -21,9 +21,10 @@ def test_demo_counterexamples_regenerate_byte_for_byte(tmp_path, monkeypatch):
     assert main(["check", "rules/demo", "--out", str(out2)]) == 1
     first, second = _files(out1), _files(out2)
     assert first == second
-    committed = _files(ROOT / "counterexamples" / "kestrel-quay")
-    first = {k.split("/", 1)[1]: v for k, v in first.items()}   # drop the pack folder
-    assert first, "the demo produced no counterexample"
+    demos = ("kestrel-quay", "marrow-vale-approach")
+    committed = {k: v for d in demos for k, v in
+                 ((f"{d}/{n}", b) for n, b in _files(ROOT / "counterexamples" / d).items())}
+    assert {k.split("/", 1)[0] for k in first} == set(demos), "every demo pack leaves evidence"
     assert first == committed, sorted(set(first) ^ set(committed))
 
 

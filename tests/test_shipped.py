@@ -35,6 +35,7 @@ def results(tmp_path_factory):
 def test_every_pack_has_its_minimum_of_rules(results):
     assert len(results["position-report"]) >= 12
     assert len(results["confidence-interval"]) >= 10
+    assert len(results["relocation"]) >= 10
 
 
 # Rules the shipped packs prove for up to their base bound only, each with the reason in its
@@ -42,7 +43,7 @@ def test_every_pack_has_its_minimum_of_rules(results):
 NOT_FOR_ANY_NUMBER = {("confidence-interval", "automatic-step-stays-in-range")}
 
 
-@pytest.mark.parametrize("pack", ["position-report", "confidence-interval", "fixed-scale"])
+@pytest.mark.parametrize("pack", ["position-report", "confidence-interval", "fixed-scale", "relocation"])
 def test_assessed_designs_are_proved(results, pack):
     bad = {rid: (r.verdict, r.message) for rid, r in results[pack].items()
            if r.verdict != "holds" and (pack, rid) not in NOT_FOR_ANY_NUMBER}
@@ -84,9 +85,20 @@ def test_in_range_fails_after_long_runs():
     assert not holds(rule, st)
 
 
+DEMO_TWO_GROUPS_EXPECTED = {
+    "kq2-becomes-the-lrbg": "holds",                          # the hand-over itself is right
+    "real-front-inside-interval-after-kq2": "violated",       # mistake 2: MV-14's accuracy kept
+    "buffer-stops-placed-where-they-are": "violated",         # mistake 1: not turned round for KQ-2
+    "stops-short-of-the-buffers": "holds",                    # mistake 1 errs on the safe side here
+    "orientation-unchanged-at-kq2": "violated",               # the assessor's own wrong assumption
+}
+
+
 def test_demo_mistakes_are_refuted(results):
     got = {rid: r.verdict for rid, r in results["kestrel-quay"].items()}
     assert got == DEMO_EXPECTED
+    got = {rid: r.verdict for rid, r in results["marrow-vale-approach"].items()}
+    assert got == DEMO_TWO_GROUPS_EXPECTED
 
 
 def test_every_shipped_rule_cites_a_source_and_a_caught_mistake():

@@ -1,0 +1,99 @@
+"""Two groups and trackside information (DESIGN 4.8, 4.9): the language, the files, the limits.
+
+The physics of the hand-over is checked against hand-worked values in test_facts.py and, world
+by world, between the simulator and the encoding in test_differential.py (its catalogue holds
+rules/relocation.toml and tests/packs/two-groups.toml)."""
+
+from __future__ import annotations
+
+import json
+from fractions import Fraction as F
+from pathlib import Path
+
+import pytest
+
+from conftest import pack_text, rule_toml
+from verifier.cli import main
+from verifier.engine import CheckOptions, check_packs
+from verifier.errors import PackError
+from verifier.loader import load_pack
+from verifier.world.scenario import world_from_data, world_to_data
+from verifier.world.sim import Group2, Leg, World
+from verifier.world.vocab import Direction, Running
+
+ROOT = Path(__file__).resolve().parent.parent
+TWO = 'groups = 2\ng2_distance = ["100 m", "600 m"]\nleg_distance = ["0 m", "800 m"]'
+
+
+def _errors(write_pack, text) -> str:
+    with pytest.raises(PackError) as e:
+        load_pack(write_pack(text))
+    return "\n".join(d.message for d in e.value.diagnostics)
+
+
+@pytest.mark.parametrize("world, rules, extra, needle", [
+    ('g2_side = "nominal"', rule_toml("r", "true"), "", "set world.groups = 2"),
+    ("groups = 3", rule_toml("r", "true"), "", "world.groups must be 1 or 2"),
+    (TWO + '\ng2_orientation = "sideways"', rule_toml("r", "true"), "", "same, opposite, any"),
+    ("", rule_toml("r", "g2.lrbg"), "", "set [world] groups = 2"),
+    ("", rule_toml("r", "info.nope.accepted"), "", "the pack has no [[info]]"),
+    ("", rule_toml("r", "item.at > 0 m"), "", "elsewhere write info.ID.FIELD"),
+    ("", rule_toml("r", "true"), '[[info]]\nid = "x"\ngroup = 2\nat = "5 m"\nvalid = "nominal"', "info group must be 1"),
+    ("", rule_toml("r", "true"), '[[info]]\nid = "x"\nat = "5 m"\nvalid = "up"', "nominal, reverse or both"),
+    ("", rule_toml("r", "true"), '[onboard]\ninfo_accepted = "true"', "the pack has no [[info]]"),
+])
+def test_bad_two_group_and_info_input_is_reported(write_pack, world, rules, extra, needle):
+    assert needle in _errors(write_pack, pack_text(rules, world=world, extra=extra))
+
+
+def test_onboard_item_formulas_cannot_read_the_truth(write_pack):
+    text = pack_text(rule_toml("r", "true"), extra='''
+        [[info]]
+        id = "eoa"
+        at = "500 m"
+        valid = "nominal"
+        [onboard]
+        info_position = "item.location + actual.front - est.front"
+        ''')
+    assert "cannot read 'actual.front'" in _errors(write_pack, text)
+
+
+def test_a_scenario_with_a_second_group_round_trips():
+    w = World(legs=(Leg(False, Running.FORWARD, F(300), F(300)),),
+              g2=Group2(distance=F(298), orientation=Direction.REVERSE, linked=True, locacc=F(4),
+                        offset=F(1, 2), found=True, at=1, detect_error=F(-1, 4)))
+    assert world_from_data(json.loads(json.dumps(world_to_data(w)))) == w
+
+
+def test_two_group_packs_are_bounded_and_say_why(write_pack):
+    text = pack_text(rule_toml("r", "legs.count >= 0"), world=TWO).replace("legs = 2", 'legs = "any"')
+    res = check_packs([load_pack(write_pack(text))], CheckOptions(out=None))[0].results[0]
+    assert res.verdict == "bounded" and "two groups" in res.message
+
+
+def test_verifier_test_refuses_a_two_group_pack(capsys, monkeypatch):
+    monkeypatch.chdir(ROOT)
+    assert main(["test", "rules/relocation.toml", "--impl", "kestrel_onboard:report", "--path", "examples"]) == 2
+    assert "observes one group only" in capsys.readouterr().err
+
+
+def test_the_story_and_the_diagram_tell_the_hand_over(capsys, monkeypatch):
+    monkeypatch.chdir(ROOT)
+    f = "counterexamples/marrow-vale-approach/buffer-stops-placed-where-they-are.json"
+    assert main(["show", f]) == 0
+    text = capsys.readouterr().out
+    assert "The second group G2" in text and "G2 becomes the LRBG" in text
+    assert "faces the other way" in text
+    svg = Path(f).with_suffix(".svg").read_text()
+    assert "G1 at 1200 m, nominal to the left" in svg and "buffers placed at 420 m" in svg
+
+
+def test_cvc5_agrees_on_a_relocation_rule(capsys, monkeypatch):
+    monkeypatch.chdir(ROOT)
+    code = main(["check", "rules/relocation.toml", "--rule", "relocation-makes-g2-the-lrbg",
+                 "--rule", "group-outside-its-window-is-rejected", "--crosscheck", "--no-files",
+                 "--no-cache", "--json"])
+    doc = json.loads(capsys.readouterr().out)
+    assert code == 0
+    c = doc["crosscheck"]["counts"]
+    assert c["second_disagree"] == 0 and c["disagreements"] == 0 and c["second_agree"] >= 3
