@@ -52,20 +52,26 @@ def test_every_kind_of_input_is_generated():
     assert kinds == {"expr", "mistyped", "expr-mutated", "pack-mutated", "deep", "huge", "bytes"}
 
 
-def test_generated_expressions_are_mostly_well_typed(tmp_path):
-    """The generator's well-typed expressions must load: otherwise the solver share is luck."""
+@pytest.mark.parametrize("groups", [1, 2])
+def test_generated_expressions_are_mostly_well_typed(tmp_path, groups):
+    """The generator's well-typed expressions must load: otherwise the solver share is luck.
+    Two-group packs must also name the second group and the information item (DESIGN 4.8, 4.9)."""
     rnd = random.Random(5)
-    loaded = 0
+    loaded, named = 0, set()
     for i in range(60):
-        gen = ExprGen(rnd, depth=3)
+        gen = ExprGen(rnd, depth=3, groups=groups)
         f = tmp_path / f"g{i}.toml"
-        f.write_text(_pack_around(rnd, [(gen.boolean(), gen.boolean())]))
+        f.write_text(_pack_around(rnd, [(gen.boolean(), gen.boolean())], groups))
         try:
-            load_pack(f)
+            pack = load_pack(f)
             loaded += 1
         except PackError:
-            pass
+            continue
+        assert pack.scope.groups == groups
+        text = f.read_text()
+        named |= {n for n in ("g2.", "info.mark.") if n in text.split("[[rule]]", 1)[1]}
     assert loaded >= 50
+    assert named == ({"g2.", "info.mark."} if groups == 2 else set())
 
 
 def test_run_one_notices_a_crash_and_a_written_file(tmp_path, monkeypatch):

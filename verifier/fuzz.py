@@ -10,7 +10,9 @@ the input file and the counterexample files of reported violations).
 
 Inputs are drawn from a seeded ``random.Random``, so a run is reproducible from its seed. Kinds:
 
-- ``expr``: a pack around generated well-typed rule expressions (to reach the solver);
+- ``expr``: a pack around generated well-typed rule expressions (to reach the solver); one in
+  four is a two-group pack with an information item (DESIGN 4.8, 4.9), whose expressions also
+  name ``g2.*`` and ``info.ID.*``;
 - ``mistyped``: generated expressions made ill-typed while staying well-formed (a name of
   another type, a unit dropped, a Bool added to a length, an unknown parameter, a design
   formula reading the hidden truth);
@@ -34,7 +36,7 @@ from pathlib import Path
 
 import attrs
 
-from verifier.world.vocab import GLOBAL, LEG, names_for
+from verifier.world.vocab import GLOBAL, INFO_FIELDS, LEG, names_for
 
 KINDS = (("expr", 4), ("mistyped", 14), ("expr-mutated", 26), ("pack-mutated", 42), ("deep", 5),
          ("huge", 4), ("bytes", 5))
@@ -44,9 +46,13 @@ STAGES = ("toml-or-structure", "type-checker", "solver")
 
 # ---- generated expressions --------------------------------------------------------------------
 
-_BY_TYPE: dict = {}
-for _n, _e in ((n, GLOBAL[n]) for n in names_for(1)):
-    _BY_TYPE.setdefault(_e.ty, []).append(_n)
+ITEM_ID = "mark"          # the information item of a generated two-group pack
+_BY_TYPE: dict = {1: {}, 2: {}}   # groups -> type -> names
+for _g in (1, 2):
+    for _n in names_for(_g):
+        _BY_TYPE[_g].setdefault(GLOBAL[_n].ty, []).append(_n)
+    for _f, (_ty, *_rest) in (INFO_FIELDS.items() if _g == 2 else ()):
+        _BY_TYPE[_g].setdefault(_ty, []).append(f"info.{ITEM_ID}.{_f}")
 _LEG_BY_TYPE: dict = {}
 for _n, _e in LEG.items():
     _LEG_BY_TYPE.setdefault(_e.ty, []).append(_n)
@@ -57,9 +63,10 @@ _STEPS = ["10 cm", "1 m", "10 m", "0.5 m", "3 cm"]
 class ExprGen:
     """Random typed expressions of the rule language (DESIGN 3.1)."""
 
-    def __init__(self, rnd: random.Random, depth: int = 4):
+    def __init__(self, rnd: random.Random, depth: int = 4, groups: int = 1):
         self.r = rnd
         self.depth = depth
+        self.groups = groups
 
     def pick(self, xs):
         return xs[self.r.randrange(len(xs))]
@@ -69,7 +76,7 @@ class ExprGen:
             return f"{leg}.{self.pick(_LEG_BY_TYPE[ty])}"
         if ty in _LEG_BY_TYPE and self.r.random() < 0.1:
             return f"legs[{self.r.randint(1, 3)}].{self.pick(_LEG_BY_TYPE[ty])}"
-        return self.pick(_BY_TYPE[ty])
+        return self.pick(_BY_TYPE[self.groups][ty])
 
     def boolean(self, d: int = 0, leg: str | None = None) -> str:
         r = self.r.random()
@@ -147,9 +154,15 @@ def _toml_str(text: str) -> str:
     return '"' + text.replace("\\", "\\\\").replace('"', '\\"') + '"'
 
 
-def _pack_around(rnd: random.Random, rules: list[tuple[str | None, str]]) -> str:
+def _pack_around(rnd: random.Random, rules: list[tuple[str | None, str]], groups: int = 1) -> str:
     legs = rnd.choice([0, 1, 1, 2])
     lines = ["[pack]", 'name = "fuzz"', 'title = "generated"', f"legs = {legs}", ""]
+    if groups == 2:
+        lines += ["[world]", "groups = 2", 'g2_distance = ["100 m", "600 m"]',
+                  f"g2_orientation = {_toml_str(rnd.choice(['same', 'opposite', 'any']))}", "",
+                  "[[info]]", f'id = "{ITEM_ID}"', f"group = {rnd.choice([1, 2])}",
+                  f"at = {_toml_str(rnd.choice(['0 m', '150 m', '1 km']))}",
+                  f"valid = {_toml_str(rnd.choice(['nominal', 'reverse', 'both']))}", ""]
     if rnd.random() < 0.2:
         lines += ["[onboard]", f"q_scale = {_toml_str(rnd.choice(['10 cm', '1 m', '10 m', 'auto']))}",
                   f"rounding = {_toml_str(rnd.choice(['widen', 'nearest', 'down']))}", ""]
@@ -303,9 +316,10 @@ def inputs(seed: int, n: int, corpus: list[str]):
         kind = rnd.choice(kinds)
         gen = ExprGen(rnd, depth=rnd.choice([1, 2, 3, 4]))
         if kind == "expr":
+            gen = ExprGen(rnd, depth=gen.depth, groups=2 if rnd.random() < 0.25 else 1)
             rules = [(gen.boolean() if rnd.random() < 0.5 else None, gen.boolean())
                      for _ in range(rnd.choice([1, 1, 2]))]
-            text = _pack_around(rnd, rules)
+            text = _pack_around(rnd, rules, gen.groups)
         elif kind == "mistyped":
             text = mistype(rnd, gen)
         elif kind == "expr-mutated":
