@@ -97,3 +97,38 @@ def test_cvc5_agrees_on_a_relocation_rule(capsys, monkeypatch):
     assert code == 0
     c = doc["crosscheck"]["counts"]
     assert c["second_disagree"] == 0 and c["disagreements"] == 0 and c["second_agree"] >= 3
+
+
+def test_an_item_the_onboard_rejects_leaves_the_trackside_view_drawn(write_pack):
+    # Worked by hand: front first over G1 (nominal, two balises), one leg of 300 m onto a linked
+    # G2 that faces the same way; the train faces nominal, so an item valid for G1's reverse
+    # direction only is not accepted (SUBSET-026 3.6.3.1.4) while the report is placed. The
+    # drawing must still show the trackside's interval (a rejected item once hid it).
+    from xml.etree import ElementTree as ET
+    from verifier.evidence import cexfile, diagram
+    from verifier.world.sim import State
+    text = pack_text(rule_toml("r", "info.limit.accepted"), world=TWO, extra='''
+        [[info]]
+        id = "limit"
+        group = 1
+        at = "400 m"
+        valid = "reverse"
+        ''')
+    pack = load_pack(write_pack(text))
+    w = World(balises=2, read=2, antenna=F(2), length=F(80),
+              legs=(Leg(False, Running.FORWARD, F(300), F(300)),),
+              g2=Group2(distance=F(300), side=Direction.NOMINAL, orientation=Direction.NOMINAL,
+                        balises=2, read=2, linked=True, locacc=F(4), found=True, at=1))
+    st = State(pack, w)
+    assert st.get("g2.lrbg") and st.get("rbc.placed") and not st.info_value("limit", "accepted")
+    # the item lies 400 m on G1's reverse side: 700 m on G2's reverse side
+    assert st.info_value("limit", "real") == -700
+    rule = pack.rule("r")
+    doc = cexfile.build(pack, rule, st, verdict="violated", bound=2, solver="test", minimal=True)
+    texts = ["".join(t.itertext()) for t in ET.fromstring(diagram.render(doc, rule, st)).iter(
+        "{http://www.w3.org/2000/svg}text")]
+    assert "reported interval," in texts and "limit -700 m" in texts
+    assert any(t.startswith("The real front, at ") for t in texts)
+    assert not any("placed at" in t for t in texts)
+    assert "information item where it really is" in texts
+    assert "the other group; dashed: its nominal direction" in texts

@@ -190,15 +190,15 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
     placed = bool(g("rbc.placed"))
 
     positions = [F(0), w.offset, -w.locacc, w.locacc] + ([other[1]] if other else [])
-    items = []          # trackside information (DESIGN 4.9): (id, real, placed or None)
+    items = []          # trackside information (DESIGN 4.9): (id, real, where placed or None)
     for item in getattr(st.pack, "infos", ()):
         try:
             real = st.info_value(item.id, "real")
-            placed = st.info_value(item.id, "position") if st.info_value(item.id, "accepted") else None
+            where = st.info_value(item.id, "position") if st.info_value(item.id, "accepted") else None
         except (KeyError, IndexError):
             continue
-        items.append((item.id, real, placed))
-        positions += [real] + ([placed] if placed is not None else [])
+        items.append((item.id, real, where))
+        positions += [real] + ([where] if where is not None else [])
     for _, _, front, o, est in stages:
         positions += [front, front - o * w.length]
         if est is not None:
@@ -273,17 +273,15 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
             f'stroke-width="1.6" stroke-dasharray="4 2"/>')
         add(f'<path d="M{P(ax2)} {P(ya)} L{P(ax2 - so * 10)} {P(ya - 5)} L{P(ax2 - so * 10)} {P(ya + 5)} Z" fill="{INK}"/>')
         labels.append((xg, f"{name} at {m(xo)}, nominal {'to the right' if so > 0 else 'to the left'}"))
-    for iid, real, placed in items:
+    for iid, real, where in items:
         # an information item: a flag where it really is, a hollow one where the onboard puts it
         xr = X(real)
-        add(f'<path d="M{P(xr)} {P(y_grp + 8)} V{P(y_grp - 12)} L{P(xr + 9)} {P(y_grp - 8)} L{P(xr)} {P(y_grp - 4)}" '
-            f'fill="{INK}" stroke="{INK}" stroke-width="1.2"/>')
+        add(_flag(xr, y_grp, INK))
         labels.append((xr, f"{iid} {m(real)}"))
-        if placed is not None and placed != real:
-            xp = X(placed)
-            add(f'<path d="M{P(xp)} {P(y_grp + 8)} V{P(y_grp - 12)} L{P(xp + 9)} {P(y_grp - 8)} L{P(xp)} {P(y_grp - 4)}" '
-                f'fill="#ffffff" stroke="{INK}" stroke-width="1.2"/>')
-            labels.append((xp, f"{iid} placed at {m(placed)}"))
+        if where is not None and where != real:
+            xp = X(where)
+            add(_flag(xp, y_grp, "#ffffff"))
+            labels.append((xp, f"{iid} placed at {m(where)}"))
     if w.locacc:
         # location accuracy: a bracket from -locacc to +locacc below the balises
         add(f'<path d="M{P(X(-w.locacc))} {P(yb - 5)} V{P(yb)} H{P(X(w.locacc))} V{P(yb - 5)}" '
@@ -411,7 +409,7 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
                        link=(y_rep if all(v in positions for v in (lv, rv)) else None))
 
     # ---- legend
-    y = _legend(out, uid, y + 16)
+    y = _legend(out, uid, y + 16, other=other is not None, items=bool(items))
     # the origin, dotted, through the group and train rows
     out.insert(0, f'<line x1="{P(x_org)}" y1="{P(origin_top)}" x2="{P(x_org)}" y2="{P(y_last_stage)}" '
                   f'stroke="{GREY}" stroke-width="1" stroke-dasharray="2 3"/>')
@@ -490,9 +488,16 @@ def _inset(out, uid, axis: Axis, left, right, op, y, link):
     return box_top + h
 
 
-def _legend(out, uid, y):
+def _flag(x, y_grp, fill: str) -> str:
+    return (f'<path d="M{P(x)} {P(y_grp + 8)} V{P(y_grp - 12)} L{P(x + 9)} {P(y_grp - 8)} L{P(x)} {P(y_grp - 4)}" '
+            f'fill="{fill}" stroke="{INK}" stroke-width="1.2"/>')
+
+
+def _legend(out, uid, y, other: bool = False, items: bool = False):
+    """The legend; the shapes of a second group and of information items only where they are
+    drawn (a one-group drawing keeps its legend, and its files their bytes)."""
     out.append(_t(16, y + 12, "Legend", size=12, weight="bold"))
-    items = [
+    shapes = [
         ("bar", "real train (rear to front); black wedge = active front end"),
         ("diamond", "estimated front (onboard, or trackside in the last row)"),
         ("hatch", "reported interval: min safe front to max safe front"),
@@ -503,8 +508,13 @@ def _legend(out, uid, y):
         ("arrow", "the group's nominal direction (N_PIG increasing)"),
         ("origin", "origin: engineered location of balise N_PIG 0"),
     ]
+    if other:
+        shapes += [("other", "the other group; dashed: its nominal direction")]
+    if items:
+        shapes += [("flag", "information item where it really is"),
+                   ("hollow", "information item where the onboard places it")]
     col_w = (X1 - X0) // 2
-    for k, (shape, text) in enumerate(items):
+    for k, (shape, text) in enumerate(shapes):
         cx = X0 + (k % 2) * col_w
         cy = y + 12 + (k // 2) * 20
         if shape == "bar":
@@ -528,10 +538,16 @@ def _legend(out, uid, y):
         elif shape == "arrow":
             out.append(f'<line x1="{cx}" y1="{cy}" x2="{cx + 26}" y2="{cy}" stroke="{INK}" stroke-width="1.6"/>')
             out.append(f'<path d="M{cx + 34} {cy} L{cx + 24} {cy - 5} L{cx + 24} {cy + 5} Z" fill="{INK}"/>')
+        elif shape == "other":
+            out.append(f'<rect x="{cx + 1}" y="{cy - 6}" width="12" height="12" fill="{LIGHT}" stroke="{INK}" stroke-width="1.4"/>')
+            out.append(f'<line x1="{cx + 16}" y1="{cy}" x2="{cx + 27}" y2="{cy}" stroke="{INK}" stroke-width="1.6" stroke-dasharray="4 2"/>')
+            out.append(f'<path d="M{cx + 34} {cy} L{cx + 26} {cy - 5} L{cx + 26} {cy + 5} Z" fill="{INK}"/>')
+        elif shape in ("flag", "hollow"):
+            out.append(_flag(cx + 14, cy + 2, INK if shape == "flag" else "#ffffff"))
         else:
             out.append(f'<line x1="{cx + 17}" y1="{cy - 9}" x2="{cx + 17}" y2="{cy + 9}" stroke="{GREY}" stroke-dasharray="2 3"/>')
         out.append(_t(cx + 44, cy + 4, text, size=11))
-    return y + 12 + ((len(items) + 1) // 2) * 20
+    return y + 12 + ((len(shapes) + 1) // 2) * 20
 
 
 def svg_path(json_path: Path) -> Path:
