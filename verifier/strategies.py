@@ -71,6 +71,12 @@ CORNERS = {
     "cab change on the first leg": "legs[1].cab_change",
     "cab change on the last leg": "the last of at least two legs has a cab change",
     "report out of range": "some distance code is 32767 with a known passage",
+    # two groups (DESIGN 4.8): counted only over two-group packs' worlds
+    "G2 not found": "a second group the train does not detect",
+    "G2 becomes the LRBG": "g2.lrbg",
+    "G2 facing the other way becomes the LRBG": "g2.lrbg with g2.orientation reverse",
+    "G2 found but not used": "g2.found and not g2.lrbg",
+    "G2 found outside its window": "g2.found with usable linking and not g2.in_window",
 }
 
 
@@ -262,15 +268,21 @@ def _aim(draw, scope: Scope, world: World) -> World:
                                                                   odometer=odo),))
 
 
+def _group(draw, balises_range, locacc_range) -> tuple:
+    """A group's balises, balises read, Q_LOCACC and real-mark offset, leaning on the corners."""
+    blo, bhi = balises_range
+    balises = _choice(draw, [blo, bhi]) if _bool(draw) else _int(draw, blo, bhi)
+    read = _choice(draw, [1, balises]) if _bool(draw) else _int(draw, 1, balises)
+    llo, lhi = int(locacc_range[0]), int(locacc_range[1])
+    locacc = F(_choice(draw, [llo, lhi]) if _bool(draw) else _int(draw, llo, lhi))
+    offset = _one_of_or(draw, [-locacc, locacc, F(0)], -locacc, locacc)
+    return balises, read, locacc, offset
+
+
 @st.composite
 def worlds(draw, scope: Scope = Scope(), bound: int = 3, aim: bool = True) -> World:
     """A world inside ``scope`` with at most ``bound`` legs, leaning on the corners."""
-    blo, bhi = scope.balises
-    balises = _choice(draw, [blo, bhi]) if _bool(draw) else _int(draw, blo, bhi)
-    read = _choice(draw, [1, balises]) if _bool(draw) else _int(draw, 1, balises)
-    llo, lhi = int(scope.locacc[0]), int(scope.locacc[1])
-    locacc = F(_choice(draw, [llo, lhi]) if _bool(draw) else _int(draw, llo, lhi))
-    offset = _one_of_or(draw, [-locacc, locacc, F(0)], -locacc, locacc)
+    balises, read, locacc, offset = _group(draw, scope.balises, scope.locacc)
     length = draw_between(draw, max(scope.train_length[0], scope.antenna[0]), scope.train_length[1])
     antenna = draw_between(draw, scope.antenna[0], min(scope.antenna[1], length))
     # |d| <= detection, and the bound at the passage itself: max(0, -d) <= over.fixed, ...
@@ -302,12 +314,7 @@ def _second_group(draw, scope: Scope, world: World) -> World:
              "any": [Direction.NOMINAL, Direction.REVERSE]}
     side = _choice(draw, sides[scope.g2_side])
     orient = _choice(draw, sides[{"same": "nominal", "opposite": "reverse", "any": "any"}[scope.g2_orientation]])
-    blo, bhi = scope.g2_balises
-    balises = _choice(draw, [blo, bhi]) if _bool(draw) else _int(draw, blo, bhi)
-    read = _choice(draw, [1, balises]) if _bool(draw) else _int(draw, 1, balises)
-    llo, lhi = int(scope.g2_locacc[0]), int(scope.g2_locacc[1])
-    locacc = F(_choice(draw, [llo, lhi]) if _bool(draw) else _int(draw, llo, lhi))
-    offset = _one_of_or(draw, [-locacc, locacc, F(0)], -locacc, locacc)
+    balises, read, locacc, offset = _group(draw, scope.g2_balises, scope.g2_locacc)
     g2 = Group2(distance=distance, side=side, orientation=orient, balises=balises, read=read,
                 linked=_bool(draw), locacc=locacc, offset=offset)
     unfound = attrs.evolve(world, g2=g2)
@@ -332,10 +339,13 @@ def _second_group(draw, scope: Scope, world: World) -> World:
         olo, ohi = _odometer_range(scope, over, under, measured, dist)
         odo = _choice(draw, [dist, olo, ohi]) if olo <= dist <= ohi else _choice(draw, [olo, ohi])
         new = attrs.evolve(leg, running=running, distance=dist, odometer=odo)
-        found = attrs.evolve(world, legs=world.legs[:k - 1] + (new,) + world.legs[k:],
-                             g2=attrs.evolve(g2, found=True, at=k, detect_error=det))
-        if not scope_problems(found, scope, len(found.legs)):
-            return found
+        # the legs after the detection as drawn, else none (their reading errors may exceed
+        # the bounds that restart at G2)
+        for after in dict.fromkeys((world.legs[k:], ())):
+            found = attrs.evolve(world, legs=world.legs[:k - 1] + (new,) + after,
+                                 g2=attrs.evolve(g2, found=True, at=k, detect_error=det))
+            if not scope_problems(found, scope, len(found.legs)):
+                return found
     return unfound
 
 
@@ -430,6 +440,23 @@ def corners(world: World, scope: Scope, bound: int, state: State | None = None) 
                 out.add("32766 steps")
         if state.get("passage.seen") is not Direction.UNKNOWN and not state.get("report.in_range"):
             out.add("report out of range")
+        if world.g2 is not None:
+            out |= _two_group_corners(world, state)
+    return out
+
+
+def _two_group_corners(world: World, state: State) -> set[str]:
+    out = set()
+    if not world.g2.found:
+        out.add("G2 not found")
+    elif state.get("g2.lrbg"):
+        out.add("G2 becomes the LRBG")
+        if world.g2.orientation is Direction.REVERSE:
+            out.add("G2 facing the other way becomes the LRBG")
+    else:
+        out.add("G2 found but not used")
+        if state.get("g2.link_side") is not Direction.UNKNOWN and not state.get("g2.in_window"):
+            out.add("G2 found outside its window")
     return out
 
 
