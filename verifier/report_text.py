@@ -5,7 +5,8 @@ from __future__ import annotations
 from verifier.check.model import Pack
 from verifier.evidence.cexfile import failed_detail
 from verifier.world.scenario import fmt
-from verifier.world.sim import State, World, applies, evaluate, scope_problems
+from verifier.world.sim import State, World, applies, evaluate, known, scope_problems
+from verifier.world.vocab import Direction
 
 
 def _m(x) -> str:
@@ -21,17 +22,22 @@ def simulate_text(pack: Pack, world: World, legs: int | None = None) -> tuple[st
     problems = scope_problems(world, pack.scope, bound)
     if problems:
         out.append("warning: this world is outside the pack's scope: " + "; ".join(problems))
-    out.append(f"group: {world.balises} balise(s), {world.read} read, "
+    two = world.g2 is not None
+    out.append(f"group{' G1' if two else ''}: {world.balises} balise(s), {world.read} read, "
                f"{'linked' if world.linked else 'not linked'}, location accuracy {_m(world.locacc)}, "
                f"real reference mark {_m(world.offset)} from its engineered place")
     out.append(f"train: length {_m(world.length)}, antenna {_m(world.antenna)} behind the front")
-    out.append(f"passage: moving {world.direction.word}, {world.running.word} "
+    seen = (world.direction.word if known(world) else "unknown") if two else g("passage.seen").word
+    out.append(f"passage{' over G1' if two else ''}: moving {world.direction.word}, {world.running.word} "
                f"({'front' if world.running.word == 'forward' else 'rear'} first), detection error "
-               f"{_m(world.detect_error)}; onboard sees the passage as {g('passage.seen').word}")
-    for i, (leg, d) in enumerate(zip(world.legs, st.legs), 1):
-        out.append(f"leg {i}: {'cab change, then ' if leg.cab_change else ''}{leg.running.word}, "
-                   f"real {_m(leg.distance)}, measured {_m(leg.odometer)}; real front {_m(d['actual_front'])}, "
-                   f"estimated {_m(d['est_front'])}")
+               f"{_m(world.detect_error)}; onboard sees the passage as {seen}")
+    if not two:
+        for i, (leg, d) in enumerate(zip(world.legs, st.legs), 1):
+            out.append(_leg_line(i, leg, d, ""))
+    else:
+        out += _second_group_lines(st)
+    if st.handover.accepted:
+        out.append("positions below: G2's frame (from its mark, positive in its nominal direction)")
     out.append(f"real:      front {_m(g('actual.front'))}, rear {_m(g('actual.rear'))}, orientation "
                f"{g('actual.orientation').word}, last motion {g('actual.motion').word}")
     out.append(f"estimate:  front {_m(g('est.front'))}, orientation {g('est.orientation').word}, "
@@ -43,6 +49,10 @@ def simulate_text(pack: Pack, world: World, legs: int | None = None) -> tuple[st
                f"Q_DIRLRBG {code('q_dirlrbg')}, Q_DLRBG {code('q_dlrbg')}, L_DOUBTOVER {code('l_doubtover')}, "
                f"L_DOUBTUNDER {code('l_doubtunder')}, Q_DIRTRAIN {code('q_dirtrain')}"
                f"{'' if g('report.in_range') else '  (out of range)'}")
+    for item in pack.infos:
+        v = lambda f: st.info_value(item.id, f)  # noqa: E731
+        out.append(f"info {item.id}: " + (f"accepted, placed at {_m(v('position'))}" if v("accepted")
+                                           else "not accepted") + f"; really at {_m(v('real'))}")
     if g("rbc.placed"):
         out.append(f"trackside: estimated front {_m(g('rbc.est_front'))}, safe front interval "
                    f"[{_m(g('rbc.min_safe_front'))}, {_m(g('rbc.max_safe_front'))}], min safe rear "
@@ -62,3 +72,31 @@ def simulate_text(pack: Pack, world: World, legs: int | None = None) -> tuple[st
         from verifier.engine import describe_failure
         out.append(f"  VIOLATED        {rule.id}: {describe_failure(failed_detail(rule, st))}")
     return "\n".join(out), ok
+
+
+def _leg_line(i: int, leg, d: dict, frame: str) -> str:
+    return (f"leg {i}: {'cab change, then ' if leg.cab_change else ''}{leg.running.word}, "
+            f"real {_m(leg.distance)}, measured {_m(leg.odometer)}; real front {_m(d['actual_front'])}, "
+            f"estimated {_m(d['est_front'])}{frame}")
+
+
+def _second_group_lines(st: State) -> list[str]:
+    """G2 (DESIGN 4.8), then every leg of the journey in the frame of the group that was the
+    LRBG during it, and the hand-over where it happens."""
+    world, g = st.world, st.world.g2
+    found = f"found at the end of leg {g.at}" if g.found else "not found"
+    if g.found and g.linked and known(world):
+        found += ", inside its window" if st.get("g2.in_window") else ", outside its window"
+    used = ("it becomes the LRBG" if st.handover.accepted else
+            "not used: the report stays relative to G1" if g.found else "")
+    out = [f"group G2: mark {_m(g.distance)} from G1's on G1's {g.side.word} side, faces "
+           f"{'the same way as G1' if g.orientation is Direction.NOMINAL else 'the other way'}, "
+           f"{g.balises} balise(s), {g.read} read, {'linked' if g.linked else 'not linked'}, "
+           f"location accuracy {_m(g.locacc)}, real reference mark {_m(g.offset)} from its "
+           f"engineered place, detection error {_m(g.detect_error)}; {found}"
+           + (f"; {used}" if used else "")]
+    for i, (leg, d, group) in enumerate(st.journey_raw(), 1):
+        out.append(_leg_line(i, leg, d, f" (G{group}'s frame)"))
+        if st.handover.accepted and i == g.at:
+            out.append(f"  G2 becomes the LRBG at the end of leg {i}; the legs after it are counted from G2")
+    return out

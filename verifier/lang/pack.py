@@ -509,7 +509,8 @@ def _infos(c: _Collector, src: SourceFile, raw, scope: Scope, seen: dict) -> lis
         seen[iid] = i
         group = t.get("group", 1)
         if group not in (1, 2) or isinstance(group, bool) or (group == 2 and scope.groups != 2):
-            c.at(base + ("group",), f"info group must be 1{' or 2' if scope.groups == 2 else ''}, got {group!r}")
+            c.at(base + ("group",), f"info group must be 1{' or 2' if scope.groups == 2 else ''}, got {group!r}"
+                 + ("" if scope.groups == 2 else " (a second group needs [world] groups = 2)"))
             ok = False
         at = _length(c, base + ("at",), t["at"], what="info at") if "at" in t else None
         if at is None or at < 0:

@@ -180,7 +180,14 @@ def _group2_from_data(t, where: str, count, flag, word) -> Group2:
             kw[key] = flag(t[key], f"g2.{key}")
     for key in ("side", "orientation"):
         if key in t:
-            kw[key] = word(t[key], f"g2.{key}", Direction)
+            v = t[key]
+            if key == "orientation" and v in ("same", "opposite"):     # the pack's [world] words
+                v = "nominal" if v == "same" else "reverse"
+            kw[key] = word(v, f"g2.{key}", Direction)
+            if kw[key] is Direction.UNKNOWN:
+                raise ValueError(f"{where}.{key} must be nominal or reverse"
+                                 + (" (or same, opposite)" if key == "orientation" else "")
+                                 + ": it is line data, never unknown")
     return Group2(**kw)
 
 
