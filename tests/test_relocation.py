@@ -86,6 +86,9 @@ def test_the_story_and_the_diagram_tell_the_hand_over(capsys, monkeypatch):
     assert "faces the other way" in text
     svg = Path(f).with_suffix(".svg").read_text()
     assert "G1 at 1200 m, nominal to the left" in svg and "buffers placed at 420 m" in svg
+    # the box at G1's passage says which frame each word is in (rear first over G1 nominal:
+    # facing G1's reverse direction, which is KQ-2's nominal one)
+    assert "passed G1 nominal (G1's frame), rear first" in svg and "faces nominal (G2's frame)" in svg
 
 
 def test_cvc5_agrees_on_a_relocation_rule(capsys, monkeypatch):
@@ -132,3 +135,35 @@ def test_an_item_the_onboard_rejects_leaves_the_trackside_view_drawn(write_pack)
     assert not any("placed at" in t for t in texts)
     assert "information item where it really is" in texts
     assert "the other group; dashed: its nominal direction" in texts
+
+
+def test_simulate_tells_the_journey_over_both_groups(write_pack, tmp_path, capsys):
+    # Worked by hand (as in test_facts.py): front first over G1 nominal, antenna 2 m behind the
+    # front, on G1's mark at the passage; 300 m onto G2 (300 m on, facing the other way), then
+    # 100 m more. Leg 1 ends with the front at 302 m in G1's frame; after leg 2 the front is
+    # 402 m from G1, i.e. 102 m on G2's reverse side: -102 m in G2's frame. The end of authority
+    # 1500 m from G1 lies 1200 m beyond G2, on its reverse side: -1200 m.
+    pack = write_pack(pack_text(rule_toml("r", "true"), world=TWO, extra='''
+        [[info]]
+        id = "eoa"
+        at = "1500 m"
+        valid = "nominal"
+        '''))
+    scen = tmp_path / "s.toml"
+    scen.write_text('[lrbg]\nlinked = true\n[train]\nlength = "80 m"\nantenna = "2 m"\n'
+                    '[g2]\ndistance = "300 m"\nside = "nominal"\norientation = "opposite"\n'
+                    'linked = true\nlocacc = "4 m"\nfound = true\nat = 1\n'
+                    '[[legs]]\nrunning = "forward"\ndistance = "300 m"\n'
+                    '[[legs]]\nrunning = "forward"\ndistance = "100 m"\n')
+    assert main(["simulate", str(scen), "--pack", str(pack)]) == 0
+    out = capsys.readouterr().out
+    assert "warning" not in out
+    assert "passage over G1: moving nominal, forward (front first)" in out
+    assert "faces the other way" in out and "found at the end of leg 1, inside its window; it becomes the LRBG" in out
+    assert "leg 1: forward, real 300 m, measured 300 m; real front 302 m, estimated 302 m (G1's frame)" in out
+    assert "G2 becomes the LRBG at the end of leg 1" in out
+    assert "leg 2: forward, real 100 m, measured 100 m; real front -102 m, estimated -102 m (G2's frame)" in out
+    assert "info eoa: accepted, placed at -1200 m; really at -1200 m" in out
+    scen.write_text(scen.read_text().replace('"opposite"', '"unknown"'))
+    assert main(["simulate", str(scen), "--pack", str(pack)]) == 2
+    assert "never unknown" in capsys.readouterr().err

@@ -135,10 +135,11 @@ def render(doc: dict, rule: Rule, st: State) -> str:
         o0 = s2 * o0
         known = w.read >= 2 or w.linked
     title = "At G1's detection" if w.g2 is not None else "At detection"
+    g1_frame, g2_frame = (" (G1's frame)", " (G2's frame)") if relocated else ("", "")
     stages = [(title,
-               [f"passed {'G1 ' if relocated else ''}{w.direction.word}{' (its frame)' if relocated else ''}, "
+               [f"passed {'G1 ' if relocated else ''}{w.direction.word}{g1_frame}, "
                 f"{'front' if w.running.word == 'forward' else 'rear'} first",
-                f"faces {'nominal' if o0 > 0 else 'reverse'}"],
+                f"faces {'nominal' if o0 > 0 else 'reverse'}{g2_frame}"],
                f0, o0, e0 if known else None)]
     at = w.g2.at if relocated else 0
     for i, (leg, d, _group) in enumerate(st.journey, 1):
