@@ -167,3 +167,16 @@ def test_simulate_tells_the_journey_over_both_groups(write_pack, tmp_path, capsy
     scen.write_text(scen.read_text().replace('"opposite"', '"unknown"'))
     assert main(["simulate", str(scen), "--pack", str(pack)]) == 2
     assert "never unknown" in capsys.readouterr().err
+
+
+def test_an_onboard_formula_reading_line_data_is_pointed_to_linking(write_pack):
+    text = pack_text(rule_toml("r", "true"), world=TWO, extra='''
+        [[info]]
+        id = "eoa"
+        at = "500 m"
+        valid = "nominal"
+        [onboard]
+        info_position = "item.location - g2.distance"
+        ''')
+    assert ("cannot read 'g2.distance' (readable only by the trackside; the onboard knows it "
+            "from linking as 'g2.link_distance')") in _errors(write_pack, text)

@@ -393,7 +393,12 @@ def _check_call(env: _Env, node: ast.Call) -> ast.Node:
 def _unreadable(entry, reader: str) -> str:
     """Why ``reader`` cannot read a vocabulary entry, with the name it may read instead."""
     if entry.readers:
-        return f"readable only by the {' and '.join(sorted(entry.readers))}"
+        why = f"readable only by the {' and '.join(sorted(entry.readers))}"
+        # line data of G2 that the onboard knows only through linking (DESIGN 4.8)
+        alt = entry.name.replace("g2.", "g2.link_", 1) if entry.name.startswith("g2.") else ""
+        if alt in vocab.GLOBAL and reader in vocab.GLOBAL[alt].readers:
+            why += f"; the {reader} knows it from linking as '{alt}'"
+        return why
     if entry.kind == "wire" and entry.name.startswith("report."):
         alt = "rbc." + entry.name[len("report."):]
         if alt in vocab.GLOBAL and reader in vocab.GLOBAL[alt].readers:
