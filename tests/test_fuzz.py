@@ -122,3 +122,12 @@ def test_found_by_fuzzing_param_naming_a_let_is_a_clean_error(tmp_path):
                  '[let]\nflag = "true"\n\n[[rule]]\nid = "r"\ntitle = "t"\nexpect = "params.x >= 0 m"\n')
     with pytest.raises(PackError):
         load_pack(f)
+
+
+def test_found_by_fuzzing_info_id_of_the_wrong_type_is_a_clean_error(tmp_path):
+    f = tmp_path / "p.toml"
+    f.write_text('[pack]\nname = "p"\ntitle = "t"\n\n[[info]]\nid = ["eoa"]\nat = "5 m"\nvalid = "both"\n\n'
+                 '[[rule]]\nid = "r"\ntitle = "t"\nexpect = "true"\n')
+    with pytest.raises(PackError) as e:
+        load_pack(f)
+    assert "info id must be a name" in str(e.value)

@@ -506,7 +506,8 @@ def _infos(c: _Collector, src: SourceFile, raw, scope: Scope, seen: dict) -> lis
         elif iid in seen:
             c.at(base + ("id",), f"duplicate info id '{iid}'")
             ok = False
-        seen[iid] = i
+        if isinstance(iid, str):
+            seen[iid] = i
         group = t.get("group", 1)
         if group not in (1, 2) or isinstance(group, bool) or (group == 2 and scope.groups != 2):
             c.at(base + ("group",), f"info group must be 1{' or 2' if scope.groups == 2 else ''}, got {group!r}"
