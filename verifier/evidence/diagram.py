@@ -127,13 +127,12 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     o0 = _sign(w.direction) * (1 if w.running.word == "forward" else -1)
     relocated = w.g2 is not None and st.handover.accepted
     if relocated:      # the passage over G1, seen from G2 (DESIGN 4.8)
-        from verifier.world.sim import World, start
-        g = w.g2
-        x2, s2 = _sign(g.side) * g.distance, _sign(g.orientation)
+        from verifier.world.sim import World, known as passage_known, start
+        x2, s2 = _sign(w.g2.side) * w.g2.distance, _sign(w.g2.orientation)
         first = start(attrs.evolve(w, legs=(), g2=None) if isinstance(w, World) else w)
         f0, e0 = s2 * (first.front - x2), s2 * (_sign(w.direction) * first.est_front_passage - x2)
         o0 = s2 * o0
-        known = w.read >= 2 or w.linked
+        known = passage_known(w)
     title = "At G1's detection" if w.g2 is not None else "At detection"
     g1_frame, g2_frame = (" (G1's frame)", " (G2's frame)") if relocated else ("", "")
     stages = [(title,
