@@ -593,21 +593,20 @@ class State(_Values):
         the group that was the LRBG during it: [(Leg, fields, group)]. Legs before a relocation
         are seen from G2 (DESIGN 4.8); without one this is the legs with ``self.legs``."""
         if not self.handover.accepted:
-            return [(leg, f, 1) for leg, f in zip(self.world.legs, self.legs)]
+            return self.journey_raw()
         g = self.world.g2
         x2, s2 = sign(g.side) * g.distance, sign(g.orientation)
         out = []
-        snap = start(self.world)
-        for leg in self.world.legs[:g.at]:
-            snap, f = advance(snap, leg)
-            f = dict(f)
-            for k in ("actual_front", "est_front"):
-                f[k] = s2 * (f[k] - x2)
-            for k in ("orientation", "motion", "actual_orientation", "actual_motion"):
-                if f[k] is not UNK:
-                    f[k] = direction_of(s2 * sign(f[k]))
-            out.append((leg, f, 1))
-        return out + [(leg, f, 2) for leg, f in zip(self.current.legs, self.legs)]
+        for leg, f, group in self.journey_raw():
+            if group == 1:      # seen from G2: positions and directions in its frame
+                f = dict(f)
+                for k in ("actual_front", "est_front"):
+                    f[k] = s2 * (f[k] - x2)
+                for k in ("orientation", "motion", "actual_orientation", "actual_motion"):
+                    if f[k] is not UNK:
+                        f[k] = direction_of(s2 * sign(f[k]))
+            out.append((leg, f, group))
+        return out
 
     def other_group(self) -> tuple | None:
         """The group that is not the LRBG, in the current LRBG's frame: (name, position, sign of
