@@ -1,15 +1,27 @@
 """The verdict cache (``.verifier-cache/``): solver results keyed by what determines them.
 
-A key is the sha256 of everything that decides a rule's solver result:
+A key is the sha256 of a canonical document of everything the rule's obligation is built from.
+The document is made by walking the typed pack's own data classes field by field
+(:func:`obligation`): every field is in the key unless :data:`LEFT_OUT` names it with the reason
+it cannot change the solver's answer. So a field added to ``Pack``, ``Scope``, ``Rule``,
+``Formula`` or an ``[[info]]`` item is in the key from the day it exists, and forgetting it is
+impossible (a stale ``holds`` once survived an edit of an ``[[info]]`` item that way).
+``tests/test_cache_key.py`` edits every key a pack may hold and checks that the key moves.
 
-- the rule's ``given`` (with its implicit premise) and ``expect`` text;
-- the text of every definition in its dependency closure (``let``, onboard, trackside): the
-  worlds that satisfy the rule's ``given`` and break its ``expect`` depend on nothing else, so
-  neither do the verdict, the minimal counterexample or the witness. An edit of an onboard or
-  trackside formula the rule does not reach leaves its key alone;
-- the pack settings (``[world]`` scope, ``[params]`` values, ``q_scale``, ``rounding``);
-- the bound and whether a witness is asked for;
-- the tool version, the solver version and a digest of the encoder's own source.
+What is left out, and why:
+
+- cosmetic text (titles, notes, refs, the description) and source places (paths, lines, TOML
+  keys): they never reach the encoding;
+- the other rules and lemmas of the pack: a rule's obligation does not contain them (an
+  induction step's key names the lemmas it assumes, :func:`induction_key`);
+- definitions (``let``, onboard, trackside) outside the rule's dependency closure: the worlds
+  that satisfy the rule's ``given`` and break its ``expect`` depend only on the closure, so do
+  the verdict, the minimal counterexample and the witness. An edit of an onboard or trackside
+  formula the rule does not reach leaves its key alone.
+
+Beside the document: the bound, whether a witness is asked for, the tool version, the solver
+version and a digest of the whole ``verifier`` package's source (any edit of the tool
+invalidates every entry).
 
 A result also carries the encoding's values of every compared name in its world (the report,
 the trackside outputs), which the engine checks against the simulator; those do depend on
@@ -36,43 +48,106 @@ import tempfile
 from fractions import Fraction
 from pathlib import Path
 
-from verifier import __version__
-from verifier.check.model import Pack, Rule
-from verifier.world.scenario import fmt
+import attrs
 
-FORMAT = "verifier-cache/2"   # 2: designs outside the closure left out of the key
-DATA_FORMAT = "verifier-cache-data/1"   # other decided answers (the induction step, DESIGN 4.7)
+from verifier import __version__
+from verifier.check.model import Formula, Pack, Rule
+from verifier.lang.pack import RawInfo
+
+FORMAT = "verifier-cache/3"   # 3: the key is the canonical obligation document (obligation())
+DATA_FORMAT = "verifier-cache-data/2"   # other decided answers (the induction step, DESIGN 4.7)
 DEFAULT_DIR = Path(".verifier-cache")
 _VERDICTS = ("holds", "violated", "vacuous")
+
+# Fields of the typed pack's classes that are *not* in the key, each with the reason it cannot
+# change a rule's solver result. Everything else is in, including fields added later.
+LEFT_OUT = {
+    Pack: {
+        "path": "where the file lives",
+        "text": "the whole file: the key takes its parts one by one",
+        "sha256": "the whole file: the key takes its parts one by one",
+        "name": "the pack's slug names files, not worlds",
+        "title": "cosmetic", "description": "cosmetic", "warnings": "diagnostics",
+        "rules": "other rules are not in a rule's obligation (the rule itself is keyed apart)",
+        "lemmas": "not in a bounded obligation; the induction key names the lemmas it assumes",
+        "implementation": "only `verifier test` reads it",
+        "lets": "only the definitions in the rule's closure are keyed",
+        "onboard": "only the definitions in the rule's closure are keyed",
+        "trackside": "only the definitions in the rule's closure are keyed",
+        "onboard_order": "only the definitions in the rule's closure are keyed",
+        "trackside_order": "only the definitions in the rule's closure are keyed",
+    },
+    Rule: {"id": "a name", "title": "cosmetic", "refs": "cosmetic", "note": "cosmetic",
+           "line": "a source place"},
+    Formula: {"name": "names the rule or definition, not its meaning", "key": "a source place",
+              "node": "parsed and typed from the text, under the rest of the key"},
+    RawInfo: {"title": "cosmetic", "line": "a source place"},
+}
 
 
 @functools.lru_cache(maxsize=1)
 def _versions() -> dict:
     from verifier.smt import smtlib   # the only way into z3
-    return {"tool": __version__, "solver": smtlib.solver_version(),
-            "encoder": smtlib.encoder_version()}
+    return {"tool": __version__, "solver": smtlib.solver_version(), "source": source_digest()}
+
+
+def source_digest() -> str:
+    """A digest of the source of the whole ``verifier`` package (Python files and the grammar):
+    a cached verdict never outlives the code that computed it, whichever module that was."""
+    root = Path(__file__).resolve().parent
+    h = hashlib.sha256()
+    for f in sorted(p for p in root.rglob("*") if p.suffix in (".py", ".lark") and p.is_file()):
+        h.update(f.relative_to(root).as_posix().encode() + b"\0")
+        h.update(f.read_bytes() + b"\0")
+    return h.hexdigest()
 
 
 def _sha(text: str) -> str:
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
+def canonical(value):
+    """Plain, ordered JSON data for a value of the typed pack; a type it does not know is an
+    error (so a new kind of field cannot slip into the key as an address-bearing repr)."""
+    if value is None or isinstance(value, (bool, int, str)):
+        return value
+    if isinstance(value, Fraction):
+        return {"q": f"{value.numerator}/{value.denominator}"}
+    if attrs.has(type(value)):
+        skip = LEFT_OUT.get(type(value), {})
+        return {"class": type(value).__name__,
+                **{f.name: canonical(getattr(value, f.name))
+                   for f in attrs.fields(type(value)) if f.name not in skip}}
+    if isinstance(value, (list, tuple)):
+        return [canonical(v) for v in value]
+    if isinstance(value, (set, frozenset)):
+        return sorted((canonical(v) for v in value), key=lambda v: json.dumps(v, sort_keys=True))
+    if isinstance(value, dict):
+        return [[canonical(k), canonical(v)] for k, v in
+                sorted(value.items(), key=lambda kv: json.dumps(canonical(kv[0]), sort_keys=True))]
+    raise TypeError(f"the cache key cannot take a {type(value).__name__}")
+
+
+def obligation(pack: Pack, rule: Rule) -> dict:
+    """The canonical document of what ``rule``'s obligation in ``pack`` is built from."""
+    closure = {"let": set(), "onboard": set(), "trackside": set()}
+    for kind, name in rule.deps:
+        closure[kind].add(name)
+    return {
+        "pack": canonical(pack),
+        "rule": canonical(rule),
+        "lets": canonical({n: f for n, f in pack.lets.items() if n in closure["let"]}),
+        "onboard": canonical({n: f for n, f in pack.onboard.items() if n in closure["onboard"]}),
+        "trackside": canonical({n: f for n, f in pack.trackside.items() if n in closure["trackside"]}),
+        "onboard_order": [n for n in pack.onboard_order if n in closure["onboard"]],
+        "trackside_order": [n for n in pack.trackside_order if n in closure["trackside"]],
+    }
+
+
 def rule_key(pack: Pack, rule: Rule, bound: int, witness: bool = True) -> str:
     """The cache key of one rule's solver result (see the module docstring)."""
-    defs = {f"{k} {n}": pack.definition((k, n)).text for k, n in sorted(rule.deps)}
-    doc = {
-        "format": FORMAT,
-        "versions": _versions(),
-        "bound": bound,
-        "witness": witness,
-        "given": rule.given.text if rule.given else None,
-        "premise_legs": rule.premise_legs,
-        "expect": rule.expect.text,
-        "definitions": defs,
-        "settings": {"q_scale": pack.q_scale, "rounding": pack.rounding,
-                     "world": pack.scope.as_json(),
-                     "params": {k: [str(v[0]), fmt(v[1])] for k, v in sorted(pack.params.items())}},
-    }
+    doc = {"format": FORMAT, "versions": _versions(), "bound": bound, "witness": witness,
+           "obligation": obligation(pack, rule)}
     return _sha(json.dumps(doc, sort_keys=True))
 
 
@@ -124,8 +199,6 @@ _TYPES = {"verdict": str, "world": (dict, type(None)), "smt_values": (dict, type
 
 def _fields() -> dict:
     """The fields of ``Solved`` with the type each must have (plain scalars if not listed)."""
-    import attrs
-
     from verifier.smt.solve import Solved
     return {k: _TYPES.get(k, (int, float, str, bool, type(None))) for k in attrs.fields_dict(Solved)}
 

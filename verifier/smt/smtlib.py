@@ -11,8 +11,6 @@ what makes serial and parallel runs give identical results.
 
 from __future__ import annotations
 
-import hashlib
-from pathlib import Path
 
 import attrs
 import z3
@@ -87,17 +85,3 @@ def solve_query(q: Query, *, rlimit: int = solve.DEFAULT_RLIMIT,
 def solver_version() -> str:
     return solve.SOLVER
 
-
-def encoder_version() -> str:
-    """A digest of the source of everything that turns pack text into a solved problem
-    (parser, typer, vocabulary, encoder, solver driver, the induction driver). Any edit to them changes it, so a
-    cached verdict never outlives the code that computed it."""
-    root = Path(__file__).resolve().parent.parent
-    files = sorted([*root.joinpath("lang").glob("*.py"), root / "lang" / "grammar.lark",
-                    *root.joinpath("check").glob("*.py"), *root.joinpath("smt").glob("*.py"),
-                    root / "world" / "vocab.py", root / "world" / "scope.py", root / "induct.py"])
-    h = hashlib.sha256()
-    for f in files:
-        h.update(f.relative_to(root).as_posix().encode() + b"\0")
-        h.update(f.read_bytes() + b"\0")
-    return h.hexdigest()
