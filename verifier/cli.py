@@ -59,11 +59,14 @@ class _Progress:
 
 def _table(results, input_diags) -> str:
     from verifier.engine import VERDICTS, proof_detail, proof_words
+    from verifier.evidence import coverage
     lines = []
     counts = dict.fromkeys(VERDICTS, 0)
     lemma_counts = dict.fromkeys(VERDICTS, 0)
     for p in results:
         lines.append(f"pack {p.name} ({p.path})")
+        if p.scope:
+            lines += coverage.lines(p.scope)
         width = max((len(r.rule) + (6 if r.role == "lemma" else 0) for r in p.results), default=10)
         for r in p.results:
             (lemma_counts if r.role == "lemma" else counts)[r.verdict] += 1
@@ -143,7 +146,7 @@ def cmd_check(args) -> int:
         for p in results:
             for r in p.results:
                 (lemma_counts if r.role == "lemma" else counts)[r.verdict] += 1
-        doc = {"packs": [{"name": p.name, "path": p.path,
+        doc = {"packs": [{"name": p.name, "path": p.path, "scope": p.scope,
                           "rules": [r.as_json() for r in p.results if r.role == "rule"],
                           "lemmas": [r.as_json() for r in p.results if r.role == "lemma"]}
                          for p in results],

@@ -15,7 +15,7 @@ import attrs
 
 from verifier.check.model import Pack, Rule
 from verifier.errors import UsageError, suggest
-from verifier.evidence import cexfile, diagram
+from verifier.evidence import cexfile, coverage, diagram
 from verifier.world.scenario import fmt, world_from_flat, world_to_data
 from verifier.world.sim import State, applies, evaluate, scope_problems
 
@@ -95,6 +95,7 @@ class PackResult:
     name: str
     path: str
     results: tuple
+    scope: dict = attrs.field(factory=dict, eq=False)   # what its verdicts cover (evidence.coverage)
 
 
 def _compare(solved_values: dict, st: State) -> list[str]:
@@ -240,7 +241,10 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
         results[id(pack)].append(res)
         if progress:
             progress(n, len(todo), pack, rule, res)
-    return [PackResult(p.name, p.path, tuple(results[id(p)])) for p in packs]
+    return [PackResult(p.name, p.path, tuple(results[id(p)]),
+                       coverage.summary(p, opts.legs, opts.induction_depth,
+                                        [r for q, r in todo if q is p]))
+            for p in packs]
 
 
 def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: int,

@@ -11,7 +11,9 @@ tool could not decide, SARIF 2.1.0 section 3.27.9), whose level must then be ``n
 with verdict ``error`` and packs that could not be loaded are tool execution notifications.
 ``bounded`` (holds up to its bound, not proved for any number of legs, DESIGN 4.7) is ``open``
 like unknown, with the counterexample to induction as a related location. Every result and
-rule carries the kind of proof in its properties.
+rule carries the kind of proof in its properties; every result the scope its verdict rests on
+(``evidence.coverage``) and the run every pack's scope. A JUnit test suite (a pack) carries its
+scope and the caution as ``<properties>``.
 """
 
 from __future__ import annotations
@@ -21,6 +23,7 @@ import json
 from xml.etree import ElementTree as ET
 
 from verifier import CAUTION, __version__
+from verifier.evidence import coverage
 
 SARIF_SCHEMA = "https://json.schemastore.org/sarif-2.1.0.json"
 FAILURES = ("violated", "vacuous")
@@ -51,6 +54,11 @@ def junit(results, diags) -> str:
     tot = dict(tests=0, failures=0, errors=0, time=0.0)
     for p in results:
         suite = ET.SubElement(root, "testsuite", name=p.name, file=p.path)
+        if p.scope:     # what every verdict of the pack covers (evidence.coverage)
+            props = ET.SubElement(suite, "properties")
+            for label, text in coverage.parts(p.scope):
+                ET.SubElement(props, "property", name=f"verifier.{label.replace(' ', '_')}", value=text)
+            ET.SubElement(props, "property", name="verifier.caution", value=CAUTION)
         st = dict(tests=0, failures=0, errors=0, time=0.0)
         for r in p.results:
             case = ET.SubElement(suite, "testcase", name=("lemma " if r.role == "lemma" else "") + r.rule,
@@ -138,7 +146,8 @@ def sarif(results, diags) -> dict:
                        "properties": {"verdict": r.verdict, "bound": r.bound,
                                       "counterexample": r.counterexample,
                                       "implicit_premise": r.premise, "proof": r.proof,
-                                      "counterexample_to_induction": r.induction}}
+                                      "counterexample_to_induction": r.induction,
+                                      "scope": coverage.one_line(p.scope) if p.scope else None}}
                 if r.counterexample:
                     svg = r.counterexample[:-5] + ".svg" if r.counterexample.endswith(".json") else None
                     related = [{"id": 1, **_loc(r.counterexample), "message": {"text": "counterexample file"}}]
@@ -166,6 +175,9 @@ def sarif(results, diags) -> dict:
         "tool": {"driver": {"name": "verifier", "version": __version__,
                             "rules": rules,
                             "properties": {"solver": SOLVER, "caution": CAUTION}}},
+        "properties": {"caution": CAUTION,
+                       "scopes": {p.name: {**p.scope, "words": coverage.one_line(p.scope)}
+                                  for p in results if p.scope}},
         "columnKind": "unicodeCodePoints",
         "invocations": [{"executionSuccessful": not any(n["level"] == "error" for n in notes),
                          "toolExecutionNotifications": notes}],

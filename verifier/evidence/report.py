@@ -29,7 +29,7 @@ from pathlib import Path
 
 from verifier import CAUTION, __version__
 from verifier.errors import UsageError, VerifierError
-from verifier.evidence import cexfile
+from verifier.evidence import cexfile, coverage
 from verifier.world.scenario import fmt
 
 FORMAT = "verifier-report/1"
@@ -156,7 +156,8 @@ def build(packs, results, diags, opts, *, explained: dict) -> tuple[dict, dict]:
             timings.append({"pack": pr.name, "rule": r.rule, "seconds": round(r.seconds, 3),
                             "cached": r.cached})
         out_packs.append({"name": pack.name, "title": pack.title, "path": pack.path,
-                          "sha256": pack.sha256, "assumptions": _assumptions(pack), "rules": rules})
+                          "sha256": pack.sha256, "assumptions": _assumptions(pack),
+                          "scope": pr.scope, "rules": rules})
     manifest = {
         "format": FORMAT,
         "generated": _generated(),
@@ -321,6 +322,19 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
     a(f'<p class="muted">Options: bound override {_e(o["legs"] if o["legs"] is not None else "none")}, '
       f'rules {_e(", ".join(o["rules"]) or "all")}, resource budget (z3 rlimit) {o["rlimit_per_check"]} '
       f'per solver check, wall-clock guard {_e(o["timeout_per_rule"])} s per rule.</p>')
+
+    # what each pack's verdicts cover
+    a('<h2 id="scope">Scope of the verdicts</h2>')
+    a('<p class="muted">Every verdict of a pack rests on this scope: the bound of movement legs '
+      "(or any number, with the base case and depth of the induction), the world's ranges and "
+      "error bounds, and the designs assessed (details under Assumptions).</p>")
+    for p in manifest["packs"]:
+        if not p.get("scope"):
+            continue
+        a(f'<h3 id="scope-{_e(p["name"])}">{_e(p["name"])}</h3><dl class="kv scope">')
+        for label, text in coverage.parts(p["scope"]):
+            a(f"<dt>{_e(label)}</dt><dd>{_e(text)}</dd>")
+        a("</dl>")
 
     # rules
     a('<h2 id="rules">Rules</h2>')

@@ -1,0 +1,105 @@
+"""Every output that prints a verdict prints the scope it rests on (evidence.coverage).
+
+The expected words are the pack's own [world] values written below, and the bounds the design
+contract gives (DESIGN 3: command line, then rule, then pack; DESIGN 4.7: the base case of a
+proof for any number of legs is at least depth - 1 legs).
+"""
+
+from __future__ import annotations
+
+import json
+import xml.etree.ElementTree as ET
+
+from verifier.cli import main
+
+PACK = """[pack]
+name = "dunmore-scope"
+title = "Dunmore Yard shunting (scope test)"
+legs = 1
+
+[world]
+train_length = ["20 m", "250 m"]
+leg_distance = ["0 m", "700 m"]
+locacc = ["1 m", "6 m"]
+odometry_over = { fixed = "4 m", rate = "3 %" }
+detection = "2 m"
+
+[onboard]
+q_scale = "1 m"
+l_doubtover = "lrbg.locacc + est.bound_over + est.bound_under"
+
+[[rule]]
+id = "front-known"
+title = "The front is reported"
+expect = "train.length >= 20 m"
+
+[[rule]]
+id = "two-leg-rule"
+title = "A rule with its own bound"
+legs = 2
+expect = "train.length <= 250 m"
+
+[[rule]]
+id = "broken"
+title = "A false rule"
+expect = "train.length >= 30 m"
+"""
+
+
+def _run(tmp_path, monkeypatch, capsys, *args):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "p.toml").write_text(PACK)
+    code = main(["check", "p.toml", "--no-files", "--no-cache", *args])
+    return code, capsys.readouterr().out
+
+
+def test_the_table_prints_the_scope_under_each_pack_within_100_columns(tmp_path, monkeypatch, capsys):
+    code, out = _run(tmp_path, monkeypatch, capsys)
+    assert code == 1
+    head = out.split("  holds")[0]
+    assert "scope     up to 1 leg; 1 group" in head
+    assert "train 20..250 m" in head and "each leg 0..700 m" in head and "Q_LOCACC 1..6 m" in head
+    assert "over-reading 4 m + 3 %" in " ".join(head.split())
+    assert "under-reading 5 m + 5 %" in " ".join(head.split())        # DESIGN 4.1 default kept
+    assert "detection error 2 m" in " ".join(head.split())
+    assert "the pack's l_doubtover (defaults elsewhere)" in " ".join(head.split())
+    assert "Q_SCALE 1 m" in " ".join(head.split())
+    assert "two-leg-rule (up to 2 legs)" in " ".join(head.split())    # its own bound
+    assert max(len(line) for line in out.splitlines() if not line.startswith("note:")) <= 100
+
+
+def test_a_legs_option_and_any_number_of_legs_are_said(tmp_path, monkeypatch, capsys):
+    _, out = _run(tmp_path, monkeypatch, capsys, "--legs", "2")
+    assert "up to 2 legs (--legs 2)" in out and "own bound" not in out   # --legs overrides rules
+    _, out = _run(tmp_path, monkeypatch, capsys, "--legs", "any", "--induction-depth", "3",
+                  "--rule", "front-known")
+    assert "any number of legs (k-induction: base case up to 2 legs, step depth 1..3)" in " ".join(out.split())
+
+
+def test_json_sarif_and_junit_carry_the_scope(tmp_path, monkeypatch, capsys):
+    _, out = _run(tmp_path, monkeypatch, capsys, "--json")
+    scope = json.loads(out)["packs"][0]["scope"]
+    assert scope["legs"] == 1 and scope["world"]["train_length"] == ["20", "250"]
+    assert scope["onboard"]["own_formulas"] == ["l_doubtover"] and scope["rule_bounds"] == {"two-leg-rule": 2}
+
+    _, out = _run(tmp_path, monkeypatch, capsys, "--format", "sarif")
+    run = json.loads(out)["runs"][0]
+    assert run["properties"]["scopes"]["dunmore-scope"]["legs"] == 1
+    assert "caution" in run["properties"]
+    (res,) = run["results"]                     # the one violated rule
+    assert "up to 1 leg" in res["properties"]["scope"] and "train 20..250 m" in res["properties"]["scope"]
+
+    _, out = _run(tmp_path, monkeypatch, capsys, "--format", "junit")
+    suite = ET.fromstring(out).find("testsuite")
+    props = {p.get("name"): p.get("value") for p in suite.find("properties")}
+    assert props["verifier.scope"].startswith("up to 1 leg")
+    assert "train 20..250 m" in props["verifier.world"] and "EN 50126" in props["verifier.caution"]
+
+
+def test_the_report_has_a_scope_section_per_pack(tmp_path, monkeypatch, capsys):
+    _run(tmp_path, monkeypatch, capsys, "--report", "rep")
+    manifest = json.loads((tmp_path / "rep" / "manifest.json").read_text())
+    assert manifest["packs"][0]["scope"]["world"]["detection"] == "2"
+    page = (tmp_path / "rep" / "index.html").read_text()
+    section = page.split('id="scope-dunmore-scope"')[1].split("</dl>")[0]
+    assert "up to 1 leg" in section and "detection error 2 m" in section
