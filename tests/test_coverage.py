@@ -103,3 +103,22 @@ def test_the_report_has_a_scope_section_per_pack(tmp_path, monkeypatch, capsys):
     page = (tmp_path / "rep" / "index.html").read_text()
     section = page.split('id="scope-dunmore-scope"')[1].split("</dl>")[0]
     assert "up to 1 leg" in section and "detection error 2 m" in section
+
+
+def test_the_run_a_note_cites_really_breaks_the_bounded_rule(capsys):
+    """rules/confidence-interval.toml says automatic-step-stays-in-range is false for long runs
+    and names a scenario that shows it. Hand-worked: 28 legs x 12 km + 2 m antenna = 336,002 m,
+    more than 32766 x 10 m = 327,660 m, the most the 10 m step codes (SUBSET-026 7.5.1.13:
+    32767 means unknown; sending 32767 above 32766 is this tool's design choice)."""
+    root = __import__("pathlib").Path(__file__).resolve().parent.parent
+    note = next(r["note"] for r in __import__("tomllib").loads(
+        (root / "rules" / "confidence-interval.toml").read_text())["rule"]
+        if r["id"] == "automatic-step-stays-in-range")
+    assert "examples/scenarios/long-run-336-km.toml" in note
+    code = main(["simulate", str(root / "examples" / "scenarios" / "long-run-336-km.toml"),
+                 "--pack", str(root / "rules" / "confidence-interval.toml")])
+    out = capsys.readouterr().out
+    assert code == 1
+    assert "VIOLATED        automatic-step-stays-in-range" in out
+    assert "D_LRBG 32767" in out and "front 336002 m" in out
+    assert "warning: this world is outside the pack's scope" not in out
