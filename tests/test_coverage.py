@@ -122,3 +122,43 @@ def test_the_run_a_note_cites_really_breaks_the_bounded_rule(capsys):
     assert "VIOLATED        automatic-step-stays-in-range" in out
     assert "D_LRBG 32767" in out and "front 336002 m" in out
     assert "warning: this world is outside the pack's scope" not in out
+
+
+ONE_BALISE = """[lrbg]
+balises = 1
+read = 1
+[[legs]]
+running = "forward"
+distance = "100 m"
+"""
+REVERSE = """[lrbg]
+balises = 2
+read = 2
+[train]
+antenna = "2 m"
+[passage]
+direction = "reverse"
+running = "forward"
+[[legs]]
+running = "forward"
+distance = "100 m"
+"""
+
+
+def test_simulate_gives_the_true_reason_for_32767_and_names_the_safe_ends(tmp_path, capsys):
+    root = __import__("pathlib").Path(__file__).resolve().parent.parent
+    pack = str(root / "rules" / "position-report.toml")
+    (tmp_path / "one.toml").write_text(ONE_BALISE)
+    main(["simulate", str(tmp_path / "one.toml"), "--pack", pack])
+    out = capsys.readouterr().out
+    report = next(line for line in out.splitlines() if line.startswith("report:"))
+    assert "D_LRBG 32767" in report and "direction over the group is unknown" in report
+    assert "out of range" not in out
+    # Hand-worked (DESIGN 4.1 defaults, SUBSET-041 5.3.1.1 bound 5 m + 5 %): front first against
+    # the group, antenna 2 m, 100 m: the front is at -102 m; both doubts 5 + 5 = 10 m; facing
+    # reverse, the max safe front is the one further along the reverse direction.
+    (tmp_path / "rev.toml").write_text(REVERSE)
+    main(["simulate", str(tmp_path / "rev.toml"), "--pack", pack])
+    out = capsys.readouterr().out
+    trackside = next(line for line in out.splitlines() if line.startswith("trackside:"))
+    assert "min safe front -92 m, max safe front -112 m" in trackside

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from verifier.check.model import Pack
 from verifier.evidence.cexfile import failed_detail
+from verifier.evidence.story import unknown_code_words, unplaced_words
 from verifier.world.scenario import fmt
 from verifier.world.sim import State, World, applies, evaluate, known, scope_problems
 from verifier.world.vocab import Direction
@@ -48,17 +49,18 @@ def simulate_text(pack: Pack, world: World, legs: int | None = None) -> tuple[st
     out.append(f"report:    Q_SCALE {code('q_scale')} ({_m(g('report.q_scale'))}), D_LRBG {code('d_lrbg')}, "
                f"Q_DIRLRBG {code('q_dirlrbg')}, Q_DLRBG {code('q_dlrbg')}, L_DOUBTOVER {code('l_doubtover')}, "
                f"L_DOUBTUNDER {code('l_doubtunder')}, Q_DIRTRAIN {code('q_dirtrain')}"
-               f"{'' if g('report.in_range') else '  (out of range)'}")
+               f"{'' if g('report.in_range') else f'; {unknown_code_words(st)}'}")
     for item in pack.infos:
         v = lambda f: st.info_value(item.id, f)  # noqa: E731
         out.append(f"info {item.id}: " + (f"accepted, placed at {_m(v('position'))}" if v("accepted")
                                            else "not accepted") + f"; really at {_m(v('real'))}")
     if g("rbc.placed"):
-        out.append(f"trackside: estimated front {_m(g('rbc.est_front'))}, safe front interval "
-                   f"[{_m(g('rbc.min_safe_front'))}, {_m(g('rbc.max_safe_front'))}], min safe rear "
-                   f"{_m(g('rbc.min_safe_rear'))}")
+        out.append(f"trackside: estimated front {_m(g('rbc.est_front'))}, min safe front "
+                   f"{_m(g('rbc.min_safe_front'))}, max safe front {_m(g('rbc.max_safe_front'))}, "
+                   f"min safe rear {_m(g('rbc.min_safe_rear'))} (the max safe front lies ahead in "
+                   f"the train's orientation, {g('report.q_dirlrbg').word})")
     else:
-        out.append("trackside: the report does not place the train (a code is 32767 or a qualifier unknown)")
+        out.append(f"trackside: the report does not place the train: {unplaced_words(st)}")
     ok = True
     out.append("rules:")
     for rule in pack.rules:

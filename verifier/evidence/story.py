@@ -342,6 +342,29 @@ def value_words(value, ty) -> str:
     return fmt(Fraction(value))
 
 
+def unknown_code_words(st) -> str:
+    """Why the report's distances are sent as 32767 (unknown), in words: the direction over the
+    group is unknown (no qualifier to refer them to), or a distance does not fit the step."""
+    g = st.get
+    if g("passage.seen").word == "unknown":
+        return ("the direction over the group is unknown, one balise read and no linking, so every "
+                "distance is sent as 32767 (unknown)")
+    step = g("report.q_scale")
+    too_long = [k.upper() for k in ("d_lrbg", "l_doubtover", "l_doubtunder")
+                if g(f"report.code.{k}") == 32767]
+    return (f"{', '.join(too_long)} beyond 32766 steps of {fmt(step)} m, so sent as 32767, "
+            "this tool's choice for a distance no step can code")
+
+
+def unplaced_words(st) -> str:
+    """Why the trackside cannot place the train, in words."""
+    g = st.get
+    if not g("report.in_range"):
+        return unknown_code_words(st)
+    unknown = [q.upper() for q in ("q_dlrbg", "q_dirlrbg", "q_dirtrain") if g(f"report.{q}").word == "unknown"]
+    return f"{', '.join(unknown)} unknown" if unknown else "the report carries no position"
+
+
 def comparison_words(detail: dict) -> str:
     """A failed comparison (``cexfile.failed_detail`` with an operator) in words: the comparison as
     written, then the value of each side that is not a literal, with its unit. For example
@@ -468,7 +491,7 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
     add(f"  As packet codes: Q_SCALE {code('q_scale')}, D_LRBG {code('d_lrbg')}, Q_DIRLRBG "
         f"{code('q_dirlrbg')}, Q_DLRBG {code('q_dlrbg')}, L_DOUBTOVER {code('l_doubtover')}, "
         f"L_DOUBTUNDER {code('l_doubtunder')}, Q_DIRTRAIN {code('q_dirtrain')}"
-        + ("." if g("report.in_range") else "; a distance is out of range and sent as 32767."))
+        + ("." if g("report.in_range") else f"; {unknown_code_words(st)}."))
     add("The trackside view")
     if g("rbc.placed"):
         lo, hi = g("rbc.min_safe_front"), g("rbc.max_safe_front")
@@ -478,8 +501,7 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
             f"{m(hi)} and the min safe rear at {m(g('rbc.min_safe_rear'))}.")
         add("  " + interval_words(g("actual.front"), lo, hi))
     else:
-        add("  The report does not place the train (a distance code is 32767 or a qualifier "
-            "unknown): rbc.placed is false.")
+        add(f"  The report does not place the train, rbc.placed is false: {unplaced_words(st)}.")
     add("")
     add("What failed")
     f = cexfile.failed_detail(rule, st)
