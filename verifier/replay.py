@@ -17,7 +17,7 @@ from verifier.world.sim import State, applies, evaluate, scope_problems
 class Outcome:
     file: str
     status: str      # still violated, now holds, rule changed, rule gone; for counterexamples
-                     # to induction: still not inductive, no longer breaks
+                     # to induction: still not inductive, no longer breaks, lemmas changed
     detail: str
 
 
@@ -67,6 +67,9 @@ def replay_induction(path: Path) -> Outcome:
     except ValueError as exc:
         if str(exc).startswith("rule.id"):
             return Outcome(shown, "rule gone", f"pack {pack.name} has no rule '{rid}' any more")
+        if str(exc).startswith("lemmas["):     # a lemma it was written with is gone
+            return _with_todays_lemmas(shown, pack, doc, rid, [x.id for x in pack.lemmas],
+                                       [entry["id"] for entry in doc["lemmas"]])
         return Outcome(shown, "rule changed", f"rule {rid}: the recorded path no longer fits "
                        f"today's pack ({exc})")
     same = cexfile.rule_hashes(pack, rule) == doc["rule"].get("sha256") and all(
@@ -74,6 +77,10 @@ def replay_induction(path: Path) -> Outcome:
         for lemma, entry in zip(lemmas, doc["lemmas"]))
     still = not rep.problems
     verdict = "still breaks the induction step" if still else "no longer breaks the induction step"
+    today = [lemma.id for lemma in pack.lemmas]
+    written = [entry["id"] for entry in doc["lemmas"]]
+    if same and today != written:
+        return _with_todays_lemmas(shown, pack, doc, rid, today, written)
     if not same:
         return Outcome(shown, "rule changed", f"rule {rid}, a lemma or a definition they use was "
                        f"edited; the recorded path {verdict}")
@@ -81,6 +88,30 @@ def replay_induction(path: Path) -> Outcome:
         return Outcome(shown, "still not inductive", f"rule {rid}")
     return Outcome(shown, "no longer breaks", f"rule {rid} unchanged, but the recorded path "
                    f"{verdict}: " + "; ".join(rep.problems))
+
+
+def _with_todays_lemmas(shown: str, pack, doc: dict, rid: str, today: list, written: list) -> Outcome:
+    """A counterexample to induction whose pack now has other lemmas: the recorded path judged
+    with today's lemmas (every one of them, in file order; replay proves none: check does)."""
+    from verifier.evidence import ctistory
+    added = [x for x in today if x not in written]
+    removed = [x for x in written if x not in today]
+    what = "; ".join(part for part in (
+        f"added {', '.join(added)}" if added else "", f"removed {', '.join(removed)}" if removed else "",
+        "reordered" if not added and not removed else "") if part)
+    names = ", ".join(today) or "none"
+    head = f"rule {rid}: the pack's lemmas changed since the file was written ({what})"
+    try:
+        *_, rep = ctistory.rebuild(pack, {**doc, "lemmas": [{"id": x} for x in today]})
+    except ValueError as exc:
+        return Outcome(shown, "lemmas changed", f"{head}; the recorded state cannot be judged with "
+                       f"today's lemmas ({names}: {exc}); run verifier check on the pack")
+    if rep.problems:
+        return Outcome(shown, "lemmas changed", f"{head}; with today's lemmas ({names}; replay does "
+                       "not prove them, verifier check does) the recorded path no longer breaks the "
+                       "induction step: " + "; ".join(rep.problems))
+    return Outcome(shown, "lemmas changed", f"{head}; with today's lemmas ({names}) the recorded "
+                   "path still breaks the induction step")
 
 
 def replay_file(path: Path, impl: str | None = None, search: tuple = ()) -> Outcome:
