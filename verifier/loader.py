@@ -26,26 +26,57 @@ def display_path(path: Path) -> str:
 
 def discover(paths) -> list[Path]:
     """The pack files named by ``paths``: files as given, directories searched recursively
-    for ``*.toml``, in a fixed (sorted) order."""
+    for ``*.toml``, in a fixed (sorted) order. A file found twice (by two names) is kept once,
+    where it was first found; each path is resolved once (linear in the number of files)."""
     found: list[Path] = []
     for p in paths:
         p = Path(p)
         if p.is_dir():
             found.extend(sorted(q for q in p.rglob("*.toml") if q.is_file()))
-        elif p.exists():
+        elif p.exists() or p.is_symlink():
             found.append(p)
         else:
             raise PackError([Diagnostic(str(p), 1, 1, "no such file or directory")])
     unique: list[Path] = []
+    seen: set[Path] = set()
     for p in found:
-        if p.resolve() not in {q.resolve() for q in unique}:
+        key = p.resolve()
+        if key not in seen:
+            seen.add(key)
             unique.append(p)
     return unique
 
 
+def _not_packs(paths) -> list[str]:
+    """Files under folders of ``paths`` that look like packs but are not read as such (the
+    suffix is matched exactly: ``.TOML`` is not a pack), for the hint of "no rules found"."""
+    out = []
+    for p in map(Path, paths):
+        if p.is_dir():
+            out += sorted(display_path(q) for q in p.rglob("*")
+                          if q.suffix.lower() == ".toml" and q.suffix != ".toml" and q.is_file())
+    return out
+
+
+def nothing_to_check(paths, diags) -> Diagnostic:
+    """The error of a check that found no rule at all: exit 2, never a green run."""
+    paths = [Path(p) for p in paths] or [Path(".")]
+    where = ", ".join(display_path(p) for p in paths)
+    hint = ""
+    odd = _not_packs(paths)
+    if odd:
+        hint = (f"; pack files end in '.toml' (lower case), not {', '.join(odd[:3])}"
+                + (" ..." if len(odd) > 3 else ""))
+    elif not any(d.severity == "warning" for d in diags):
+        hint = "; no *.toml pack files there"
+    return Diagnostic(display_path(paths[0]), 1, 1, f"no rules found in {where}{hint}")
+
+
 def load_all(paths) -> tuple[list[Pack], list[Diagnostic]]:
     """Load every pack under ``paths``. Packs with errors are left out and their diagnostics
-    returned; the others are checked. Pack names must be unique."""
+    returned; the others are checked. Pack names must be unique. Finding no rule (and no
+    lemma) at all, with no error to explain it, is a PackError: "no rules found"."""
+    paths = list(paths)
     packs: list[Pack] = []
     diags: list[Diagnostic] = []
     names: dict[str, str] = {}
@@ -63,4 +94,7 @@ def load_all(paths) -> tuple[list[Pack], list[Diagnostic]]:
             continue
         names[pack.name] = shown
         packs.append(pack)
+    if not any(d.severity == "error" for d in diags) and not any(p.rules or p.lemmas for p in packs):
+        # nothing would be checked: an input error (exit 2), with the warnings that say why
+        raise PackError([*diags, nothing_to_check(paths, diags)])
     return packs, diags

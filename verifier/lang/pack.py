@@ -18,12 +18,13 @@ import attrs
 from verifier.errors import Diagnostic, PackError, suggest
 from verifier.lang import ast
 from verifier.lang.parser import ExprSyntaxError, parse, parse_quantity
-from verifier.lang.source import SourceFile
+from verifier.lang.source import SourceFile, read_regular
 from verifier.world import vocab
 from verifier.world.scope import Bound, Scope
 
-SLUG = re.compile(r"^[a-z0-9][a-z0-9-]*$")
-IDENT = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
+SLUG = re.compile(r"[a-z0-9][a-z0-9-]*")     # always fullmatch: "$" also matches before a final "\n"
+IDENT = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
+INFO_ID = re.compile(r"[a-z][a-z0-9_]*")
 MAX_LEGS = 8
 DEFAULT_LEGS = 3
 ANY = "any"        # legs = "any": proved for every number of legs where the tool can (DESIGN 4.7)
@@ -334,10 +335,7 @@ def read_pack(path: str | Path, display: str | None = None) -> RawPack:
     """Read and syntax-check one pack file. Raises PackError with every problem found."""
     path = Path(path)
     shown = display or path.as_posix()
-    try:
-        data_bytes = path.read_bytes()
-    except OSError as exc:
-        raise PackError([Diagnostic(shown, 1, 1, f"cannot read pack: {exc.strerror or exc}")]) from None
+    data_bytes = read_regular(path, shown, "pack")
     try:
         text = data_bytes.decode("utf-8")
     except UnicodeDecodeError as exc:
@@ -377,7 +375,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     if "pack" in data:
         if "name" not in pack_t:
             c.at(("pack",), "[pack] needs a name")
-        elif not isinstance(name, str) or not SLUG.match(name):
+        elif not isinstance(name, str) or not SLUG.fullmatch(name):
             c.at(("pack", "name"), f"pack name must be a slug (lower-case letters, digits, '-'), got {name!r}")
         if not isinstance(pack_t.get("title", ""), str) or "title" not in pack_t:
             c.at(("pack",), "[pack] needs a title (a string)")
@@ -394,7 +392,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     params = {}
     for k, v in tables.get("params", {}).items():
         key = ("params", k)
-        if not IDENT.match(k):
+        if not IDENT.fullmatch(k):
             c.at(key, f"parameter name '{k}' must be a plain identifier")
             continue
         if isinstance(v, bool):
@@ -409,7 +407,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     lets = {}
     for k, v in tables.get("let", {}).items():
         key = ("let", k)
-        if not IDENT.match(k):
+        if not IDENT.fullmatch(k):
             c.at(key, f"let name '{k}' must be a plain identifier")
             continue
         if k in vocab.CONSTANTS or k in ("legs", "true", "false") or k in _FUNCTION_WORDS:
@@ -500,7 +498,7 @@ def _infos(c: _Collector, src: SourceFile, raw, scope: Scope, seen: dict) -> lis
                 c.at(base, f"info item is missing '{req}'")
                 ok = False
         iid = t.get("id", "")
-        if "id" in t and (not isinstance(iid, str) or not re.match(r"^[a-z][a-z0-9_]*$", iid)):
+        if "id" in t and (not isinstance(iid, str) or not INFO_ID.fullmatch(iid)):
             c.at(base + ("id",), f"info id must be a name (lower-case letters, digits, '_'), got {iid!r}")
             ok = False
         elif iid in seen:
@@ -557,7 +555,7 @@ def _rules(c: _Collector, src: SourceFile, raw: list, table: str, seen_ids: dict
                 c.at(base, f"{table} is missing '{req}'")
                 ok = False
         rid = r.get("id", f"#{i + 1}")
-        if "id" in r and (not isinstance(rid, str) or not SLUG.match(rid)):
+        if "id" in r and (not isinstance(rid, str) or not SLUG.fullmatch(rid)):
             c.at(base + ("id",), f"{table} id must be a slug (lower-case letters, digits, '-'), got {rid!r}")
             ok = False
         elif isinstance(rid, str) and rid in seen_ids:

@@ -7,11 +7,48 @@ assignments. It only has to be right for files that ``tomllib`` accepted.
 
 from __future__ import annotations
 
+import os
 import re
+import stat
 
 import attrs
 
-from verifier.errors import Diagnostic
+from verifier.errors import Diagnostic, PackError
+
+MAX_FILE_BYTES = 4 * 1024 * 1024    # no pack, scenario or evidence file comes near this
+
+
+def read_regular(path, shown: str, what: str = "pack") -> bytes:
+    """The bytes of a regular file of at most MAX_FILE_BYTES; anything else (a FIFO, a device
+    such as /dev/zero, a folder, a file too large) is a PackError, without blocking on it or
+    reading it whole. The file is opened without blocking and checked after opening, so it
+    cannot be swapped for a FIFO between the check and the read."""
+    def refuse(message: str):
+        return PackError([Diagnostic(shown, 1, 1, f"cannot read {what}: {message}")])
+    try:
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_CLOEXEC", 0))
+    except OSError as exc:
+        raise refuse(exc.strerror or str(exc)) from None
+    try:
+        info = os.fstat(fd)
+        if not stat.S_ISREG(info.st_mode):
+            kind = ("a folder" if stat.S_ISDIR(info.st_mode) else "a FIFO" if stat.S_ISFIFO(info.st_mode)
+                    else "a device" if stat.S_ISCHR(info.st_mode) or stat.S_ISBLK(info.st_mode)
+                    else "a socket" if stat.S_ISSOCK(info.st_mode) else "special")
+            raise refuse(f"not a regular file ({kind})")
+        if info.st_size > MAX_FILE_BYTES:
+            raise refuse(f"larger than {MAX_FILE_BYTES // (1024 * 1024)} MB ({info.st_size:,} bytes)")
+        with os.fdopen(fd, "rb", closefd=True) as fh:
+            fd = -1
+            data = fh.read(MAX_FILE_BYTES + 1)     # a file that grew since fstat
+    except OSError as exc:
+        raise refuse(exc.strerror or str(exc)) from None
+    finally:
+        if fd >= 0:
+            os.close(fd)
+    if len(data) > MAX_FILE_BYTES:
+        raise refuse(f"larger than {MAX_FILE_BYTES // (1024 * 1024)} MB")
+    return data
 
 _HEADER = re.compile(r"^\s*(\[\[?)\s*([A-Za-z0-9_.\-\" ]+?)\s*\]\]?\s*(#.*)?$")
 _KEY = re.compile(r"^(\s*)([A-Za-z0-9_\-]+|\"[^\"]*\")\s*=\s*")
