@@ -173,18 +173,14 @@ def cmd_check(args) -> int:
 
 
 def _note_stale_files(out: Path, packs, results) -> None:
-    """Say which counterexample files left by an earlier run belong to a rule that is no longer
-    violated. They are kept (they may be archived evidence); ``verifier replay`` re-judges them."""
-    from verifier.evidence.cexfile import cex_path
-    for pack, pr in zip(packs, results):
-        for r in pr.results:
-            if r.verdict not in ("holds", "vacuous"):
-                continue
-            old = cex_path(out, pack, pack.rule(r.rule))
-            if old.exists():
-                print(f"note: {old.as_posix()} is from an earlier run: rule {r.rule} is now {r.verdict}; "
-                      f"the file is kept ('verifier replay' re-judges it; delete it if it is no "
-                      f"longer evidence)", file=sys.stderr)
+    """Say which evidence files left by an earlier run no longer match their rule's verdict
+    (``cexfile.stale_files``). They are kept (they may be archived evidence); ``verifier
+    replay`` re-judges them."""
+    from verifier.evidence.cexfile import stale_files
+    for path, rule_id, words in stale_files(out, packs, results):
+        print(f"note: {path.as_posix()} is from an earlier run: rule {rule_id} {words}; the file "
+              f"is kept ('verifier replay' re-judges it; delete it if it is no longer evidence)",
+              file=sys.stderr)
 
 
 def cmd_diff(args) -> int:

@@ -203,6 +203,26 @@ def induction_path(out_dir: Path, pack: Pack, rule: Rule) -> Path:
     return out_dir / pack.name / f"{rule.id}.induction.json"
 
 
+# what a verdict means for an earlier file of each kind, when that file is no longer evidence of it
+_NOW = {"holds": "now holds", "vacuous": "is now vacuous", "bounded": "is now bounded",
+        "violated": "is now violated", "unknown": "was not decided in this run (unknown)"}
+
+
+def stale_files(out_dir: Path, packs, results) -> list:
+    """Files under ``out_dir`` from an earlier run that the verdicts of this run do not back:
+    a counterexample whose rule is not violated now, a counterexample to induction whose rule
+    is not bounded now. Each as (path, rule id, the verdict in words)."""
+    out = []
+    for pack, pr in zip(packs, results):
+        for r in pr.results:
+            rule = pack.rule(r.rule)
+            for path, kind in ((cex_path(out_dir, pack, rule), "violated"),
+                               (induction_path(out_dir, pack, rule), "bounded")):
+                if r.verdict != kind and r.verdict != "error" and path.exists():
+                    out.append((path, r.rule, _NOW[r.verdict]))
+    return out
+
+
 def build_induction(pack: Pack, rule: Rule, lemmas, views, plan, legs, *, bound: int,
                     minimal: bool, solver: str) -> dict:
     """The file of a counterexample to induction: the rule, the lemmas assumed, the first
