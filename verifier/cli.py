@@ -1,7 +1,8 @@
 """The command line: thin subcommands over library calls (DESIGN 7).
 
 Exit codes of ``check``: 0 all hold; 1 some violated or vacuous; 2 bad input or usage;
-3 none violated but some unknown; 4 internal cross-check failure (4 > 2 > 1 > 3).
+3 none violated but some unknown (a budget ran out) or bounded (holds up to its bound, not
+proved for any number of legs); 4 internal cross-check failure (4 > 2 > 1 > 3).
 """
 
 from __future__ import annotations
@@ -364,8 +365,10 @@ def build_parser() -> argparse.ArgumentParser:
     c = sub.add_parser("check", help="prove or refute every rule of the packs",
                        description="Check every rule of the given packs (files or directories, "
                                    "default rules/) for every world in scope. Exit code: 0 all "
-                                   "hold; 1 violated or vacuous; 2 bad input; 3 unknown; 4 internal "
-                                   "cross-check failure.")
+                                   "hold; 1 violated or vacuous; 2 bad input; 3 none violated but some "
+                                   "unknown (a budget ran out) or bounded (holds up to its bound, "
+                                   "not proved for any number of legs); 4 internal cross-check "
+                                   "failure.")
     c.add_argument("paths", nargs="*", metavar="PATH", help="pack files or directories (default: rules/)")
     c.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
     c.add_argument("--legs", type=_legs_arg, metavar="K", help="bound: movement legs after the passage, "
