@@ -31,7 +31,9 @@ def test_qualifier_codes_subset026_7():
 
 
 def test_special_distance_value_is_15_bit_all_ones():
-    # SUBSET-026 7.5.1.13/43/44: 15-bit fields, 32767 = unknown
+    # SUBSET-026 7.5.1.13/43/44 (published text): 15-bit fields, 32767 = "unknown or greater than
+    # 327.660 km"; that a code above 32766 at a finer step is sent as 32767 is this tool's choice
+    # (docs/design.md 4.4), not the clause
     from verifier.world.vocab import MAX_CODE, UNKNOWN_CODE
     assert UNKNOWN_CODE == 2**15 - 1 == 32767 and MAX_CODE == 32766
 
@@ -44,15 +46,38 @@ def test_q_scale_codes(write_pack):
 
 
 def test_subset041_worked_interval_1000_m(write_pack):
-    # SUBSET-041 5.3.1.1: 5 m + 5 % of 1000 m = 55 m; with the 12 m default location accuracy
-    # (SUBSET-026 appendix A.3.2): 67 m, coded 670 at 10 cm and 67 at 1 m (SUBSET-026 7.5.1.43)
+    # SUBSET-041 5.3.1.1 (from memory: the published text was not found): 5 m + 5 % of 1000 m
+    # = 55 m; the 1 m detection error on top (SUBSET-026 3.6.4.1.1 a, published: the reading
+    # amount includes the odometer accuracy and the error in detecting the group's reference,
+    # two parts; SUBSET-036 4.2.10.2 1 m, from memory): 56 m. With the 12 m default location
+    # accuracy (SUBSET-026 appendix A.3.2, from memory): 68 m, coded 680 at 10 cm and 68 at 1 m
+    # (SUBSET-026 7.5.1.43, published: L_DOUBTOVER = over-reading amount + Q_LOCACC).
     world = World(balises=2, read=2, locacc=F(12), antenna=F(2), length=F(200),
                   legs=(Leg(False, FWD, F(1000), F(1000)),))
-    for step, code in (("10 cm", 670), ("1 m", 67)):
+    for step, code in (("10 cm", 680), ("1 m", 68)):
         st = State(_pack(write_pack, onboard=f'q_scale = "{step}"'), world)
-        assert st.get("est.bound_over") == 55
-        assert st.get("est.l_doubtover") == 67 and st.get("est.l_doubtunder") == 67
+        assert st.get("est.bound_over") == 56
+        assert st.get("est.l_doubtover") == 68 and st.get("est.l_doubtunder") == 68
         assert st.get("report.code.l_doubtover") == code
+
+
+def test_detection_error_inside_the_odometry_bound_only_when_asked(write_pack):
+    # [world] detection_in_odometry = true reads SUBSET-041 5.3.1.1 as including the detection
+    # error (the reading before issue 16): 55 m and 67 m at 1000 m, as worked above less 1 m.
+    world = World(balises=2, read=2, locacc=F(12), antenna=F(2), length=F(200),
+                  legs=(Leg(False, FWD, F(1000), F(1000)),))
+    inside = _pack(write_pack, onboard='q_scale = "1 m"', world="detection_in_odometry = true")
+    st = State(inside, world)
+    assert st.get("est.bound_over") == 55 and st.get("est.l_doubtover") == 67
+    # the scope: the detection error at its 1 m bound and the odometry at 5 m + 5 % of 1000 m
+    # over-reading (odometer 1055 m for 1000 m run) is in scope only with the error on top
+    from verifier.world.sim import scope_problems
+    edge = World(balises=2, read=2, antenna=F(2), length=F(200), detect_error=F(-1),
+                 legs=(Leg(False, FWD, F(1000), F(1055) + F(55, 19)),))
+    # E = 1055 + 55/19 m measured: 5 m + 5 % of E = 55 m + 55/19 m of odometer error
+    default = _pack(write_pack, onboard='q_scale = "1 m"')
+    assert scope_problems(edge, default.scope, 2) == []
+    assert any("over-reading" in p for p in scope_problems(edge, inside.scope, 2))
 
 
 def test_largest_distance_at_10_cm(write_pack):
@@ -73,25 +98,29 @@ def test_safe_ends_subset026_3_6_4_1_5_and_3_6_1_7(write_pack):
     # SUBSET-026 3.6.4.1.5: min safe front = est - L_DOUBTOVER, max = est + L_DOUBTUNDER along the
     # orientation; 3.6.1.7: min safe rear = min safe front - train length.
     pack = _pack(write_pack, onboard='q_scale = "1 m"')
-    # nominal, front first, 100 m run, locacc 5 m: doubts 5 + 5 + 5 = 15 m; est front 102 m
+    # nominal, front first, 100 m run, locacc 5 m: doubts 5 + 5 + 5 % of 100 + 1 m detection
+    # = 16 m; est front 102 m
     w = World(locacc=F(5), antenna=F(2), length=F(150), legs=(Leg(False, FWD, F(100), F(100)),))
     st = State(pack, w)
     assert st.get("rbc.est_front") == 102
-    assert st.get("rbc.min_safe_front") == 87 and st.get("rbc.max_safe_front") == 117
-    assert st.get("rbc.min_safe_rear") == 87 - 150
+    assert st.get("rbc.min_safe_front") == 86 and st.get("rbc.max_safe_front") == 118
+    assert st.get("rbc.min_safe_rear") == 86 - 150
     # the same run in the reverse direction: mirrored in the LRBG frame
     st = State(pack, World(locacc=F(5), antenna=F(2), length=F(150), direction=REV,
                            legs=(Leg(False, FWD, F(100), F(100)),)))
     assert st.get("rbc.est_front") == -102
-    assert st.get("rbc.min_safe_front") == -87 and st.get("rbc.max_safe_front") == -117
-    assert st.get("rbc.min_safe_rear") == -87 + 150
+    assert st.get("rbc.min_safe_front") == -86 and st.get("rbc.max_safe_front") == -118
+    assert st.get("rbc.min_safe_rear") == -86 + 150
 
 
 def test_default_detection_is_subset036_1_m():
-    # SUBSET-036 4.2.10.2: 1 m balise location accuracy for vital use
+    # SUBSET-036 4.2.10.2 (from memory): 1 m balise location accuracy for vital use
     assert Scope().detection == 1
-    # SUBSET-041 5.3.1.1: 5 m + 5 % each way
+    # SUBSET-041 5.3.1.1 (from memory): 5 m + 5 % each way
     assert Scope().odometry_over.fixed == 5 and Scope().odometry_over.rate == F(1, 20)
+    # SUBSET-026 3.6.4.1.1 a) (published): odometer accuracy and detection error are two parts
+    # of the reading amount, so the detection error is added on top by default
+    assert Scope().detection_in_odometry is False
 
 
 def test_terminus_reversal_worked_by_hand(write_pack):
@@ -163,15 +192,15 @@ def test_passing_an_opposite_facing_second_group(write_pack):
     # away from G1, faces G2's reverse direction: Q_DIRLRBG reverse (code 0, SUBSET-026
     # 7.5.1.104), Q_DIRTRAIN reverse; its front is 2 + 100 = 102 m on G2's reverse side:
     # Q_DLRBG 0, D_LRBG 102 m = code 1020 at 10 cm (7.5.1.13, 7.5.1.129). Doubts from G2:
-    # Q_LOCACC 4 m + 5 m + 5 % of the 100 m measured since G2 = 14 m (SUBSET-041 5.3.1.1),
-    # code 140. The end of authority 1500 m from G1 lies 1200 m from G2, on its reverse side.
+    # Q_LOCACC 4 m + 5 m + 5 % of the 100 m measured since G2 (SUBSET-041 5.3.1.1, from memory)
+    # + 1 m detection = 15 m, code 150. The end of authority 1500 m from G1 lies 1200 m from G2, on its reverse side.
     pack = _two(write_pack)
     st = State(pack, _relocation_world(REV))
     assert st.get("g2.in_window") and st.get("g2.lrbg") and st.get("lrbg.group") == 2
     assert st.get("actual.front") == st.get("est.front") == -102
     assert st.get("report.code.q_dirlrbg") == 0 and st.get("report.code.q_dirtrain") == 0
     assert st.get("report.code.q_dlrbg") == 0 and st.get("report.code.d_lrbg") == 1020
-    assert st.get("est.l_doubtover") == 14 and st.get("report.code.l_doubtover") == 140
+    assert st.get("est.l_doubtover") == 15 and st.get("report.code.l_doubtover") == 150
     assert st.info_value("eoa", "real") == -1200 == st.info_value("eoa", "position")
     assert st.info_value("eoa", "accepted")        # the train faces G1's nominal direction
     # the same world with G2 facing G1's way: everything nominal, the front at +102 m
@@ -182,20 +211,91 @@ def test_passing_an_opposite_facing_second_group(write_pack):
 
 def test_relocation_with_a_different_location_accuracy(write_pack):
     # Worked by hand: G1 with Q_LOCACC 12 m (the default national value, SUBSET-026 A.3.2) and
-    # G2 with 3 m. At G2's detection the doubts restart from G2: 3 m + 5 m = 8 m (no distance
-    # measured since G2 yet); a further 1000 m gives 3 m + 5 m + 50 m = 58 m, where G1 would have
-    # given 12 m + 5 m + 5 % of 1300 m = 82 m (SUBSET-041 5.3.1.1).
+    # G2 with 3 m. At G2's detection the doubts restart from G2: 3 m + 5 m + 1 m detection = 9 m
+    # (no distance measured since G2 yet); a further 1000 m gives 3 + 5 + 50 + 1 = 59 m, where G1
+    # would have given 12 m + 5 m + 5 % of 1300 m + 1 m = 83 m (SUBSET-041 5.3.1.1, from memory).
     pack = _two(write_pack)
     st = State(pack, _relocation_world(NOM, g1_locacc=F(12), g2_locacc=F(3), after=F(0)))
-    assert st.get("lrbg.locacc") == 3 and st.get("est.l_doubtover") == 8
+    assert st.get("lrbg.locacc") == 3 and st.get("est.l_doubtover") == 9
     st = State(pack, _relocation_world(NOM, g1_locacc=F(12), g2_locacc=F(3), after=F(1000)))
-    assert st.get("est.l_doubtover") == 58 and st.get("est.l_doubtunder") == 58
+    assert st.get("est.l_doubtover") == 59 and st.get("est.l_doubtunder") == 59
+
+
+def _single_g2(g1_read=2, legs=None, at=1, orientation=REV):
+    """G1 (two balises, or one read) passed nominal front first; an unlinked single-balise G2
+    300 m on G1's nominal side, its engineered orientation ``orientation``."""
     import attrs
-    unlinked_one = attrs.evolve(_relocation_world(NOM, g1_locacc=F(12), g2_locacc=F(3), after=F(1000)),
-                                g2=attrs.evolve(_relocation_world(NOM).g2, linked=False, balises=1, read=1,
-                                                locacc=F(3)))
-    st = State(pack, unlinked_one)     # an unlinked single balise is not used (3.4.2.3.3)
-    assert st.get("lrbg.group") == 1 and st.get("est.l_doubtover") == 82
+    w = _relocation_world(NOM, g2_locacc=F(3))
+    legs = legs or w.legs
+    return attrs.evolve(w, read=g1_read, legs=legs,
+                        g2=attrs.evolve(w.g2, linked=False, balises=1, read=1, orientation=orientation,
+                                        locacc=F(3), at=at))
+
+
+def test_unlinked_single_balise_g2_becomes_the_lrbg_referred_to_g1(write_pack):
+    # SUBSET-026 3.4.2.3.3.1 and 3.4.2.3.3.2 (published text): an unlinked single-balise group is
+    # reported in a position report based on two balise groups (packet 1, 7.4.3.2), whose
+    # direction reference is a move from the previous LRBG towards it: directions that way are
+    # "nominal". Worked by hand: G2 lies 300 m on G1's nominal side (its engineered orientation,
+    # opposite, does not count); the train finds it running away from G1 and runs 100 m on:
+    # front at 2 + 100 = 102 m on the nominal side, facing and moving nominal; doubts G2's 3 m +
+    # 5 m + 5 % of 100 m + 1 m = 14 m (code 140 at 10 cm).
+    pack = _two(write_pack)
+    st = State(pack, _single_g2())
+    assert st.get("g2.lrbg") and st.get("lrbg.group") == 2 and st.get("lrbg.two_groups")
+    assert st.get("report.two_groups") and st.get("report.prv_lrbg") == 1
+    assert st.get("passage.seen") is NOM and st.get("actual.front") == 102 == st.get("est.front")
+    assert [st.get(f"report.code.{q}") for q in ("q_dirlrbg", "q_dirtrain", "q_dlrbg")] == [1, 1, 1]
+    assert st.get("report.code.d_lrbg") == 1020 and st.get("report.code.l_doubtover") == 140
+    # G1's own orientation is not needed: the reference is the move from G1 to G2 (3.4.2.3.3.2)
+    st = State(pack, _single_g2(g1_read=1))
+    assert st.get("report.prv_lrbg") == 1 and st.get("report.code.q_dirlrbg") == 1
+    # a G1 item valid one way is not used: linking gave no place for it from G2, and G2 has no
+    # co-ordinate system of its own (3.6.3.1.4, 3.6.3.1.4.2)
+    assert not st.info_value("eoa", "accepted")
+
+
+def test_single_balise_g2_found_running_towards_g1_gives_unknown_directions(write_pack):
+    # SUBSET-026 3.4.2.3.3.4 (published): a single group that becomes the LRBG while the train
+    # runs opposite to the way it last passed the previous LRBG reports the previous LRBG and
+    # every direction as unknown. Worked by hand: the antenna runs 400 m past G2 unseen, then
+    # 100 m back and finds G2 running towards G1.
+    legs = (Leg(False, FWD, F(400), F(400)), Leg(False, BWD, F(100), F(100)))
+    st = State(_two(write_pack), _single_g2(legs=legs, at=2))
+    assert st.get("lrbg.group") == 2 and st.get("report.two_groups") and st.get("report.prv_lrbg") == 0
+    assert st.get("passage.seen") is Direction.UNKNOWN
+    assert [st.get(f"report.code.{q}") for q in ("q_dirlrbg", "q_dirtrain", "q_dlrbg")] == [2, 2, 2]
+    assert st.get("report.code.d_lrbg") == 32767 and not st.get("rbc.placed")
+
+
+BOTH_WAYS = """
+[[info]]
+id = "marker"
+group = 1
+at = "60 m"
+valid = "both"
+"""
+
+
+def test_both_ways_item_lies_ahead_in_the_direction_the_train_faces(write_pack):
+    # SUBSET-026 3.6.3.1.3 (published: only information valid for the train orientation is used)
+    # and 3.6.4.2.3 (published: location items are counted in advance of / in rear of the group
+    # with regard to the train orientation); that both-ways data is counted the same way is
+    # from memory (3.6.3). Worked by hand: a marker 60 m from G1, valid both ways. A train over
+    # G1 rear first in G1's nominal direction faces reverse: the marker is at -60 m.
+    pack = load_pack(write_pack(pack_text(rule_toml("r", "true"), extra=BOTH_WAYS)))
+    facing_reverse = World(running=BWD, antenna=F(2), length=F(100))
+    st = State(pack, facing_reverse)
+    assert st.get("est.orientation") is REV
+    assert st.info_value("marker", "accepted")
+    assert st.info_value("marker", "position") == -60 == st.info_value("marker", "real")
+    st = State(pack, World(antenna=F(2), length=F(100)))
+    assert st.info_value("marker", "position") == 60 == st.info_value("marker", "real")
+    # without an orientation (one balise read, unlinked) the item is still used (3.6.3.1.4,
+    # published) but the onboard cannot tell on which side: the default puts it at the mark
+    st = State(pack, World(balises=1, read=1, running=BWD, antenna=F(2), length=F(100)))
+    assert st.info_value("marker", "accepted") and st.info_value("marker", "position") == 0
+    assert st.info_value("marker", "real") == -60
 
 
 def test_the_encoding_agrees_on_the_hand_worked_relocations(write_pack):
@@ -203,5 +303,12 @@ def test_the_encoding_agrees_on_the_hand_worked_relocations(write_pack):
     from verifier.smt.concrete import Evaluator
     pack = _two(write_pack)
     ev = Evaluator(pack, 2)
-    for w in (_relocation_world(REV), _relocation_world(NOM, F(12), F(3), F(1000))):
+    back = (Leg(False, FWD, F(400), F(400)), Leg(False, BWD, F(100), F(100)))
+    for w in (_relocation_world(REV), _relocation_world(NOM, F(12), F(3), F(1000)), _single_g2(),
+              _single_g2(g1_read=1), _single_g2(legs=back, at=2)):
         assert compare(simulate(pack, w), ev.evaluate(flat(w))) == []
+    one = load_pack(write_pack(pack_text(rule_toml("r", "true"), extra=BOTH_WAYS), name="b.toml"))
+    ev = Evaluator(one, 2)
+    for w in (World(running=BWD, antenna=F(2), length=F(100)),
+              World(balises=1, read=1, running=BWD, antenna=F(2), length=F(100))):
+        assert compare(simulate(one, w), ev.evaluate(flat(w))) == []

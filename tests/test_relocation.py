@@ -105,7 +105,8 @@ def test_cvc5_agrees_on_a_relocation_rule(capsys, monkeypatch):
 def test_an_item_the_onboard_rejects_leaves_the_trackside_view_drawn(write_pack):
     # Worked by hand: front first over G1 (nominal, two balises), one leg of 300 m onto a linked
     # G2 that faces the same way; the train faces nominal, so an item valid for G1's reverse
-    # direction only is not accepted (SUBSET-026 3.6.3.1.4) while the report is placed. The
+    # direction only is not accepted (SUBSET-026 3.6.3.1.3, published: only information valid
+    # for the train orientation is taken into account) while the report is placed. The
     # drawing must still show the trackside's interval (a rejected item once hid it).
     from xml.etree import ElementTree as ET
     from verifier.evidence import cexfile, diagram

@@ -71,7 +71,8 @@ def replay_states(pack: Pack, rule: Rule, lemmas, plan: Plan, snap, legs) -> Rep
             problems.append(f"leg {i} outside the scope")
         snap, _ = advance(snap, leg, pack, plan)
         basis = snap.measured if scope.odometry_basis == "measured" else snap.travelled
-        if snap.over > scope.odometry_over.at(basis) or snap.under > scope.odometry_under.at(basis):
+        d = 0 if scope.detection_in_odometry else snap.world.detect_error   # on top of the bound (DESIGN 4.1)
+        if snap.over > scope.odometry_over.at(basis) + max(0, -d) or snap.under > scope.odometry_under.at(basis) + max(0, d):
             problems.append(f"the reading error after leg {i} exceeds its bound")
         views.append(SnapView(pack, snap, plan))
     try:

@@ -77,6 +77,9 @@ CORNERS = {
     "G2 facing the other way becomes the LRBG": "g2.lrbg with g2.orientation reverse",
     "G2 found but not used": "g2.found and not g2.lrbg",
     "G2 found outside its window": "g2.found with usable linking and not g2.in_window",
+    "single-balise G2 made the LRBG via G1": "an unlinked single-balise G2 is the LRBG, its directions referred to G1 (report.prv_lrbg 1)",
+    "single-balise G2 found running towards G1": "an unlinked single-balise G2 is the LRBG with unknown directions (report.two_groups, report.prv_lrbg 0)",
+    "both-ways item for a reverse-facing train": "an item valid both ways, of the current LRBG, for a train known to face its reverse direction",
 }
 
 
@@ -145,7 +148,11 @@ def _distance_range(scope: Scope, over: F, under: F, measured: F, odo: F) -> tup
 
 
 def _errors_after(scope: Scope, world_legs, detect: F) -> tuple[F, F, F]:
+    # the errors the odometry bound carries: with the detection error on top of it (the
+    # default, DESIGN 4.1) the legs' errors alone
     over, under, measured = max(F(0), -detect), max(F(0), detect), F(0)
+    if not scope.detection_in_odometry:
+        over, under = F(0), F(0)
     for leg in world_legs:
         over += max(F(0), leg.odometer - leg.distance)
         under += max(F(0), leg.distance - leg.odometer)
@@ -286,8 +293,8 @@ def worlds(draw, scope: Scope = Scope(), bound: int = 3, aim: bool = True) -> Wo
     length = draw_between(draw, max(scope.train_length[0], scope.antenna[0]), scope.train_length[1])
     antenna = draw_between(draw, scope.antenna[0], min(scope.antenna[1], length))
     # |d| <= detection, and the bound at the passage itself: max(0, -d) <= over.fixed, ...
-    dneg = min(scope.detection, scope.odometry_over.fixed)
-    dpos = min(scope.detection, scope.odometry_under.fixed)
+    dneg = min(scope.detection, scope.odometry_over.fixed) if scope.detection_in_odometry else scope.detection
+    dpos = min(scope.detection, scope.odometry_under.fixed) if scope.detection_in_odometry else scope.detection
     detect = _one_of_or(draw, [-dneg, dpos, F(0)], -dneg, dpos)
     world = World(
         balises=balises, read=read, linked=_bool(draw), locacc=locacc, offset=offset,
@@ -400,10 +407,11 @@ def corners(world: World, scope: Scope, bound: int, state: State | None = None) 
     if world.locacc > 0 and abs(world.offset) == world.locacc:
         out.add("offset at bound")
     d = world.detect_error
-    if (d < 0 and -d == min(scope.detection, scope.odometry_over.fixed)) or (
-            d > 0 and d == min(scope.detection, scope.odometry_under.fixed)):
+    inside = scope.detection_in_odometry
+    if (d < 0 and -d == (min(scope.detection, scope.odometry_over.fixed) if inside else scope.detection)) or (
+            d > 0 and d == (min(scope.detection, scope.odometry_under.fixed) if inside else scope.detection)):
         out.add("detection error at bound")
-    over, under, measured = max(F(0), -d), max(F(0), d), F(0)
+    over, under, measured = (max(F(0), -d), max(F(0), d), F(0)) if inside else (F(0), F(0), F(0))
     for j in range(len(legs) + 1):
         if j:
             leg = legs[j - 1]
@@ -442,6 +450,7 @@ def corners(world: World, scope: Scope, bound: int, state: State | None = None) 
             out.add("report out of range")
         if world.g2 is not None:
             out |= _two_group_corners(world, state)
+        out |= _item_corners(state)
     return out
 
 
@@ -453,10 +462,22 @@ def _two_group_corners(world: World, state: State) -> set[str]:
         out.add("G2 becomes the LRBG")
         if world.g2.orientation is Direction.REVERSE:
             out.add("G2 facing the other way becomes the LRBG")
+        if state.get("report.two_groups"):
+            out.add("single-balise G2 made the LRBG via G1" if state.get("report.prv_lrbg") == 1
+                    else "single-balise G2 found running towards G1")
     else:
         out.add("G2 found but not used")
         if state.get("g2.link_side") is not Direction.UNKNOWN and not state.get("g2.in_window"):
             out.add("G2 found outside its window")
+    return out
+
+
+def _item_corners(state: State) -> set[str]:
+    out = set()
+    group = state.get("lrbg.group")
+    if state.get("est.orientation") is Direction.REVERSE and any(
+            i.for_nominal and i.for_reverse and i.group == group for i in state.pack.infos):
+        out.add("both-ways item for a reverse-facing train")
     return out
 
 

@@ -128,7 +128,7 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     relocated = w.g2 is not None and st.handover.accepted
     if relocated:      # the passage over G1, seen from G2 (DESIGN 4.8)
         from verifier.world.sim import World, known as passage_known, start
-        x2, s2 = _sign(w.g2.side) * w.g2.distance, _sign(w.g2.orientation)
+        x2, s2 = _sign(w.g2.side) * w.g2.distance, st.handover.frame   # G2's frame (DESIGN 4.8)
         first = start(attrs.evolve(w, legs=(), g2=None) if isinstance(w, World) else w)
         f0, e0 = s2 * (first.front - x2), s2 * (_sign(w.direction) * first.est_front_passage - x2)
         o0 = s2 * o0

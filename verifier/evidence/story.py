@@ -457,7 +457,15 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
             + (" (G1's frame)." if two and st.handover.accepted and group == 1 else "."))
         if two and w.g2.found and i == w.g2.at:
             g2 = w.g2
-            if st.handover.accepted:
+            if st.handover.accepted and st.get("report.two_groups"):
+                add(f"  The antenna reaches G2, a single balise without linking, and G2 becomes the LRBG "
+                    f"in a position report based on two balise groups: from here on every position is "
+                    f"counted from G2's mark, "
+                    + ("positive in the direction from G1 towards G2 (the previous LRBG G1 is the direction "
+                       "reference)" if st.get("report.prv_lrbg") == 1 else
+                       "with every direction unknown (the train runs towards G1, against the way it passed G1)")
+                    + f", and the confidence interval restarts from G2's Q_LOCACC {m(g2.locacc)}.")
+            elif st.handover.accepted:
                 add(f"  The antenna reaches G2 and G2 becomes the LRBG: from here on every position is "
                     f"counted from G2's mark, positive in G2's nominal direction ({'the same as' if g2.orientation.word == 'nominal' else 'opposite to'} G1's), "
                     f"and the confidence interval restarts from G2's Q_LOCACC {m(g2.locacc)}.")

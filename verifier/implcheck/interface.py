@@ -61,8 +61,9 @@ class Observation:
     train_length: Fraction    # train data
     antenna: Fraction         # from the active front end back to the balise antenna
     running: str              # over the group: "forward" (front first) or "backward"
-    odometry_over: tuple      # the odometry's over-reading bound (fixed metres, rate): SUBSET-041 5.3.1.1
-    odometry_under: tuple     # the under-reading bound (fixed metres, rate)
+    odometry_over: tuple      # the over-reading bound (fixed metres, rate): SUBSET-041 5.3.1.1, with the
+                              # detection error in the fixed part unless [world] detection_in_odometry
+    odometry_under: tuple     # the under-reading bound (fixed metres, rate), likewise
     legs: tuple               # LegObservation, in order
 
 
@@ -140,8 +141,8 @@ def observe(world: World, scope: Scope) -> Observation:
         balises=world.balises, readings=readings_of(world), linked=world.linked,
         linked_direction=world.direction.word if world.linked else None, locacc=world.locacc,
         train_length=world.length, antenna=world.antenna, running=world.running.word,
-        odometry_over=(scope.odometry_over.fixed, scope.odometry_over.rate),
-        odometry_under=(scope.odometry_under.fixed, scope.odometry_under.rate),
+        odometry_over=(scope.odometry_over.fixed + _on_top(scope), scope.odometry_over.rate),
+        odometry_under=(scope.odometry_under.fixed + _on_top(scope), scope.odometry_under.rate),
         legs=tuple(LegObservation(leg.cab_change, leg.running.word, leg.odometer) for leg in world.legs))
 
 
@@ -347,3 +348,9 @@ def packet_of(report: Report, world: World) -> Packet:
 
 def direction_of_code(code: int) -> Direction:
     return {0: Direction.REVERSE, 1: Direction.NOMINAL, 2: Direction.UNKNOWN}[code]
+
+
+def _on_top(scope) -> Fraction:
+    """The detection error the onboard adds to the odometry bound (DESIGN 4.1: on top of it
+    unless [world] detection_in_odometry = true)."""
+    return Fraction(0) if scope.detection_in_odometry else scope.detection

@@ -32,7 +32,7 @@ ANY = "any"        # legs = "any": proved for every number of legs where the too
 TABLES = {
     "pack": {"name", "title", "legs", "description"},
     "world": {"balises", "locacc", "train_length", "antenna", "leg_distance", "odometry_over",
-              "odometry_under", "detection", "odometry_basis", "groups", "g2_distance", "g2_side",
+              "odometry_under", "detection", "odometry_basis", "detection_in_odometry", "groups", "g2_distance", "g2_side",
               "g2_orientation", "g2_balises", "g2_locacc"},
     "params": None,  # free names
     "let": None,
@@ -239,6 +239,12 @@ def _load_scope(c: _Collector, table: dict) -> Scope:
             c.at(("world", "odometry_basis"), "world.odometry_basis must be \"measured\" or \"real\"")
         else:
             kw["odometry_basis"] = basis
+    if "detection_in_odometry" in table:
+        inside = table["detection_in_odometry"]
+        if not isinstance(inside, bool):
+            c.at(("world", "detection_in_odometry"), "world.detection_in_odometry must be true or false")
+        else:
+            kw["detection_in_odometry"] = inside
     _load_second_group(c, table, kw)
     scope = Scope(**kw)
     if scope.antenna[0] > scope.train_length[1]:

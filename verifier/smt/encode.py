@@ -124,10 +124,21 @@ class _Terms:
                 "passage.running": pfwd, "passage.detect_error": det}
 
     def _passage_bound(self, S: dict) -> None:
-        """The reading error bound at the passage itself (j = 0, E = 0; DESIGN 4.1)."""
+        """The reading error bound at the passage itself (j = 0, E = 0; DESIGN 4.1). With the
+        detection error on top of the odometry bound (the default) it is bounded on its own."""
         sc, det = self.pack.scope, S["passage.detect_error"]
+        if not sc.detection_in_odometry:
+            return
         self.constraints.extend([self.pos(-det) <= self.num(sc.odometry_over.fixed),
                                  self.pos(det) <= self.num(sc.odometry_under.fixed)])
+
+    def _bounds_at(self, measured) -> tuple:
+        """The over- and under-reading bounds the onboard uses at a measured distance: the
+        odometry's, with world.detection on top unless it is counted inside."""
+        sc, num = self.pack.scope, self.num
+        extra = num(0) if sc.detection_in_odometry else num(sc.detection)
+        return (num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * measured + extra,
+                num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * measured + extra)
 
     def _first(self, S: dict, tag: str = "") -> dict:
         """The state at the detection instant, before any leg; adds to ``S`` what follows from
@@ -140,8 +151,10 @@ class _Terms:
                             + self.along(o, S["train.antenna"]))
         op = self.define(f"est.orientation_passage@{tag}0", z3.If(pfwd, 1, -1), "int")
         est_p = self.define(f"est.front_passage@{tag}0", self.along(op, S["train.antenna"]))
+        S.setdefault("prv", z3.BoolVal(False, self.ctx))
         known = self.define(f"passage.known{'@' + tag if tag else ''}",
-                            z3.Or(S["lrbg.read"] >= 2, S["lrbg.linked"]), "bool")
+                            z3.Or(S["lrbg.read"] >= 2, S["lrbg.linked"], S["prv"]), "bool")
+        S["two_groups"] = z3.And(S["lrbg.balises"] == 1, z3.Not(S["lrbg.linked"]))
         S.update({"passage.seen": z3.If(known, direction, 0), "known": known,
                   "frame": z3.If(known, direction, 1)})
         if not tag:
@@ -178,8 +191,12 @@ class _Terms:
         over = st["over"] + self.pos(odo - dist)
         under = st["under"] + self.pos(dist - odo)
         basis = st["basis"] + (odo if sc.odometry_basis == "measured" else dist)
-        limits = [over <= num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * basis,
-                  under <= num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * basis]
+        # the odometry bound covers the detection error too, or (the default) only the legs'
+        # errors: the detection error's share is then added to the bound
+        det0 = S["passage.detect_error"]
+        xo, xu = ((num(0), num(0)) if sc.detection_in_odometry else (self.pos(-det0), self.pos(det0)))
+        limits = [over <= num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * basis + xo,
+                  under <= num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * basis + xu]
         # the bound holds from the current LRBG: ``bounded_if`` says when these counters are
         # the current LRBG's (G1's, up to a relocation; DESIGN 4.8)
         C += limits if bounded_if is None else [z3.Implies(bounded_if, x) for x in limits]
@@ -217,7 +234,7 @@ class _Terms:
         o, op, motion, est_p = st["o"], st["op"], st["motion"], st["est_p"]
         measured = self.define("est.travelled", st["measured"])
         cabs, travelled = st["cabs"], st["travelled"]
-        self.terms.update({k: v for k, v in S.items() if k not in ("known", "frame")})
+        self.terms.update({k: v for k, v in S.items() if k not in ("known", "frame", "prv", "two_groups")})
         self.terms.update({
             "legs.count": count,
             "cab_changes": z3.Sum(cabs) if cabs else self.ival(0),
@@ -230,8 +247,11 @@ class _Terms:
             "est.rear": self.along(frame, est_p - self.along(op, S["train.length"])),
             "est.orientation": z3.If(known, o, 0), "est.motion": z3.If(known, motion, 0),
             "est.travelled": measured,
-            "est.bound_over": num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * measured,
-            "est.bound_under": num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * measured,
+            "est.bound_over": self._bounds_at(measured)[0],
+            "est.bound_under": self._bounds_at(measured)[1],
+            "lrbg.two_groups": S["two_groups"],
+            "report.two_groups": S["two_groups"],
+            "report.prv_lrbg": z3.If(S["prv"], 1, 0),
         })
         self.known = known
 
@@ -390,15 +410,29 @@ class _Terms:
         data = self.item_terms(item)
         if field in data:
             return data[field]
+        if field == "real" and ("real", info_id) in self._memo:
+            return self._memo[("real", info_id)]
         if field == "real":
-            loc = data["location"]
+            # a one-way item at its place in its group's frame; a both-ways item `at` from its
+            # group along the train's real orientation (DESIGN 4.9)
+            both = item.for_nominal and item.for_reverse
+            o = self.name("actual.orientation")          # in the current LRBG's frame
             if self.pack.scope.groups == 1:
-                return loc
+                return self.along(o, data["at"]) if both else data["location"]
             T = self.terms
             x2 = self.along(T["g2.side"], T["g2.distance"])
-            seen_from = (self.along(T["g2.orientation"], loc - x2) if item.group == 1
-                         else x2 + self.along(T["g2.orientation"], loc))
-            return z3.If(self.name("lrbg.group") == item.group, loc, seen_from)
+            s2, f2 = T["g2.orientation"], self._g2["frame"]
+            cur2 = self.name("lrbg.group") == 2
+            o1 = z3.If(cur2, z3.If(f2 == 1, o, -o), o)   # the orientation in G1's frame
+            if both:
+                in_g1 = self.along(o1, data["at"])        # `at` ahead of the item's group
+                x = in_g1 if item.group == 1 else x2 + in_g1
+            else:
+                loc = data["location"]
+                x = loc if item.group == 1 else x2 + self.along(s2, loc)
+            real = self.define(f"info.{info_id}.real", z3.If(cur2, self.along(f2, x - x2), x))
+            self._memo[("real", info_id)] = real
+            return real
         key = (("onboard", f"info_{field}"), info_id)
         if key not in self._memo:
             formula = self.pack.definition(key[0])
@@ -574,6 +608,7 @@ class Encoding(_Terms):
             self._group_names(S, None, count)
             return
         S2, count2 = self._handover(S, G, track, phys, count)
+        self._g2 = G
         st2 = self._first(S2, tag="c")
         self._passage_bound(S2)
         self.legs = []
@@ -637,22 +672,33 @@ class Encoding(_Terms):
             est_antenna = self.along(S["passage.direction"], st["est_p"]) - self.along(st["o"], antenna)
             u = self.along(G["side"], est_antenna)
             margin = S["lrbg.locacc"]
-            lo = u - margin - (num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * st["measured"])
-            hi = u + margin + (num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * st["measured"])
+            b_over, b_under = self._bounds_at(st["measured"])
+            lo = u - margin - b_over
+            hi = u + margin + b_under
             acc = z3.ToReal(G["locacc"])
             wins.append(z3.And(here, hi >= G["distance"] - acc, lo <= G["distance"] + acc))
             m_at = z3.If(G["at"] == i, st["motion"], m_at)
             fwd_at = z3.If(G["at"] == i, phys[i - 1][1], fwd_at)
         linking = z3.And(G["linked"], known1)
         in_window = self.define("g2.in_window", z3.And(linking, z3.Or(wins)) if wins else z3.BoolVal(False, self.ctx), "bool")
-        accepted = z3.If(linking, z3.And(in_window, m_at == G["side"]), G["read"] >= 2)
+        # a single-balise G2 without usable linking becomes the LRBG, its directions referred to
+        # the move from G1 towards it, unknown when found running towards G1 (SUBSET-026
+        # 3.4.2.3.3.1, 3.4.2.3.3.2, 3.4.2.3.3.4)
+        single = G["balises"] == 1
+        accepted = z3.If(linking, z3.And(in_window, m_at == G["side"]), z3.Or(single, G["read"] >= 2))
         C.append(G["lrbg"] == z3.And(G["found"], accepted))
         G["in_window"] = in_window
         r = G["lrbg"]
-        d2 = z3.If(G["orientation"] == 1, m_at, -m_at)
+        prv = self.define("g2.prv", z3.And(r, z3.Not(linking), single, m_at == G["side"]), "bool")
+        G["prv"] = prv
+        # the current G2 frame: its own orientation, or the way from G1 to it (two groups)
+        f2 = z3.If(prv, G["side"], G["orientation"])
+        G["frame"] = f2
+        d2 = z3.If(f2 == 1, m_at, -m_at)
         S2 = {"lrbg.balises": z3.If(r, G["balises"], S["lrbg.balises"]),
               "lrbg.read": z3.If(r, G["read"], S["lrbg.read"]),
-              "lrbg.linked": z3.If(r, G["linked"], S["lrbg.linked"]),
+              "lrbg.linked": z3.If(r, z3.And(G["linked"], z3.Or(linking, z3.Not(single))), S["lrbg.linked"]),
+              "prv": prv,
               "lrbg.locacc": z3.If(r, z3.ToReal(G["locacc"]), S["lrbg.locacc"]),
               "lrbg.offset": z3.If(r, G["offset"], S["lrbg.offset"]),
               "train.length": S["train.length"], "train.antenna": S["train.antenna"],

@@ -130,8 +130,11 @@ class Path(_Terms):
               z3.Or(o == 1, o == -1), z3.Or(motion == 1, motion == -1),
               travelled >= 0, measured >= 0,
               over >= self.pos(-det), under >= self.pos(det),
-              over <= num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * basis,
-              under <= num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * basis]
+              # the detection error on top of the odometry bound unless counted inside (DESIGN 4.1)
+              over <= num(sc.odometry_over.fixed) + num(sc.odometry_over.rate) * basis
+              + (num(0) if sc.detection_in_odometry else self.pos(-det)),
+              under <= num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * basis
+              + (num(0) if sc.detection_in_odometry else self.pos(det))]
         # the orientation in the passage frame follows from the real one (DESIGN 4.3)
         op = self.define("state0.est.orientation_passage", z3.If(S["passage.direction"] == 1, o, -o), "int")
         accs, at_start = {}, []

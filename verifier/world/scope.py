@@ -31,6 +31,10 @@ class Scope:
     odometry_under: Bound = Bound(F(5), F(1, 20))
     detection: Fraction = F(1)                  # 1 m, SUBSET-036 4.2.10.2
     odometry_basis: str = "measured"            # or "real"
+    # whether the odometry bound includes the balise detection error (SUBSET-026 3.6.4.1.1 a
+    # names the two as separate parts of the reading amount: by default the detection error
+    # is added on top of the odometry bound)
+    detection_in_odometry: bool = False
     # a second group (DESIGN 4.8): [world] groups = 2
     groups: int = 1
     g2_distance: tuple = (F(50), F(3000))       # engineered distance from G1's mark to G2's
@@ -75,6 +79,7 @@ class Scope:
             "odometry_under": {"fixed": q(self.odometry_under.fixed), "rate": q(self.odometry_under.rate)},
             "detection": q(self.detection),
             "odometry_basis": self.odometry_basis,
+            "detection_in_odometry": self.detection_in_odometry,
             # a one-group scope keeps the form it always had (its files and hashes do not change)
             **({} if self.groups == 1 else {
                 "groups": 2, "g2_distance": [q(x) for x in self.g2_distance], "g2_side": self.g2_side,

@@ -46,6 +46,9 @@ class World:
     detect_error: Fraction = F(0)
     legs: tuple = ()
     g2: "Group2 | None" = None      # the second group of a two-group pack (DESIGN 4.8)
+    # the group's directions are referred to the previous LRBG (a single-balise group without
+    # linking, the position report based on two groups: SUBSET-026 3.4.2.3.3.2, 7.4.3.2)
+    prv: bool = False
 
 
 @attrs.frozen
@@ -136,19 +139,25 @@ def scope_problems(world: World, scope: Scope, bound: int) -> list[str]:
 
 
 def _reading_problems(d: Fraction, legs, scope: Scope) -> list[str]:
-    """The reading error bound at the passage and after every leg (DESIGN 4.1)."""
+    """The reading error bound at the passage and after every leg (DESIGN 4.1): the odometry
+    bound covers the legs' errors and the detection error, or with ``detection_in_odometry =
+    false`` (the default) the legs' errors alone, the detection error bounded on its own."""
     out = []
     over, under, measured = max(F(0), -d), max(F(0), d), F(0)
+    # the detection error's share that the odometry bound does not carry
+    extra_over, extra_under = (F(0), F(0)) if scope.detection_in_odometry else (max(F(0), -d), max(F(0), d))
     for j in range(len(legs) + 1):
         if j:
             leg = legs[j - 1]
             over += max(F(0), leg.odometer - leg.distance)
             under += max(F(0), leg.distance - leg.odometer)
             measured += leg.odometer if scope.odometry_basis == "measured" else leg.distance
-        if over > scope.odometry_over.at(measured):
-            out.append(f"over-reading {_m(over)} after {j} legs exceeds the bound {_m(scope.odometry_over.at(measured))}")
-        if under > scope.odometry_under.at(measured):
-            out.append(f"under-reading {_m(under)} after {j} legs exceeds the bound {_m(scope.odometry_under.at(measured))}")
+        bo = scope.odometry_over.at(measured) + extra_over
+        bu = scope.odometry_under.at(measured) + extra_under
+        if over > bo:
+            out.append(f"over-reading {_m(over)} after {j} legs exceeds the bound {_m(bo)}")
+        if under > bu:
+            out.append(f"under-reading {_m(under)} after {j} legs exceeds the bound {_m(bu)}")
     return out
 
 
@@ -198,13 +207,16 @@ class Handover:
     in_window: bool               # a linked G2 was found inside its expectation window
     accepted: bool                # G2 became the LRBG (at the end of leg g2.at)
     current: World                # the world as the current LRBG sees it: G2's passage and the legs after it
+    frame: int = 1                # sign of the current G2 frame's nominal direction in G1's frame
 
 
 def handover(world: World, scope: Scope) -> Handover:
     """Whether G2 becomes the LRBG, and the world from then on (DESIGN 4.8): a linked G2 in its
     window and passed the announced way (SUBSET-026 3.4.4.4.3, 3.4.4.4.7); an unlinked one, or
-    any when the direction over G1 is unknown (no linking can be used), only with two balises
-    read (3.4.4.3.2)."""
+    any when the direction over G1 is unknown (no linking can be used), with two balises read
+    (3.4.4.3.2); a single-balise G2 without usable linking always, its directions referred to
+    the move from G1 towards it (the report based on two groups, 3.4.2.3.3.1, 3.4.2.3.3.2), or
+    unknown when the train finds it running towards G1 (3.4.2.3.3.4)."""
     g = world.g2
     if g is None or not g.found or not 1 <= g.at <= len(world.legs):
         return Handover(False, False, world)
@@ -212,25 +224,46 @@ def handover(world: World, scope: Scope) -> Handover:
     for leg in world.legs[:g.at]:
         snap, _ = advance(snap, leg)
     in_window = False
-    if g.linked and known(world):
+    linking = g.linked and known(world)
+    prv = False
+    frame = sign(g.orientation)
+    if linking:
         est_front = sign(world.direction) * snap.est_front_passage
         est_antenna = est_front - snap.orientation * world.antenna
         u = sign(g.side) * est_antenna                 # estimated distance from G1 towards G2
         margin = world.locacc
-        lo = u - margin - scope.odometry_over.at(snap.measured)
-        hi = u + margin + scope.odometry_under.at(snap.measured)
+        lo = u - margin - _bound_over(scope, snap.measured)
+        hi = u + margin + _bound_under(scope, snap.measured)
         in_window = hi >= g.distance - g.locacc and lo <= g.distance + g.locacc
         accepted = in_window and snap.motion == sign(g.side)
+    elif g.balises == 1:
+        # the move from G1 towards G2 is the direction reference; a train running towards G1
+        # when it finds G2 runs against the way it last passed G1: all directions unknown
+        accepted = True
+        prv = snap.motion == sign(g.side)
+        if prv:
+            frame = sign(g.side)
     else:
         accepted = g.read >= 2
     if not accepted:
         return Handover(in_window, False, world)
     leg = world.legs[g.at - 1]
-    current = World(balises=g.balises, read=g.read, linked=g.linked, locacc=g.locacc, offset=g.offset,
+    current = World(balises=g.balises, read=g.read, linked=g.linked and (linking or g.balises > 1),
+                    locacc=g.locacc, offset=g.offset,
                     length=world.length, antenna=world.antenna,
-                    direction=direction_of(sign(g.orientation) * snap.motion), running=leg.running,
-                    detect_error=g.detect_error, legs=world.legs[g.at:])
-    return Handover(in_window, True, current)
+                    direction=direction_of(frame * snap.motion), running=leg.running,
+                    detect_error=g.detect_error, legs=world.legs[g.at:], prv=prv)
+    return Handover(in_window, True, current, frame)
+
+
+def _bound_over(scope: Scope, measured: Fraction) -> Fraction:
+    """The over-reading bound at a measured distance: the odometry's, and the detection error
+    on top unless [world] counts it inside (DESIGN 4.1)."""
+    return scope.odometry_over.at(measured) + (0 if scope.detection_in_odometry else scope.detection)
+
+
+def _bound_under(scope: Scope, measured: Fraction) -> Fraction:
+    return scope.odometry_under.at(measured) + (0 if scope.detection_in_odometry else scope.detection)
 
 
 @attrs.frozen(eq=True)
@@ -256,8 +289,9 @@ class Snapshot:
 
 
 def known(world: World) -> bool:
-    """Whether the onboard knows the direction of passage (DESIGN 4.3)."""
-    return world.read >= 2 or world.linked
+    """Whether the onboard knows the direction of passage (DESIGN 4.3): two balises read,
+    linking, or the previous LRBG as the direction reference (DESIGN 4.8)."""
+    return world.read >= 2 or world.linked or world.prv
 
 
 def start(world: World, plan=None) -> Snapshot:
@@ -340,10 +374,11 @@ def snapshot_problems(snap: Snapshot, scope: Scope, plan=None) -> list[str]:
     if snap.over < max(F(0), -d) or snap.under < max(F(0), d):
         out.append("less reading error than the detection error alone")
     basis = snap.measured if scope.odometry_basis == "measured" else snap.travelled
-    if snap.over > scope.odometry_over.at(basis):
-        out.append(f"over-reading {_m(snap.over)} exceeds the bound {_m(scope.odometry_over.at(basis))}")
-    if snap.under > scope.odometry_under.at(basis):
-        out.append(f"under-reading {_m(snap.under)} exceeds the bound {_m(scope.odometry_under.at(basis))}")
+    extra_over, extra_under = (F(0), F(0)) if scope.detection_in_odometry else (max(F(0), -d), max(F(0), d))
+    if snap.over > scope.odometry_over.at(basis) + extra_over:
+        out.append(f"over-reading {_m(snap.over)} exceeds the bound {_m(scope.odometry_over.at(basis) + extra_over)}")
+    if snap.under > scope.odometry_under.at(basis) + extra_under:
+        out.append(f"under-reading {_m(snap.under)} exceeds the bound {_m(scope.odometry_under.at(basis) + extra_under)}")
     if snap.count == 0:
         first = start(w, plan)
         if attrs.evolve(snap, frozen={}) != attrs.evolve(first, frozen={}):
@@ -409,6 +444,11 @@ def snapshot_values(snap: Snapshot, scope: Scope) -> dict:
     return {
         "lrbg.balises": F(w.balises), "lrbg.read": F(w.read), "lrbg.linked": w.linked,
         "lrbg.locacc": w.locacc, "lrbg.offset": w.offset,
+        # a single-balise LRBG whose orientation no linking gave: the report based on two
+        # groups, its directions referred to the previous LRBG (SUBSET-026 3.4.2.3.3.1, 7.4.3.2)
+        "lrbg.two_groups": w.balises == 1 and not w.linked,
+        "report.two_groups": w.balises == 1 and not w.linked,
+        "report.prv_lrbg": F(1 if w.prv else 0),
         "train.length": w.length, "train.antenna": w.antenna,
         "passage.direction": w.direction, "passage.running": w.running,
         "passage.detect_error": w.detect_error, "passage.seen": seen,
@@ -424,8 +464,8 @@ def snapshot_values(snap: Snapshot, scope: Scope) -> dict:
         "est.orientation": direction_of(o) if seen_known else UNK,
         "est.motion": direction_of(snap.motion) if seen_known else UNK,
         "est.travelled": snap.measured,
-        "est.bound_over": scope.odometry_over.at(snap.measured),
-        "est.bound_under": scope.odometry_under.at(snap.measured),
+        "est.bound_over": _bound_over(scope, snap.measured),
+        "est.bound_under": _bound_under(scope, snap.measured),
     }
 
 
@@ -541,15 +581,27 @@ class _Values:
         return self._memo[key]
 
     def _info_real(self, item) -> Fraction:
-        """Where the item is, in the current LRBG's frame, from the line data."""
+        """Where the item is, in the current LRBG's frame, from the line data. An item valid
+        both ways lies ``at`` from its group in the direction the train really faces
+        (SUBSET-026 3.6.3.1.3, 3.6.4.2.3); a one-way item at its place in its group's frame."""
         group = int(self.get("lrbg.group"))
-        if item.group == group:
-            return item.location
+        o = sign(self.get("actual.orientation"))       # in the current LRBG's frame
         g = self.world.g2
+        if g is None:
+            return o * item.at if item.for_nominal and item.for_reverse else item.location
         x2, s2 = sign(g.side) * g.distance, sign(g.orientation)
-        if group == 2:                      # an item of G1, seen from G2
-            return s2 * (item.location - x2)
-        return x2 + s2 * item.location      # an item of G2, seen from G1
+        f = getattr(self, "handover", None)
+        f2 = f.frame if f is not None and f.accepted else s2      # the current G2 frame in G1's
+        if group == 1:
+            o1 = o                                      # orientation in G1's frame
+        else:
+            o1 = f2 * o
+        if item.for_nominal and item.for_reverse:
+            loc = (o1 if item.group == 1 else s2 * o1) * item.at   # in the item group's line frame
+        else:
+            loc = item.location
+        x = loc if item.group == 1 else x2 + s2 * loc           # in G1's frame
+        return x if group == 1 else f2 * (x - x2)
 
     def leg_at(self, index: int, field: str):
         raise NotImplementedError
@@ -595,7 +647,7 @@ class State(_Values):
         if not self.handover.accepted:
             return self.journey_raw()
         g = self.world.g2
-        x2, s2 = sign(g.side) * g.distance, sign(g.orientation)
+        x2, s2 = sign(g.side) * g.distance, self.handover.frame
         out = []
         for leg, f, group in self.journey_raw():
             if group == 1:      # seen from G2: positions and directions in its frame
@@ -616,7 +668,8 @@ class State(_Values):
             return None
         x2, s2 = sign(g.side) * g.distance, sign(g.orientation)
         if self.handover.accepted:
-            return ("G1", s2 * (0 - x2), s2, self.world.balises)
+            f2 = self.handover.frame
+            return ("G1", f2 * (0 - x2), f2, self.world.balises)
         return ("G2", x2, s2, g.balises)
 
     def quantify(self, node: ast.Quant, env: dict):

@@ -69,6 +69,7 @@ GLOBAL = {e.name: e for e in [
     _e("lrbg.linked", BOOL, OB, "input", "linking announced the group and its direction of passage"),
     _e("lrbg.locacc", LENGTH, BOTH, "input", "location accuracy applied to the group (Q_LOCACC)"),
     _e("lrbg.offset", LENGTH, NOBODY, "hidden-input", "real reference mark minus its engineered location"),
+    _e("lrbg.two_groups", BOOL, BOTH, "derived", "a single-balise LRBG whose orientation no linking gave: it has no co-ordinate system and the report is based on two groups, its directions referred to the move from the previous LRBG (SUBSET-026 3.4.2.3.3.1, 3.4.2.3.3.2)"),
     _e("train.length", LENGTH, BOTH, "input", "train length (train data)"),
     _e("train.antenna", LENGTH, BOTH, "input", "distance from the active front end back to the balise antenna"),
     _e("passage.direction", DIRECTION, NOBODY, "hidden-input", "real direction of movement over the group"),
@@ -92,8 +93,8 @@ GLOBAL = {e.name: e for e in [
     _e("est.orientation", DIRECTION, OB, "derived", "train orientation as the onboard knows it"),
     _e("est.motion", DIRECTION, OB, "derived", "direction of the last movement as the onboard knows it"),
     _e("est.travelled", LENGTH, OB, "derived", "measured distance since the passage (odometer sum)"),
-    _e("est.bound_over", LENGTH, OB, "derived", "over-reading bound at est.travelled: odometry_over.fixed + rate * est.travelled"),
-    _e("est.bound_under", LENGTH, OB, "derived", "under-reading bound at est.travelled"),
+    _e("est.bound_over", LENGTH, OB, "derived", "over-reading bound at est.travelled: odometry_over.fixed + rate * est.travelled, plus world.detection unless [world] detection_in_odometry = true (DESIGN 4.1)"),
+    _e("est.bound_under", LENGTH, OB, "derived", "under-reading bound at est.travelled (with world.detection on top, as est.bound_over)"),
     _e("est.q_dlrbg", DIRECTION, OB, "onboard-output", "onboard formula q_dlrbg, before the wire"),
     _e("est.d_lrbg", LENGTH, OB, "onboard-output", "onboard formula d_lrbg, unrounded"),
     _e("est.q_dirlrbg", DIRECTION, OB, "onboard-output", "onboard formula q_dirlrbg, before the wire"),
@@ -107,6 +108,8 @@ GLOBAL = {e.name: e for e in [
     _e("report.l_doubtover", LENGTH, NOBODY, "wire", "L_DOUBTOVER rounded to the step"),
     _e("report.l_doubtunder", LENGTH, NOBODY, "wire", "L_DOUBTUNDER rounded to the step"),
     _e("report.q_scale", LENGTH, TS, "wire", "the distance step used (10 cm, 1 m or 10 m)"),
+    _e("report.two_groups", BOOL, TS, "wire", "the report is a position report based on two balise groups (packet 1, SUBSET-026 7.4.3.2): the LRBG is a single-balise group without linking"),
+    _e("report.prv_lrbg", COUNT, TS, "wire", "NID_PRVLRBG as a group number: 1 when G1 is the previous LRBG of a report based on two groups with known directions; 0 = none or unknown (3.4.2.3.3.3, 3.4.2.3.3.4)"),
     _e("report.in_range", BOOL, TS, "wire", "all three distance codes are at most 32766"),
     _e("report.code.d_lrbg", COUNT, TS, "wire", "D_LRBG packet integer (32767 = unknown or out of range)"),
     _e("report.code.l_doubtover", COUNT, TS, "wire", "L_DOUBTOVER packet integer"),
@@ -170,7 +173,8 @@ def names_for(groups: int) -> list:
 
 
 #: Names written into evidence files only for two-group packs (one-group files keep their form).
-GROUP_NAMES = frozenset(n for n in GLOBAL if n.startswith(("g1.", "g2.", "journey.")) or n == "lrbg.group")
+GROUP_NAMES = frozenset(n for n in GLOBAL if n.startswith(("g1.", "g2.", "journey.")) or n in (
+    "lrbg.group", "lrbg.two_groups", "report.two_groups", "report.prv_lrbg"))
 
 # Per-leg names: leg.FIELD inside a quantifier, legs[i].FIELD outside.
 LEG = {e.name: e for e in [
@@ -201,31 +205,42 @@ ITEM = {
     "at": (LENGTH, "the distance sent, from the reference group in the direction of validity"),
     "for_nominal": (BOOL, "the item applies to a train facing the reference group's nominal direction"),
     "for_reverse": (BOOL, "the item applies to a train facing its reverse direction"),
-    "location": (LENGTH, "the item's place in its reference group's frame (at, negative when valid reverse only)"),
+    "location": (LENGTH, "the item's place in its reference group's frame for a one-way item (at, negative when valid reverse only); a both-ways item lies at `at` in the direction the train faces, and this field holds at"),
 }
 # Per item, as info.ID.FIELD: the item's data (read by both designs), where it really is in the
 # current LRBG's frame (hidden), and the onboard's decisions.
 INFO_FIELDS = {
     **{k: (ty, BOTH, "input", m) for k, (ty, m) in ITEM.items()},
-    "real": (LENGTH, NOBODY, "derived", "where the item really is, in the frame of the current LRBG (from the line data)"),
+    "real": (LENGTH, NOBODY, "derived", "where the item really is, in the frame of the current LRBG (from the line data; a both-ways item at `at` from its group along the train's real orientation)"),
     "accepted": (BOOL, NOBODY, "onboard-output", "onboard formula info_accepted for this item"),
     "position": (LENGTH, NOBODY, "onboard-output", "onboard formula info_position for this item: where the onboard places it, current LRBG frame"),
 }
-# SUBSET-026 3.6.3.1.4: without an orientation, information for one direction only is rejected
-# and information for both directions is still used.
+# SUBSET-026 3.6.3.1.3: only information valid for the train orientation is used; 3.6.3.1.4:
+# without an orientation, information for one direction only is rejected and information for
+# both directions is still used. An item valid both ways lies `at` from its group in the
+# direction the train faces (3.6.4.2.3: location items are counted along the train
+# orientation); without an orientation the onboard cannot tell which side it is on and the
+# default puts it at the group's mark (0 m, on neither side).
 DEFAULT_INFO_ONE = {
     "info_accepted": "(item.for_nominal and item.for_reverse) or (item.for_nominal and est.orientation == nominal) or (item.for_reverse and est.orientation == reverse)",
-    "info_position": "item.location",
+    "info_position": ("if item.for_nominal and item.for_reverse then (if est.orientation == unknown then 0 m else along(est.orientation, item.at)) "
+                      "else item.location"),
 }
 # With two groups an item of the other group is re-referenced by linking (D_LINK, the way to G2
-# and G2's orientation), and only used when linking gives them.
+# and G2's orientation), and only used when linking gives them; a group referred to the
+# previous LRBG has no co-ordinate system of its own, so its one-way items are rejected
+# (3.6.3.1.4.2).
+_REL = "(if item.group == lrbg.group or g2.link_orientation == nominal then est.orientation else flip(est.orientation))"
+_LOC = f"(if item.for_nominal and item.for_reverse then along({_REL}, item.at) else item.location)"
 DEFAULT_INFO_TWO = {
-    "info_accepted": ("(item.group == lrbg.group or g2.link_side != unknown) and ((item.for_nominal and item.for_reverse) or "
-                      "(item.for_nominal and (if item.group == lrbg.group or g2.link_orientation == nominal then est.orientation else flip(est.orientation)) == nominal) or "
-                      "(item.for_reverse and (if item.group == lrbg.group or g2.link_orientation == nominal then est.orientation else flip(est.orientation)) == reverse))"),
-    "info_position": ("if item.group == lrbg.group then item.location "
-                      "else if lrbg.group == 2 then along(g2.link_orientation, item.location - along(g2.link_side, g2.link_distance)) "
-                      "else along(g2.link_side, g2.link_distance) + along(g2.link_orientation, item.location)"),
+    "info_accepted": ("(not lrbg.two_groups or (item.for_nominal and item.for_reverse)) and "
+                      "(item.group == lrbg.group or g2.link_side != unknown) and ((item.for_nominal and item.for_reverse) or "
+                      f"(item.for_nominal and {_REL} == nominal) or "
+                      f"(item.for_reverse and {_REL} == reverse))"),
+    "info_position": ("if item.for_nominal and item.for_reverse and est.orientation == unknown then 0 m "
+                      f"else if item.group == lrbg.group then {_LOC} "
+                      f"else if lrbg.group == 2 then along(g2.link_orientation, {_LOC} - along(g2.link_side, g2.link_distance)) "
+                      f"else along(g2.link_side, g2.link_distance) + along(g2.link_orientation, {_LOC})"),
 }
 
 # The designs under assessment when a pack does not override them (DESIGN 4.4, 4.5), written
