@@ -345,12 +345,63 @@ def cmd_simulate(args) -> int:
 
 
 def _legs_arg(text: str):
-    """--legs: a whole number, or 'any'."""
+    """--legs of check: a whole number 0..8, or 'any'."""
+# ---- numeric options: one set of argparse types, so a bad value is a usage error (exit 2)
+# before any work, for every subcommand alike.
+MAX_SECONDS = 1_000_000          # about 11.6 days; z3 takes its time-out as 32-bit milliseconds
+MAX_RLIMIT = 2 ** 32 - 1         # z3's rlimit is a 32-bit count: a larger one wraps (0 = none)
+
+
+def _whole(text: str, lo: int | None, hi: int | None, what: str) -> int:
+    span = (f"{lo}..{hi}" if hi is not None else f"{lo} or more") if lo is not None else "any"
+    try:
+        n = int(text, 10)
+    except ValueError:
+        n = None
+    if n is None or (lo is not None and n < lo) or (hi is not None and n > hi):
+        raise argparse.ArgumentTypeError(f"must be a whole number {span} ({what}), not {text!r}")
+    return n
+
+
+def count_arg(lo: int | None, hi: int | None, what: str):
+    """An argparse type: a whole number in lo..hi (None: unbounded on that side)."""
+    def parse(text: str) -> int:
+        return _whole(text, lo, hi, what)
+    parse.__name__ = what      # argparse names the type in some messages
+    return parse
+
+
+def seconds_arg(text: str) -> float:
+    """An argparse type: a finite number of seconds, more than 0 and at most MAX_SECONDS
+    (nan, inf and 1e308 are refused, not passed on to a conversion that fails later)."""
+    import math
+    try:
+        x = float(text)
+    except ValueError:
+        x = math.nan
+    if not (math.isfinite(x) and 0 < x <= MAX_SECONDS):
+        raise argparse.ArgumentTypeError(f"must be a number of seconds more than 0 and at most "
+                                         f"{MAX_SECONDS}, not {text!r}")
+    return x
+
+
+_bound_arg = count_arg(0, 8, "movement legs")
+_depth_arg = count_arg(1, 8, "induction depth")
+_rlimit_arg = count_arg(1, MAX_RLIMIT, "solver budget per check")
+_examples_arg = count_arg(1, 1_000_000, "examples per rule")
+_seed_arg = count_arg(0, None, "seed")
+
+
+def _jobs_arg(text: str) -> int:
+    from verifier.parallel import MAX_JOBS
+    return _whole(text, 1, MAX_JOBS, "worker processes")
+
+
     if text == "any":
         return "any"
     try:
-        return int(text)
-    except ValueError:
+        return _bound_arg(text)
+    except argparse.ArgumentTypeError:
         raise argparse.ArgumentTypeError(f"must be a whole number 0..8 or 'any', not {text!r}") from None
 
 
@@ -373,15 +424,15 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
     c.add_argument("--legs", type=_legs_arg, metavar="K", help="bound: movement legs after the passage, "
                    "0..8, or 'any' to prove every rule for any number of legs (overrides packs and rules)")
-    c.add_argument("--induction-depth", type=int, default=4, metavar="N",
+    c.add_argument("--induction-depth", type=_depth_arg, default=4, metavar="N",
                    help="for rules with legs = \"any\": the deepest induction step tried, 1..8 "
                         "(default 4; the base case covers at least N - 1 legs)")
     c.add_argument("--rule", action="append", metavar="ID", help="check only this rule (repeatable)")
-    c.add_argument("--timeout", type=float, metavar="SECONDS", help="wall-clock guard per rule (default 120)")
-    c.add_argument("--rlimit", type=int, metavar="N", help="deterministic solver budget per check (default 500000000)")
+    c.add_argument("--timeout", type=seconds_arg, metavar="SECONDS", help="wall-clock guard per rule (default 120)")
+    c.add_argument("--rlimit", type=_rlimit_arg, metavar="N", help="deterministic solver budget per check (default 500000000)")
     c.add_argument("--out", default="counterexamples", metavar="DIR", help="where counterexample files go (default: counterexamples/ in the current folder)")
     c.add_argument("--no-files", action="store_true", help="write no counterexample files")
-    c.add_argument("--jobs", type=int, default=1, metavar="N", help="solve rules in N worker processes (same results and files as 1, the default)")
+    c.add_argument("--jobs", type=_jobs_arg, default=1, metavar="N", help="solve rules in N worker processes (same results and files as 1, the default)")
     c.add_argument("--no-cache", action="store_true", help="solve every rule again; neither read nor write the cache (.verifier-cache/ in the current folder)")
     c.add_argument("--format", choices=("table", "json", "junit", "sarif"), default="table",
                    help="output on stdout: table (default), json (as --json), junit (XML, one test "
@@ -403,11 +454,11 @@ def build_parser() -> argparse.ArgumentParser:
     d.add_argument("old", metavar="OLD")
     d.add_argument("new", metavar="NEW")
     d.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
-    d.add_argument("--legs", type=int, metavar="K", help="bound for both sides (overrides packs and rules)")
+    d.add_argument("--legs", type=_bound_arg, metavar="K", help="bound for both sides (overrides packs and rules)")
     d.add_argument("--out", metavar="DIR", help="write distinguishing worlds and counterexamples under DIR (default: write nothing)")
-    d.add_argument("--timeout", type=float, metavar="SECONDS", help="wall-clock guard per question (default 120)")
-    d.add_argument("--rlimit", type=int, metavar="N", help="deterministic solver budget per check")
-    d.add_argument("--jobs", type=int, default=1, metavar="N", help="decide verdicts in N worker processes")
+    d.add_argument("--timeout", type=seconds_arg, metavar="SECONDS", help="wall-clock guard per question (default 120)")
+    d.add_argument("--rlimit", type=_rlimit_arg, metavar="N", help="deterministic solver budget per check")
+    d.add_argument("--jobs", type=_jobs_arg, default=1, metavar="N", help="decide verdicts in N worker processes")
     d.add_argument("--no-cache", action="store_true", help="neither read nor write .verifier-cache/")
     d.add_argument("--rule", action="append", metavar="ID",
                    help="compare only this rule (repeatable); relating an envelope rule can take minutes")
@@ -420,8 +471,8 @@ def build_parser() -> argparse.ArgumentParser:
                                    "equivalent and invalid mutants, and the kill ratio.")
     m.add_argument("packs", nargs="+", metavar="PACK")
     m.add_argument("--json", action="store_true", help="print one JSON object")
-    m.add_argument("--timeout", type=float, default=20.0, metavar="SECONDS", help="per solver question (default 20)")
-    m.add_argument("--jobs", type=int, default=1, metavar="N", help="decide mutants in N worker processes")
+    m.add_argument("--timeout", type=seconds_arg, default=20.0, metavar="SECONDS", help="per solver question (default 20)")
+    m.add_argument("--jobs", type=_jobs_arg, default=1, metavar="N", help="decide mutants in N worker processes")
     m.set_defaults(func=cmd_mutate)
 
     st = sub.add_parser("selftest", help="write the tool validation dossier",
@@ -448,15 +499,15 @@ def build_parser() -> argparse.ArgumentParser:
                    "(default: the pack's [implementation] trackside, else the pack's trackside formulas)")
     t.add_argument("--path", action="append", metavar="DIR", help="put DIR on the import path (repeatable)")
     t.add_argument("--rule", action="append", metavar="ID", help="check only this rule (repeatable)")
-    t.add_argument("--max-examples", type=int, default=200, metavar="N",
+    t.add_argument("--max-examples", type=_examples_arg, default=200, metavar="N",
                    help="Hypothesis examples per rule (default 200)")
-    t.add_argument("--seed", type=int, metavar="N", help="Hypothesis seed (default: a fixed one, so "
+    t.add_argument("--seed", type=_seed_arg, metavar="N", help="Hypothesis seed (default: a fixed one, so "
                    "that runs repeat)")
-    t.add_argument("--legs", type=int, metavar="K", help="legs of generated worlds (default: the "
+    t.add_argument("--legs", type=_bound_arg, metavar="K", help="legs of generated worlds (default: the "
                    "rule's bound; 6 for legs = \"any\")")
     t.add_argument("--no-smt", action="store_true", help="no worlds from the solver")
     t.add_argument("--no-hypothesis", action="store_true", help="no worlds from Hypothesis")
-    t.add_argument("--call-timeout", type=float, default=5.0, metavar="SECONDS",
+    t.add_argument("--call-timeout", type=seconds_arg, default=5.0, metavar="SECONDS",
                    help="time limit per call of the implementation (default 5)")
     t.add_argument("--out", default="counterexamples", metavar="DIR",
                    help="where counterexample files go (DIR/<pack>/impl/<module.function>/)")
@@ -482,7 +533,7 @@ def build_parser() -> argparse.ArgumentParser:
                                    "(TOML or JSON, or a counterexample file).")
     s.add_argument("scenario", metavar="SCENARIO")
     s.add_argument("--pack", required=True, metavar="PACK", help="the pack whose designs and rules to apply")
-    s.add_argument("--legs", type=int, metavar="K", help="bound used for the scope check")
+    s.add_argument("--legs", type=_bound_arg, metavar="K", help="bound used for the scope check")
     s.set_defaults(func=cmd_simulate)
 
     w = sub.add_parser("show", help="explain a counterexample file in words, after re-checking it",
@@ -505,17 +556,10 @@ def main(argv=None) -> int:
     if not getattr(args, "func", None):
         parser.print_help()
         return EXIT_INPUT
-    legs = getattr(args, "legs", None)
-    if legs is not None and legs != "any" and not (0 <= legs <= 8):
-        print("verifier: error: --legs must be 0..8 or 'any'", file=sys.stderr)
-        return EXIT_INPUT
+    legs = getattr(args, "legs", None)      # the ranges of numbers: the argparse types above
     if legs == "any" and args.command != "check":
         print("verifier: error: --legs any is for 'verifier check' (here the bound is a number of legs)",
               file=sys.stderr)
-        return EXIT_INPUT
-    depth = getattr(args, "induction_depth", None)
-    if depth is not None and not (1 <= depth <= 8):
-        print("verifier: error: --induction-depth must be 1..8", file=sys.stderr)
         return EXIT_INPUT
     try:
         return args.func(args)
