@@ -15,7 +15,7 @@ from pathlib import Path
 
 import attrs
 
-from verifier.errors import Diagnostic, PackError, suggest
+from verifier.errors import Diagnostic, PackError, control_char, suggest
 from verifier.lang import ast
 from verifier.lang.parser import ExprSyntaxError, parse, parse_quantity
 from verifier.lang.source import SourceFile, read_regular
@@ -134,6 +134,24 @@ def _toml_error(path: str, text: str, exc: tomllib.TOMLDecodeError) -> Diagnosti
     lines = text.splitlines()
     src = lines[line - 1] if 0 < line <= len(lines) else None
     return Diagnostic(path, line, col, f"malformed TOML: {msg}", "error", src)
+
+
+def _long_number(path: str, text: str) -> Diagnostic | None:
+    """The first integer literal too long for the interpreter to read (tomllib's ValueError
+    names no place), as a diagnostic at the literal."""
+    import sys
+    limit = sys.get_int_max_str_digits() if hasattr(sys, "get_int_max_str_digits") else 0
+    if not limit:
+        return None
+    for m in re.finditer(r"\d[\d_]*", text):
+        digits = len(m.group()) - m.group().count("_")
+        if digits > limit:
+            line = text.count("\n", 0, m.start()) + 1
+            col = m.start() - (text.rfind("\n", 0, m.start()) + 1) + 1
+            lines = text.splitlines()
+            return Diagnostic(path, line, col, f"number is too long: {digits:,} digits (at most {limit:,})",
+                              "error", lines[line - 1] if line <= len(lines) else None, len(m.group()))
+    return None
 
 
 def _length(c: _Collector, key: tuple, value, *, what: str) -> Fraction | None:
@@ -317,6 +335,18 @@ def _expr(c: _Collector, key: tuple, value, *, what: str) -> RawExpr | None:
     return RawExpr(value, node, key)
 
 
+def _plain(c: _Collector, key: tuple, value: str, what: str, keep: str = "") -> bool:
+    """Refuse control characters in text that is shown (titles, notes, refs): an escape such
+    as ESC would drive the terminal of ``verifier show`` and makes JUnit XML and SVG invalid.
+    ``keep``: the ones a multi-line text may hold (newline, tab)."""
+    ch = control_char(value, keep)
+    if ch is None:
+        return True
+    c.at(key, f"{what} contains the control character U+{ord(ch):04X}: write plain text"
+         + (" (newlines and tabs are fine here)" if keep else ""))
+    return False
+
+
 def _unknown_keys(c: _Collector, prefix: tuple, table: dict, allowed: set, where: str) -> None:
     for k in table:
         if k not in allowed:
@@ -357,7 +387,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     except tomllib.TOMLDecodeError as exc:
         raise PackError([_toml_error(shown, text, exc)]) from None
     except (ValueError, RecursionError) as exc:   # e.g. an integer of more than 4300 digits
-        raise PackError([Diagnostic(shown, 1, 1, f"malformed TOML: {exc}")]) from None
+        raise PackError([_long_number(shown, text) or Diagnostic(shown, 1, 1, f"malformed TOML: {exc}")]) from None
     src = SourceFile(shown, text)
     c = _Collector(src)
 
@@ -385,11 +415,15 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
             c.at(("pack", "name"), f"pack name must be a slug (lower-case letters, digits, '-'), got {name!r}")
         if not isinstance(pack_t.get("title", ""), str) or "title" not in pack_t:
             c.at(("pack",), "[pack] needs a title (a string)")
+        else:
+            _plain(c, ("pack", "title"), pack_t["title"], "the pack title")
     legs, unbounded = _legs(c, ("pack", "legs"), pack_t.get("legs", DEFAULT_LEGS), "pack")
     legs = DEFAULT_LEGS if legs is None else legs
     description = pack_t.get("description", "")
     if not isinstance(description, str):
         c.at(("pack", "description"), "description must be a string")
+        description = ""
+    elif not _plain(c, ("pack", "description"), description, "the description", keep="\n\t"):
         description = ""
 
     _unknown_keys(c, ("world",), tables.get("world", {}), TABLES["world"], "[world]")
@@ -527,6 +561,11 @@ def _infos(c: _Collector, src: SourceFile, raw, scope: Scope, seen: dict) -> lis
             c.at(base + ("valid",), f"info valid must be nominal, reverse or both, got {valid!r}")
             ok = False
         title = t.get("title", iid)
+        if "title" in t and not isinstance(title, str):
+            c.at(base + ("title",), "info title must be a string")
+            ok = False
+        elif "title" in t and not _plain(c, base + ("title",), title, "the info title"):
+            ok = False
         place = src.places.get(base)
         if ok:
             out.append(RawInfo(iid, str(title), group, at, valid in ("nominal", "both"),
@@ -576,6 +615,8 @@ def _rules(c: _Collector, src: SourceFile, raw: list, table: str, seen_ids: dict
         if not isinstance(title, str):
             c.at(base + ("title",), "title must be a string")
             ok = False
+        elif not _plain(c, base + ("title",), title, f"the title of {table} {rid}"):
+            ok = False
         given = _expr(c, base + ("given",), r["given"], what=f"{table} {rid} given") if "given" in r else None
         if "given" in r and given is None:
             ok = False
@@ -584,10 +625,14 @@ def _rules(c: _Collector, src: SourceFile, raw: list, table: str, seen_ids: dict
         if not (isinstance(refs, list) and all(isinstance(x, str) for x in refs)):
             c.at(base + ("refs",), "refs must be a list of strings")
             refs = []
+        elif not all(_plain(c, base + ("refs",), x, f"a ref of {table} {rid}") for x in refs):
+            ok = False
         note = r.get("note", "")
         if not isinstance(note, str):
             c.at(base + ("note",), "note must be a string")
             note = ""
+        elif not _plain(c, base + ("note",), note, f"the note of {table} {rid}", keep="\n\t"):
+            ok = False
         rlegs, unbounded = None, (True if table == "lemma" else None)
         if "legs" in r:
             rlegs, unbounded = _legs(c, base + ("legs",), r["legs"], table)

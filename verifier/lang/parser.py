@@ -21,6 +21,14 @@ _QUANTITY = re.compile(r"(\d+(?:\.\d+)?|\.\d+)\s*(mm|cm|km|m|%)?$")
 # Deeper nesting than this is refused before parsing (LALR itself is not recursive,
 # but the checker and both evaluators are).
 MAX_DEPTH = 64
+# A number literal has at most this many digits (fixed here, so the limit does not depend on
+# the interpreter's integer-string limit, PYTHONINTMAXSTRDIGITS).
+MAX_DIGITS = 1000
+# A run of this many operands of one associative operator (and, or, +, *) is rebuilt as a
+# balanced tree, so a flat chain of thousands of terms is a tree of depth log2(n) for the
+# checker and both evaluators. Shorter runs keep the parser's left-nested shape, so every
+# existing pack parses, encodes and hashes as before.
+BALANCE_FROM = 16
 
 
 class ExprSyntaxError(Exception):
@@ -56,11 +64,19 @@ def _pos(meta_or_tok) -> tuple[int, int]:
     return meta_or_tok.start_pos, meta_or_tok.end_pos
 
 
+def _check_digits(tok) -> None:
+    digits = sum(ch.isdigit() for ch in str(tok))
+    if digits > MAX_DIGITS:
+        raise ExprSyntaxError(f"number is too long: {digits:,} digits (at most {MAX_DIGITS:,})",
+                              tok.start_pos, len(tok))
+
+
 class _Build(lark.Transformer):
     # Each method receives the children and, through v_args(meta=True), the positions.
     @lark.v_args(meta=True)
     def number(self, meta, children):
         tok = children[0]
+        _check_digits(tok)
         value, unit = parse_quantity(str(tok))
         if unit is None and "." in str(tok):
             unit = None
@@ -79,6 +95,7 @@ class _Build(lark.Transformer):
         parts = []
         for tok in children:
             if tok.type == "QUANTITY":
+                _check_digits(tok)
                 if not str(tok).isdigit():
                     raise ExprSyntaxError(f"a leg number must be a whole number, not {str(tok)!r}",
                                           tok.start_pos, len(tok))
@@ -144,6 +161,62 @@ class _Build(lark.Transformer):
 MAX_TREE_DEPTH = 4 * MAX_DEPTH
 
 
+def _run_op(node):
+    """The associative operator of a lark node (``and_``, ``or_``, ``+``, ``*``), or None."""
+    if not isinstance(node, lark.Tree):
+        return None
+    if node.data in ("and_", "or_"):
+        return node.data
+    if node.data == "binop" and str(node.children[1]) in ("+", "*"):
+        return str(node.children[1])
+    return None
+
+
+def _span(x) -> tuple[int, int]:
+    if isinstance(x, lark.Token):
+        return x.start_pos, x.end_pos
+    return x.meta.start_pos, x.meta.end_pos
+
+
+def _balanced(operands: list, op: str, data: str, token):
+    """A balanced tree over ``operands`` (left to right), recursion depth log2(n)."""
+    if len(operands) == 1:
+        return operands[0]
+    mid = len(operands) // 2
+    left, right = _balanced(operands[:mid], op, data, token), _balanced(operands[mid:], op, data, token)
+    meta = lark.tree.Meta()
+    meta.empty = False
+    meta.start_pos, meta.end_pos = _span(left)[0], _span(right)[1]
+    children = [left, right] if token is None else [left, token, right]
+    return lark.Tree(data, children, meta)
+
+
+def _flatten_runs(tree) -> None:
+    """Rebuild, in place and without recursion, every left-nested run of BALANCE_FROM or more
+    operands of one associative operator as a balanced tree: ``a and b and c and d`` read
+    left to right means the same, and short-circuits in the same order, either way. Runs of
+    ``+`` and ``*`` are exact (Fractions, and linear terms for the solver) in any grouping."""
+    stack = [tree]
+    while stack:
+        node = stack.pop()
+        if not isinstance(node, lark.Tree):
+            continue
+        op = _run_op(node)
+        if op is not None:
+            right, n = [], node
+            while _run_op(n) == op:
+                right.append(n.children[-1])
+                n = n.children[0]
+            if len(right) + 1 >= BALANCE_FROM:
+                operands = [n] + right[::-1]
+                token = None if op in ("and_", "or_") else node.children[1]
+                new = _balanced(operands, op, node.data, token)
+                node.children = new.children      # the run keeps its own place (its meta)
+                stack.extend(operands)
+                continue
+        stack.extend(node.children)
+
+
 def _tree_depth(tree) -> int:
     """Depth of a lark tree, without recursion (if-then-else chains nest without brackets)."""
     best = 0
@@ -198,6 +271,7 @@ def parse(text: str) -> ast.Node:
         raise ExprSyntaxError(f"expression nested deeper than {MAX_DEPTH} levels", 0)
     try:
         tree = _parser().parse(text)
+        _flatten_runs(tree)
         if _tree_depth(tree) > MAX_TREE_DEPTH:
             raise ExprSyntaxError(f"expression nested deeper than {MAX_DEPTH} levels", 0)
         return _Build().transform(tree)
