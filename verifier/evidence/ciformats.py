@@ -23,6 +23,7 @@ import json
 from xml.etree import ElementTree as ET
 
 from verifier import CAUTION, __version__
+from verifier.errors import visible
 from verifier.evidence import coverage
 
 SARIF_SCHEMA = "https://json.schemastore.org/sarif-2.1.0.json"
@@ -100,7 +101,10 @@ def junit(results, diags) -> str:
         root.set(k, str(tot[k]))
     root.set("time", f"{tot['time']:.3f}")
     ET.indent(root)
-    return '<?xml version="1.0" encoding="UTF-8"?>\n' + ET.tostring(root, encoding="unicode") + "\n"
+    # XML 1.0 allows no C0 control but tab, newline and return, not even as a reference: any
+    # that reached a name, a path or a message is written as a visible escape (\x1b)
+    text = ET.tostring(root, encoding="unicode")
+    return '<?xml version="1.0" encoding="UTF-8"?>\n' + visible(text, keep="\n\t\r") + "\n"
 
 
 def _loc(uri: str, line: int | None = None, column: int | None = None) -> dict:

@@ -25,6 +25,7 @@ from html import escape
 from pathlib import Path
 
 from verifier.check.model import Rule
+from verifier.errors import visible
 from verifier.evidence import cexfile
 from verifier.evidence.story import (_front_at_detection, comparison_words, interval_words, m,
                                      whole_train_words)
@@ -421,7 +422,8 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
             f'<title id="{uid}-title">{escape(verdict, quote=False)}</title>\n'
             f'<desc id="{uid}-desc">{escape(desc, quote=False)}</desc>\n'
             f'<rect x="0" y="0" width="{WIDTH}" height="{P(height)}" fill="#ffffff"/>')
-    return head + "\n" + "\n".join(out) + "\n</svg>\n"
+    # control characters from any source (a file name, a title) would make the SVG invalid XML
+    return visible(head + "\n" + "\n".join(out) + "\n</svg>\n", keep="\n\t")
 
 
 def _wrap(text: str, n: int) -> list:

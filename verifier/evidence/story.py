@@ -19,7 +19,7 @@ from pathlib import Path
 import attrs
 
 from verifier.check.model import Pack, Rule
-from verifier.errors import Diagnostic, PackError, VerifierError
+from verifier.errors import Diagnostic, PackError, VerifierError, visible
 from verifier.evidence import cexfile
 from verifier.lang.ast import LENGTH
 from verifier.world.scenario import fmt, world_from_data
@@ -530,7 +530,8 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
         f"world under {pack.path} (tool that wrote the file: verifier {doc['tool'].get('verifier', '?')}, "
         f"{doc['tool'].get('solver', '?')}).")
     add(f"Caution: {cexfile.CAUTION}")
-    return "\n".join(out)
+    # no control character from a file name or a title reaches the terminal
+    return visible("\n".join(out), keep="\n\t")
 
 
 def interval_words(real, lo, hi) -> str:
@@ -592,7 +593,7 @@ def show(file: str, pack_path: str | None = None, svg: str | None = None) -> tup
     if ctistory.is_induction_file(Path(file)):
         e = ctistory.explain_file(file, pack_path=pack_path)
         if svg is None:
-            return e.text, None
+            return visible(e.text, keep="\n\t"), None
         text = diagram.render_induction(e.doc, e.rule, e.views)
     else:
         e = explain_file(file, pack_path=pack_path)
@@ -603,4 +604,4 @@ def show(file: str, pack_path: str | None = None, svg: str | None = None) -> tup
         return text, None
     target = diagram.svg_path(Path(file)) if svg == "" else Path(svg)
     cexfile.write_atomic(target, text)
-    return e.text, target.as_posix()
+    return visible(e.text, keep="\n\t"), target.as_posix()
