@@ -50,6 +50,53 @@ def _generated() -> str:
     return t.replace(microsecond=0).isoformat().replace("+00:00", "Z")
 
 
+_FILE_REF = {"type": ["object", "null"],
+             "properties": {"file": {"type": ["string", "null"]}, "diagram": {"type": ["string", "null"]}}}
+# What a manifest must look like before this module reads it again (ensure_ours, prepare_dir):
+# the part of the format that is read back, as a JSON Schema (draft 4 subset: type, required,
+# properties, items). Every manifest ``build`` writes satisfies it (tests/test_input_edges.py
+# checks that with the jsonschema library).
+MANIFEST_SCHEMA = {
+    "type": "object",
+    "required": ["format", "packs"],
+    "properties": {
+        "format": {"type": "string"},
+        "packs": {"type": "array", "items": {
+            "type": "object", "required": ["rules"],
+            "properties": {"name": {"type": "string"}, "rules": {"type": "array", "items": {
+                "type": "object",
+                "properties": {"id": {"type": "string"}, "counterexample": _FILE_REF,
+                               "counterexample_to_induction": _FILE_REF}}}}}},
+        "files": {"type": "object"},
+    },
+}
+_JSON_TYPES = {"object": dict, "array": list, "string": str, "null": type(None)}
+
+
+def manifest_problem(doc, schema=MANIFEST_SCHEMA, where: str = "manifest") -> str | None:
+    """The first way ``doc`` departs from ``schema`` (the subset above), or None."""
+    kinds = schema.get("type")
+    if kinds is not None:
+        kinds = [kinds] if isinstance(kinds, str) else kinds
+        if not any(isinstance(doc, _JSON_TYPES[k]) for k in kinds):
+            return f"{where} must be {' or '.join(kinds)}, not {type(doc).__name__}"
+    if isinstance(doc, dict):
+        for k in schema.get("required", ()):
+            if k not in doc:
+                return f"{where} has no '{k}'"
+        for k, sub in schema.get("properties", {}).items():
+            if k in doc:
+                problem = manifest_problem(doc[k], sub, f"{where}.{k}")
+                if problem:
+                    return problem
+    if isinstance(doc, list) and "items" in schema:
+        for i, x in enumerate(doc):
+            problem = manifest_problem(x, schema["items"], f"{where}[{i}]")
+            if problem:
+                return problem
+    return None
+
+
 def ensure_ours(out: Path) -> None:
     """Refuse (UsageError, exit 2) a path that exists and is not an empty directory or a report
     of ours. Called before any rule is checked, and again before writing."""
@@ -57,17 +104,30 @@ def ensure_ours(out: Path) -> None:
     if out.exists() and not out.is_dir():
         raise UsageError(f"report directory {out.as_posix()} exists and is not a directory; not overwritten")
     if out.is_dir() and any(out.iterdir()):
-        manifest = out / "manifest.json"
-        ours = False
-        try:
+        _read_manifest(out)
+
+
+def _read_manifest(out: Path) -> dict:
+    """The manifest of the report in ``out``, checked against MANIFEST_SCHEMA; a UsageError if
+    it is missing, not ours or malformed (then nothing in ``out`` is touched)."""
+    manifest = out / "manifest.json"
+    ours, problem, doc = False, None, None
+    try:
+        if manifest.is_file() and manifest.stat().st_size <= 64 * 1024 * 1024:
             doc = json.loads(manifest.read_text(encoding="utf-8"))
             ours = isinstance(doc, dict) and str(doc.get("format", "")).startswith("verifier-report/")
-        except (OSError, ValueError):
-            ours = False
-        if not ours:
-            raise UsageError(f"report directory {out.as_posix()} exists and is not a verifier report "
-                             "(it has no manifest.json of ours); not overwritten: choose a new or "
-                             "empty directory")
+            problem = manifest_problem(doc) if ours else None
+    except (OSError, ValueError, RecursionError):
+        ours = False
+    if not ours:
+        raise UsageError(f"report directory {out.as_posix()} exists and is not a verifier report "
+                         "(it has no manifest.json of ours); not overwritten: choose a new or "
+                         "empty directory")
+    if problem:
+        raise UsageError(f"report directory {out.as_posix()}: its manifest.json is malformed "
+                         f"({problem}); not overwritten: repair or remove it, or choose a new or "
+                         "empty directory")
+    return doc
 
 
 def prepare_dir(out: Path) -> None:
@@ -76,12 +136,12 @@ def prepare_dir(out: Path) -> None:
     old = out / "manifest.json"
     if old.is_file():
         # remove exactly the files the last report listed, nothing else
-        doc = json.loads(old.read_text(encoding="utf-8"))
+        doc = _read_manifest(out)
         names = ["index.html", "timings.json"]
         for p in doc.get("packs", []):
             for r in p.get("rules", []):
-                c = r.get("counterexample") or {}
-                names += [c.get("file"), c.get("diagram")]
+                for c in (r.get("counterexample") or {}, r.get("counterexample_to_induction") or {}):
+                    names += [c.get("file"), c.get("diagram")]
         root = out.resolve()
         for name in names:
             if not isinstance(name, str):
