@@ -131,3 +131,105 @@ def test_found_by_fuzzing_info_id_of_the_wrong_type_is_a_clean_error(tmp_path):
     with pytest.raises(PackError) as e:
         load_pack(f)
     assert "info id must be a name" in str(e.value)
+
+
+# ---- the corpus of input edges (tests/fuzz-corpus/README.md) ---------------------------------------
+
+CORPUS = ROOT / "tests" / "fuzz-corpus"
+
+
+def _expect(path: Path) -> tuple[str, str]:
+    first = path.read_text(encoding="utf-8").split("\n", 1)[0]
+    assert first.startswith("# expect: "), f"{path.name}: the first line must say what to expect"
+    kind, _, what = first[len("# expect: "):].partition(": ")
+    return kind, what
+
+
+def _short_and_plain(diags) -> None:
+    import re
+    for d in diags:
+        shown = d.render()
+        assert len(shown) < 800, shown[:200]
+        assert not re.search("[\x00-\x08\x0b-\x1f\x7f-\x9f]", shown), shown[:200]
+
+
+@pytest.mark.parametrize("entry", sorted(p.name for p in CORPUS.iterdir() if p.name != "README.md"))
+def test_corpus_entry(entry, tmp_path, monkeypatch):
+    path = CORPUS / entry
+    if entry.endswith(".toml"):
+        kind, what = _expect(path)
+        sandbox = tmp_path / "sandbox"
+        sandbox.mkdir()
+        monkeypatch.chdir(sandbox)
+        out = run_one(Input("corpus", path.read_bytes()), sandbox, LIMIT, full=False)
+        if kind == "error":
+            assert (out.result, what in out.detail) == ("error", True), out
+            from verifier.loader import load_all
+            try:
+                packs, diags = load_all([path])     # as `verifier check` reads it
+            except PackError as exc:
+                packs, diags = [], exc.diagnostics
+            assert not packs and any(what in d.message for d in diags), diags
+            _short_and_plain(diags)
+        else:
+            assert kind == "verdict" and out.result not in ("error", "crash", "hang"), out
+            pack = load_pack(path)
+            from verifier.smt.concrete import violation_status
+            answers = {violation_status(pack, r, 1, rlimit=20_000_000, timeout=20) for r in pack.rules}
+            assert answers <= {"sat", "unsat"}, answers
+            assert {"holds" if a == "unsat" else "violated" for a in answers} == set(what.split(","))
+    elif entry.endswith(".manifest.json"):
+        from verifier.errors import UsageError
+        from verifier.evidence.report import prepare_dir
+        out = tmp_path / "report"
+        out.mkdir()
+        (out / "manifest.json").write_bytes(path.read_bytes())
+        (out / "index.html").write_text("kept")
+        with pytest.raises(UsageError) as exc:
+            prepare_dir(out)
+        assert "manifest.json is malformed" in str(exc.value)
+        assert (out / "index.html").read_text() == "kept"
+    else:
+        _corpus_file(path, tmp_path)
+
+
+def _corpus_file(path: Path, tmp_path: Path) -> None:
+    import os
+    import signal
+    from verifier.loader import discover
+    kind, what = _expect(path)
+    word, *arg = path.read_text(encoding="utf-8").strip().split("\n")[-1].split()
+    if word == "many":
+        n = int(arg[0])
+        for i in range(n):
+            (tmp_path / f"p{i:05d}.toml").write_text("")
+        twice = [tmp_path / "sub" / ".." / f"p{i:05d}.toml" for i in range(n)]
+        (tmp_path / "sub").mkdir()
+        assert (kind, len(discover([tmp_path, *twice]))) == ("found", int(what))
+        return
+    if word == "fifo":
+        target = tmp_path / "pipe.toml"
+        os.mkfifo(target)
+    elif word == "device":
+        target = Path(arg[0])
+        if not target.exists():
+            pytest.skip(f"no {target}")
+    else:
+        assert word == "oversize", word
+        from verifier.lang.source import MAX_FILE_BYTES
+        target = tmp_path / "big.toml"
+        target.write_text('[pack]\nname = "big"\ntitle = "t"\n\n[[rule]]\nid = "a"\ntitle = "t"\n'
+                          'expect = "true"\n#' + "x" * MAX_FILE_BYTES + "\n")
+
+    def blocked(*_):
+        raise TimeoutError("the read blocked")
+    old = signal.signal(signal.SIGALRM, blocked)
+    signal.alarm(10)
+    try:
+        with pytest.raises(PackError) as exc:
+            load_pack(target)
+    finally:
+        signal.alarm(0)
+        signal.signal(signal.SIGALRM, old)
+    assert kind == "error" and what in exc.value.diagnostics[0].message
+    _short_and_plain(exc.value.diagnostics)

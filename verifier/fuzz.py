@@ -213,7 +213,8 @@ def mutate_text(rnd: random.Random, text: str, times: int = 1) -> str:
 
 _WRONG_VALUES = ['3', '"3"', '3.5', '-1', '1000', 'true', '[]', '["a", "b"]', '{ a = 1 }',
                  '"\u00e9\u00e9"', '99999999999999999999999999', '"1e400 m"', '"-5 m"', '""',
-                 '"5 m"', '[1, 2]', '["1 m", "0 m"]', '["0 m", "99999999 km"]', '0', '"auto"']
+                 '"5 m"', '[1, 2]', '["1 m", "0 m"]', '["0 m", "99999999 km"]', '0', '"auto"',
+                 '"nl-name\\n"', '"Kestrel\\u001b[2J"']
 
 
 def mutate_pack(rnd: random.Random, text: str) -> str:
@@ -393,6 +394,9 @@ def run_one(inp: Input, sandbox: Path, limit: float = 30.0, solver_timeout: floa
             if not any(d.severity == "error" for d in getattr(raw, "diagnostics", ())):
                 stage = STAGES[1]
             pack = check_pack(raw)
+            if not pack.rules and not pack.lemmas:     # as `verifier check`: an input error
+                from verifier.loader import nothing_to_check
+                raise PackError([nothing_to_check([path], pack.warnings), *pack.warnings])
         except PackError as exc:
             rendered = "\n".join(d.render() for d in exc.diagnostics)
             if not exc.diagnostics or "input.toml:" not in rendered:
