@@ -15,7 +15,7 @@ import attrs
 # C0 controls, DEL and C1 controls: they clear terminals and are not allowed in XML 1.0
 _CONTROL = re.compile("[\x00-\x1f\x7f-\x9f]")
 ECHO_WIDTH = 100        # characters of a source line echoed under a diagnostic
-MESSAGE_WIDTH = 240     # characters of a message (values quoted in it are user text)
+MESSAGE_WIDTH = 400     # characters of a message (values quoted in it are user text)
 ELLIPSIS = "..."
 
 
