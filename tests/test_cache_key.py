@@ -61,7 +61,8 @@ WORLD_EDITS = {
     "balises": [1, 7], "locacc": ["0 m", "11 m"], "train_length": ["20 m", "390 m"],
     "antenna": ["3 m", "30 m"], "leg_distance": ["0 m", "800 m"],
     "odometry_over": {"fixed": "4 m", "rate": "5 %"}, "odometry_under": {"fixed": "5 m", "rate": "4 %"},
-    "detection": "2 m", "odometry_basis": "real", "groups": None,   # groups: see _edit
+    "detection": "2 m", "odometry_basis": "real", "detection_in_odometry": True,
+    "groups": None,   # groups: see _edit
     "g2_distance": ["100 m", "600 m"], "g2_side": "nominal", "g2_orientation": "same",
     "g2_balises": [2, 8], "g2_locacc": ["0 m", "7 m"],
 }

@@ -155,10 +155,11 @@ def test_simulate_gives_the_true_reason_for_32767_and_names_the_safe_ends(tmp_pa
     assert "D_LRBG 32767" in report and "direction over the group is unknown" in report
     assert "out of range" not in out
     # Hand-worked (DESIGN 4.1 defaults, SUBSET-041 5.3.1.1 bound 5 m + 5 %): front first against
-    # the group, antenna 2 m, 100 m: the front is at -102 m; both doubts 5 + 5 = 10 m; facing
-    # reverse, the max safe front is the one further along the reverse direction.
+    # the group, antenna 2 m, 100 m: the front is at -102 m; both doubts 5 + 5 = 10 m plus the
+    # 1 m detection error on top (the default, docs/facts.md) = 11 m; facing reverse, the max
+    # safe front is the one further along the reverse direction.
     (tmp_path / "rev.toml").write_text(REVERSE)
     main(["simulate", str(tmp_path / "rev.toml"), "--pack", pack])
     out = capsys.readouterr().out
     trackside = next(line for line in out.splitlines() if line.startswith("trackside:"))
-    assert "min safe front -92 m, max safe front -112 m" in trackside
+    assert "min safe front -91 m, max safe front -113 m" in trackside

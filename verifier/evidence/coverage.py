@@ -87,7 +87,8 @@ def parts(scope: dict) -> list[tuple[str, str]]:
     o, u = w["odometry_over"], w["odometry_under"]
     o, u = w["odometry_over"], w["odometry_under"]
     odo = (f"over-reading {o['fixed']} m + {_pct(o['rate'])}, under-reading {u['fixed']} m + "
-           f"{_pct(u['rate'])} of the {w['odometry_basis']} distance; detection error {w['detection']} m")
+           f"{_pct(u['rate'])} of the {w['odometry_basis']} distance; detection error {w['detection']} m"
+           + (" counted inside those bounds" if w.get("detection_in_odometry") else " on top of them"))
     designs = (f"onboard: {_design(scope['onboard'])}, Q_SCALE {scope['onboard']['q_scale']}, "
                f"rounding {scope['onboard']['rounding']}; trackside: {_design(scope['trackside'])}")
     items = scope["information_items"]
