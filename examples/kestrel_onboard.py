@@ -2,9 +2,19 @@
 
 Written for `verifier test` as a user would write an implementation: from the observation
 alone (docs/implementations.md), with exact fractions, and without any of verifier's own code
-(it does not import verifier). It follows SUBSET-026 3.6.4.1.5 and 7.5.1.43/44 for the doubts,
-SUBSET-026 7.5.1.13 and 7.5.1.129 for the codes and the step, and rounds the distance to the
-nearest step and each doubt up after widening it by that rounding, so the interval never shrinks.
+(it does not import verifier).
+
+What comes from the standard: L_DOUBTOVER and L_DOUBTUNDER are Q_LOCACC plus an over- and an
+under-reading amount, the min safe front end behind the estimate and the max safe front end
+ahead of it along the train orientation (SUBSET-026 3.6.4.1.5, 7.5.1.43/44); 32767 is the
+special value of the distances and the step is one of the Q_SCALE codes (7.5.1.13, 7.5.1.129).
+What comes from this project's design (docs/design.md 4.4), not from a clause: which bound goes
+into which doubt when a movement went against the orientation (the direction-aware doubts: an
+over-read move against the orientation puts the estimate behind the real front), the odometry
+bound of the observation with the detection error on top of it, the automatic step (the finest
+at which all three distances fit), a code above 32766 at the step used sent as 32767, and the
+rounding (the distance to the nearest step, each doubt widened by that rounding and rounded
+up, so the interval never shrinks).
 
     verifier test rules/position-report.toml --impl kestrel_onboard:report --path examples
 """
@@ -94,7 +104,7 @@ def report(obs, *, q_scale=None) -> dict:
     passage = direction_of_passage(obs)
     e = estimate(obs)
     over, under = doubts(obs, e["facing"], e["moves"], e["measured"])
-    if passage is None:            # no orientation: the group cannot be used (SUBSET-026 3.4.2.3.3)
+    if passage is None:            # no orientation: no direction can be reported (SUBSET-026 3.6.3.1.4)
         q, *_ = encode(abs(e["front"]), over, under, only=q_scale)
         return {"q_scale": q, "d_lrbg": 32767, "l_doubtover": 32767, "l_doubtunder": 32767,
                 "q_dlrbg": UNKNOWN, "q_dirlrbg": UNKNOWN, "q_dirtrain": UNKNOWN}
