@@ -121,8 +121,10 @@ class MutationReport:
 
 # ---- generating mutants ---------------------------------------------------------------------------
 
-def _mutations(text: str, node: ast.Node, readers: str) -> list[tuple[str, str, str, str]]:
-    """(operator, replaced text, replacement, new formula text) for one formula."""
+def _mutations(text: str, node: ast.Node, readers: str, on_top: str = "") -> list[tuple[str, str, str, str]]:
+    """(operator, replaced text, replacement, new formula text) for one formula. ``on_top`` is
+    the term the onboard's reading bounds carry besides the odometry bound (the detection
+    error, DESIGN 4.1), kept in the displacement mutants."""
     out = []
 
     def span(n):
@@ -145,6 +147,8 @@ def _mutations(text: str, node: ast.Node, readers: str) -> list[tuple[str, str, 
                 replace(n, span(n.right), "drop a term")
         elif isinstance(n, ast.Unary) and n.op == "-":
             replace(n, span(n.operand), "flip a sign")
+        elif isinstance(n, ast.Unary) and n.op == "not":
+            replace(n, f"({span(n.operand)})", "drop a negation")
         elif isinstance(n, ast.Call):
             if n.func == "along":
                 replace(n, f"along(flip({span(n.args[0])}), {span(n.args[1])})", "flip a sign")
@@ -173,7 +177,10 @@ def _mutations(text: str, node: ast.Node, readers: str) -> list[tuple[str, str, 
                 if name in (a, b):
                     replace(n, b if name == a else a, op)
             if readers == "onboard" and name in DISPLACEMENT:
-                replace(n, DISPLACEMENT[name], "travelled distance replaced by displacement")
+                new = DISPLACEMENT[name]
+                if on_top and name != "est.travelled":
+                    new = new[:-1] + f" + {on_top})"
+                replace(n, new, "travelled distance replaced by displacement")
     return out
 
 
@@ -183,7 +190,8 @@ def mutants(pack: Pack) -> list[Mutant]:
     for kind, table in (("onboard", pack.onboard), ("trackside", pack.trackside)):
         for name in sorted(table):
             f = table[name]
-            for operator, old, rep, new in _mutations(f.text, f.node, kind):
+            on_top = "" if pack.scope.detection_in_odometry else "world.detection"
+            for operator, old, rep, new in _mutations(f.text, f.node, kind, on_top):
                 out.append(Mutant(f"{kind} {name}", operator, old, rep, new))
     if "l_doubtover" in pack.onboard and "l_doubtunder" in pack.onboard:
         out.append(Mutant("onboard l_doubtover/l_doubtunder", "swap over and under",

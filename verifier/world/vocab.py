@@ -231,16 +231,19 @@ DEFAULT_INFO_ONE = {
 # previous LRBG has no co-ordinate system of its own, so its one-way items are rejected
 # (3.6.3.1.4.2).
 _REL = "(if item.group == lrbg.group or g2.link_orientation == nominal then est.orientation else flip(est.orientation))"
-_LOC = f"(if item.for_nominal and item.for_reverse then along({_REL}, item.at) else item.location)"
+# the item's group mark in the current LRBG's frame (0 m for its own group)
+_MARK = ("(if item.group == lrbg.group then 0 m else if lrbg.group == 2 then "
+         "-along(g2.link_orientation, along(g2.link_side, g2.link_distance)) else along(g2.link_side, g2.link_distance))")
 DEFAULT_INFO_TWO = {
     "info_accepted": ("(not lrbg.two_groups or (item.for_nominal and item.for_reverse)) and "
                       "(item.group == lrbg.group or g2.link_side != unknown) and ((item.for_nominal and item.for_reverse) or "
                       f"(item.for_nominal and {_REL} == nominal) or "
                       f"(item.for_reverse and {_REL} == reverse))"),
+    # a both-ways item `at` from its group's mark along the train's orientation; a one-way item
+    # at its place in its group's frame, turned by linking's orientation for the other group
     "info_position": ("if item.for_nominal and item.for_reverse and est.orientation == unknown then 0 m "
-                      f"else if item.group == lrbg.group then {_LOC} "
-                      f"else if lrbg.group == 2 then along(g2.link_orientation, {_LOC} - along(g2.link_side, g2.link_distance)) "
-                      f"else along(g2.link_side, g2.link_distance) + along(g2.link_orientation, {_LOC})"),
+                      f"else {_MARK} + (if item.for_nominal and item.for_reverse then along(est.orientation, item.at) "
+                      "else along(if item.group == lrbg.group then nominal else g2.link_orientation, item.location))"),
 }
 
 # The designs under assessment when a pack does not override them (DESIGN 4.4, 4.5), written
