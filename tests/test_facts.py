@@ -298,13 +298,37 @@ def test_both_ways_item_lies_ahead_in_the_direction_the_train_faces(write_pack):
     assert st.info_value("marker", "real") == -60
 
 
+def test_distance_to_an_item_as_the_train_is_and_as_the_onboard_believes(write_pack):
+    # Worked by hand (issue 16, point 5). The end of authority 1500 m from G1 on its nominal side;
+    # the relocation world facing an opposite G2 (see above): the antenna reaches G2 300 m from
+    # G1, the front is 2 m ahead of it, 100 m more puts it 402 m from G1 (102 m on G2's reverse
+    # side), the estimate too (exact odometry, no offsets). Distance to the EOA along the
+    # orientation: 1500 - 402 = 1098 m, as it is and as the onboard believes. From the max safe
+    # front end (est + 15 m L_DOUBTUNDER: 4 m + 5 m + 5 % of 100 m + 1 m): 1083 m; from the min
+    # safe front end 1113 m (SUBSET-026 3.6.4.1.5, published: the safe ends along the orientation).
+    st = State(_two(write_pack), _relocation_world(REV))
+    assert st.info_value("eoa", "ahead") == 1098 == st.info_value("eoa", "est_ahead")
+    assert st.info_value("eoa", "max_safe_ahead") == 1083 and st.info_value("eoa", "min_safe_ahead") == 1113
+    # G2's real mark 3 m off along its own nominal direction (towards G1): found after 297 m run
+    # and 300 m measured; the onboard still believes 1098 m remain, really 1101 m do
+    import attrs
+    w = _relocation_world(REV)
+    w = attrs.evolve(w, legs=(Leg(False, FWD, F(297), F(300)), w.legs[1]),
+                     g2=attrs.evolve(w.g2, offset=F(3)))
+    st = State(_two(write_pack), w)
+    assert st.info_value("eoa", "est_ahead") == 1098 and st.info_value("eoa", "ahead") == 1101
+
+
 def test_the_encoding_agrees_on_the_hand_worked_relocations(write_pack):
     from verifier.differential import compare, flat, simulate
     from verifier.smt.concrete import Evaluator
     pack = _two(write_pack)
     ev = Evaluator(pack, 2)
     back = (Leg(False, FWD, F(400), F(400)), Leg(False, BWD, F(100), F(100)))
-    for w in (_relocation_world(REV), _relocation_world(NOM, F(12), F(3), F(1000)), _single_g2(),
+    import attrs
+    off = _relocation_world(REV)
+    off = attrs.evolve(off, legs=(Leg(False, FWD, F(297), F(300)), off.legs[1]), g2=attrs.evolve(off.g2, offset=F(3)))
+    for w in (_relocation_world(REV), off, _relocation_world(NOM, F(12), F(3), F(1000)), _single_g2(),
               _single_g2(g1_read=1), _single_g2(legs=back, at=2)):
         assert compare(simulate(pack, w), ev.evaluate(flat(w))) == []
     one = load_pack(write_pack(pack_text(rule_toml("r", "true"), extra=BOTH_WAYS), name="b.toml"))

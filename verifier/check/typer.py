@@ -194,6 +194,7 @@ def _resolve_name(env: _Env, node: ast.Name) -> ast.Node:
         env.reads.setdefault(f"info.*.{field}", (node.start, node.end - node.start))
         if kind == "onboard-output":
             env.deps.add(("onboard", f"info_{field}"))
+        env.deps.update(vocab.INFO_DEPENDS.get(field, ()))
         return _typed(node, ty, ref=("info", parts[1], field))
     if dotted in vocab.TWO_GROUPS and env.pack.scope.groups != 2:
         raise env.error(node, f"'{dotted}' names the second group: set [world] groups = 2")

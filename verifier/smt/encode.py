@@ -410,6 +410,13 @@ class _Terms:
         data = self.item_terms(item)
         if field in data:
             return data[field]
+        if field == "ahead":
+            return self.along(self.name("actual.orientation"), self.info_term(info_id, "real") - self.name("actual.front"))
+        if field in ("est_ahead", "max_safe_ahead", "min_safe_ahead"):
+            est = self.along(self.name("est.orientation"), self.info_term(info_id, "position") - self.name("est.front"))
+            if field == "max_safe_ahead":
+                return est - self.name("est.l_doubtunder")
+            return est + self.name("est.l_doubtover") if field == "min_safe_ahead" else est
         if field == "real" and ("real", info_id) in self._memo:
             return self._memo[("real", info_id)]
         if field == "real":

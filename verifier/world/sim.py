@@ -575,6 +575,12 @@ class _Values:
             return data[field]
         if field == "real":
             return self._info_real(item)
+        if field == "ahead":
+            return sign(self.get("actual.orientation")) * (self._info_real(item) - self.get("actual.front"))
+        if field in ("est_ahead", "max_safe_ahead", "min_safe_ahead"):
+            est = sign(self.get("est.orientation")) * (self.info_value(info_id, "position") - self.get("est.front"))
+            return {"est_ahead": est, "max_safe_ahead": est - self.get("est.l_doubtunder"),
+                    "min_safe_ahead": est + self.get("est.l_doubtover")}[field]
         key = (("onboard", f"info_{field}"), info_id)
         if key not in self._memo:
             self._memo[key] = evaluate(self.pack.definition(key[0]).node, self, {ITEM: data})

@@ -214,6 +214,18 @@ INFO_FIELDS = {
     "real": (LENGTH, NOBODY, "derived", "where the item really is, in the frame of the current LRBG (from the line data; a both-ways item at `at` from its group along the train's real orientation)"),
     "accepted": (BOOL, NOBODY, "onboard-output", "onboard formula info_accepted for this item"),
     "position": (LENGTH, NOBODY, "onboard-output", "onboard formula info_position for this item: where the onboard places it, current LRBG frame"),
+    # what a rule about an item needs (issue 16): the distance from the train to it, along the
+    # train orientation (positive: the item is ahead), as it really is and as the onboard believes
+    "ahead": (LENGTH, NOBODY, "derived", "distance from the real front end to the item's real place, along the real orientation (positive: ahead)"),
+    "est_ahead": (LENGTH, NOBODY, "derived", "distance from the estimated front end to where the onboard places the item (info.ID.position), along est.orientation (nominal when unknown)"),
+    "max_safe_ahead": (LENGTH, NOBODY, "derived", "the same from the max safe front end: est_ahead - est.l_doubtunder"),
+    "min_safe_ahead": (LENGTH, NOBODY, "derived", "the same from the min safe front end: est_ahead + est.l_doubtover"),
+}
+#: What the derived item fields read besides the world (for the dependency closure of a rule).
+INFO_DEPENDS = {
+    "est_ahead": (("onboard", "info_position"),),
+    "max_safe_ahead": (("onboard", "info_position"), ("onboard", "l_doubtunder")),
+    "min_safe_ahead": (("onboard", "info_position"), ("onboard", "l_doubtover")),
 }
 # SUBSET-026 3.6.3.1.3: only information valid for the train orientation is used; 3.6.3.1.4:
 # without an orientation, information for one direction only is rejected and information for
