@@ -66,3 +66,119 @@ def test_the_extremes_of_each_range_are_accepted(argv, tmp_path, monkeypatch, ca
     (tmp_path / "p.toml").write_text(FAST)
     assert main(argv + ["--no-cache", "--no-files"]) == 1      # 'bad' is violated
     assert "violated  bad" in capsys.readouterr().out
+
+
+# ---- 5. interrupts and workers -----------------------------------------------------------
+
+HARD = ("along(report.q_dirlrbg, actual.front - rbc.min_safe_front) >= 0 m and "
+        "along(report.q_dirlrbg, rbc.max_safe_front - actual.front) >= 0 m")
+# 'hard' takes z3 about 20 s at 4 legs on the 2-core CI machine (the first check alone more
+# than 3 s), so a signal sent a few seconds in arrives while z3 is solving it
+SLOW = pack_text(rule_toml("ok", "legs.count <= 4") + rule_toml("hard", HARD, "rbc.placed"), legs=4)
+SLOW2 = pack_text(rule_toml("hard", HARD, "rbc.placed") + rule_toml("hard2", HARD, "rbc.placed"), legs=4)
+
+
+def _start(tmp_path, text, *args):
+    (tmp_path / "p.toml").write_text(text)
+    env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    # SIGINT must be deliverable (a shell starts background jobs with it ignored, and Python
+    # then installs no KeyboardInterrupt handler)
+    # output to files, not pipes: a worker that outlives its parent would hold a pipe open
+    with open(tmp_path / "out.txt", "w") as out, open(tmp_path / "err.txt", "w") as err:
+        proc = subprocess.Popen([sys.executable, "-m", "verifier.cli", "check", "p.toml", *args],
+                                cwd=tmp_path, env=env, stdout=out, stderr=err,
+                                preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
+    proc.tmp = tmp_path
+    return proc
+
+
+def _alive(pid: int) -> bool:
+    try:
+        state = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()[0]
+    except OSError:
+        return False
+    return state != "Z"      # a zombie has exited (its new parent has not reaped it yet)
+
+
+def _workers(pid: int, n: int, wait: float = 8.0) -> list[int]:
+    """The pids of the pool's worker processes of ``pid`` once there are ``n`` of them."""
+    t0 = time.monotonic()
+    while time.monotonic() - t0 < wait:
+        kids = []
+        for stat in Path("/proc").glob("[0-9]*/stat"):
+            try:
+                fields = stat.read_text().rsplit(")", 1)[1].split()
+                cmd = (stat.parent / "cmdline").read_bytes()
+            except OSError:
+                continue
+            if int(fields[1]) == pid and b"spawn_main" in cmd:
+                kids.append(int(stat.parent.name))
+        if len(kids) >= n:
+            return kids
+        time.sleep(0.1)
+    raise AssertionError(f"no {n} workers of {pid} after {wait} s")
+
+
+def _finish(proc, timeout):
+    try:
+        proc.wait(timeout=timeout)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+        proc.wait()
+        raise AssertionError(f"still running {timeout} s after the signal") from None
+    return (proc.tmp / "out.txt").read_text(), (proc.tmp / "err.txt").read_text()
+
+
+@pytest.mark.skipif(sys.platform != "linux", reason="reads /proc")
+def test_ctrl_c_during_a_z3_check_stops_the_run_with_130_and_caches_only_finished_rules(tmp_path):
+    proc = _start(tmp_path, SLOW, "--no-files")
+    time.sleep(3.5)                      # 'ok' is done, z3 is inside the first check of 'hard'
+    assert proc.poll() is None
+    proc.send_signal(signal.SIGINT)
+    t0 = time.monotonic()
+    out, err = _finish(proc, 5)
+    assert proc.returncode == 130, (out, err)
+    assert "interrupted" in err and "Traceback" not in err
+    assert time.monotonic() - t0 < 3
+    assert "summary" not in out           # no verdicts for a run that did not finish
+    stored = [p for p in (tmp_path / ".verifier-cache").rglob("*.json") if not p.name.startswith(".")]
+    assert len(stored) == 1               # 'ok' only, never 'hard' as an interrupted unknown
+    assert not [p for p in (tmp_path / ".verifier-cache").rglob("*") if p.name.endswith(".tmp")]
+
+
+@pytest.mark.skipif(sys.platform != "linux", reason="reads /proc")
+def test_ctrl_c_to_the_parent_of_busy_workers_ends_them_at_once(tmp_path):
+    proc = _start(tmp_path, SLOW2, "--no-files", "--no-cache", "--jobs", "2")
+    workers = _workers(proc.pid, 2)
+    try:
+        time.sleep(1.0)
+        proc.send_signal(signal.SIGINT)          # the parent only, as `kill -INT` does
+        out, err = _finish(proc, 5)
+        assert proc.returncode == 130, (out, err)
+        assert "interrupted" in err and "internal error" not in err
+        t0 = time.monotonic()
+        while any(_alive(w) for w in workers) and time.monotonic() - t0 < 3:
+            time.sleep(0.05)
+        assert not [w for w in workers if _alive(w)]
+    finally:
+        for w in workers:
+            if _alive(w):
+                os.kill(w, signal.SIGKILL)
+
+
+@pytest.mark.skipif(sys.platform != "linux", reason="reads /proc")
+def test_workers_exit_when_the_parent_is_killed(tmp_path):
+    proc = _start(tmp_path, SLOW2, "--no-files", "--no-cache", "--jobs", "2")
+    workers = _workers(proc.pid, 2)
+    try:
+        time.sleep(1.0)                          # both are solving
+        proc.kill()
+        proc.wait()
+        t0 = time.monotonic()
+        while any(_alive(w) for w in workers) and time.monotonic() - t0 < 3:
+            time.sleep(0.05)
+        assert not [w for w in workers if _alive(w)], "workers outlived their killed parent"
+    finally:
+        for w in workers:
+            if _alive(w):
+                os.kill(w, signal.SIGKILL)

@@ -11,6 +11,10 @@ the order of the rules, whatever order the workers finish in.
 from __future__ import annotations
 
 import multiprocessing
+import os
+import signal
+import sys
+import threading
 import time
 from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
@@ -37,6 +41,46 @@ def _work(query, limits: dict):
     t0 = time.monotonic()
     solved = smtlib.solve_query(query, **limits)
     return solved, time.monotonic() - t0
+
+
+def _worker_init(parent: int) -> None:
+    """Each worker: exit when the parent process dies, and leave Ctrl-C to the parent.
+
+    Without this a worker whose parent was killed (SIGKILL, an OOM kill) goes on solving its
+    query to the end, and longer if its next one was queued. On Linux the kernel sends the
+    worker SIGKILL when its parent dies (prctl PR_SET_PDEATHSIG); everywhere, a daemon thread
+    also watches ``os.getppid()`` (z3 releases the GIL while it solves, so the thread runs).
+    SIGINT is ignored: the parent stops the workers itself (see :func:`_stop`), so a Ctrl-C
+    that reaches the whole process group never kills an idle worker, which would read as a
+    broken pool (an internal error) instead of an interrupt."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+            libc = ctypes.CDLL(None, use_errno=True)
+            libc.prctl(1, signal.SIGKILL, 0, 0, 0)     # PR_SET_PDEATHSIG = 1
+        except (OSError, AttributeError):              # pragma: no cover - no prctl
+            pass
+    if os.getppid() != parent:     # the parent died before the line above
+        os._exit(1)
+
+    def watch():
+        while os.getppid() == parent:
+            time.sleep(0.5)
+        os._exit(1)
+    threading.Thread(target=watch, name="verifier-parent-watch", daemon=True).start()
+
+
+def _stop(pool) -> None:
+    """Stop a pool now: cancel what is queued and end the workers, which may be in the middle
+    of a long z3 check (``shutdown`` alone would wait for it)."""
+    procs = list((getattr(pool, "_processes", None) or {}).values())   # shutdown forgets them
+    pool.shutdown(wait=False, cancel_futures=True)
+    for proc in procs:
+        try:
+            proc.terminate()
+        except (OSError, AttributeError):   # pragma: no cover - already gone
+            pass
 
 
 def _today(hit, pack, bound, evaluators: dict):
@@ -100,7 +144,8 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
         return
 
     ctx = multiprocessing.get_context("spawn")   # no z3 state inherited from this process
-    with ProcessPoolExecutor(max_workers=jobs, mp_context=ctx) as pool:
+    with ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_worker_init,
+                             initargs=(os.getpid(),)) as pool:
         futures = {}
         try:
             for i, (pack, rule, bound, key, hit) in enumerate(plan):
@@ -119,7 +164,6 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
                     raise InternalError(f"a worker process died while solving "
                                         f"{pack.name}/{rule.id}: {exc}") from None
                 yield done(key, solved, export_seconds + seconds)
-        except BaseException:
-            for future, _ in futures.values():
-                future.cancel()
+        except BaseException:     # Ctrl-C, or the caller gave up: nothing more is solved
+            _stop(pool)
             raise

@@ -38,6 +38,18 @@ class Solved:
     solver_seconds: float = 0.0       # wall time spent inside z3's check()
 
 
+# z3 catches SIGINT during a check itself: the check returns unknown with this reason and
+# Python never sees the signal. It is turned back into KeyboardInterrupt here, so that Ctrl-C
+# stops the run instead of reading as an undecided check (retried by legs, then finished).
+INTERRUPTED = "interrupted from keyboard"
+
+
+def raise_if_interrupted(solver, result) -> None:
+    """Raise KeyboardInterrupt if ``result`` of ``solver.check()`` is z3's answer to Ctrl-C."""
+    if result == z3.unknown and solver.reason_unknown() == INTERRUPTED:
+        raise KeyboardInterrupt
+
+
 class _Budget:
     def __init__(self, timeout: float):
         self.deadline = time.monotonic() + timeout
@@ -78,6 +90,7 @@ class _Session:
         t0 = time.perf_counter()
         r = s.check()
         self.seconds += time.perf_counter() - t0
+        raise_if_interrupted(s, r)
         try:
             # the count is kept per context, so the latest value is the total so far
             self.used = max(self.used, int(s.statistics().get_key_value("rlimit count")))
@@ -435,7 +448,9 @@ def vacuity_core(pack: Pack, rule: Rule, bound: int, *, rlimit: int = DEFAULT_RL
         mark = z3.Bool(f"given!{i}", ctx)
         s.add(z3.Implies(mark, term))
         marks.append(mark)
-    if s.check(*marks) != z3.unsat:
+    r = s.check(*marks)
+    raise_if_interrupted(s, r)
+    if r != z3.unsat:
         return None
     core = {str(c) for c in s.unsat_core()}
     return [text for (text, _), mark in zip(items, marks) if str(mark) in core]
