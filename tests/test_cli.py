@@ -102,7 +102,7 @@ def test_a_counterexample_of_a_rule_that_now_holds_is_kept_and_named(tmp_path, c
     assert main(["check", "p.toml"]) == 0
     err = capsys.readouterr().err
     assert cex.exists()
-    assert "note: counterexamples/t/r.json is from an earlier run: rule r is now holds" in err
+    assert "note: counterexamples/t/r.json is from an earlier run: rule r now holds" in err
 
 
 def test_no_path_and_no_rules_folder_says_what_the_default_is(tmp_path, capsys, monkeypatch):
