@@ -5,7 +5,10 @@ On the command line::
     pytest --verifier-pack rules/position-report.toml --verifier-impl mypkg.onboard:report
 
 adds one test item per rule of each pack (named ``verifier::<pack>::<rule id>``); a failing
-item prints the counterexample's story. In your own tests::
+item prints the counterexample's story. Given no test paths, such a run collects only those
+items (not the ``testpaths`` of the project's configuration); name test files or folders to
+run them as well. A pack or an implementation that cannot be loaded is one usage error line
+(exit 4), as ``verifier test`` makes it exit 2. In your own tests::
 
     @pytest.mark.verifier_pack("rules/position-report.toml")
     def test_report(verifier_rules):
@@ -36,6 +39,20 @@ def pytest_addoption(parser):
     g.addoption("--verifier-no-smt", action="store_true", help="no worlds from the solver")
 
 
+def _only_rules(config) -> bool:
+    """A --verifier-pack run without test paths of its own: collect nothing but the rules."""
+    if not config.getoption("verifier_pack", None):
+        return False
+    source = getattr(config, "args_source", None)
+    return source is not None and source is not pytest.Config.ArgsSource.ARGS
+
+
+def pytest_ignore_collect(collection_path, config):
+    if _only_rules(config):
+        return True
+    return None
+
+
 def pytest_configure(config):
     config.addinivalue_line("markers", "verifier_pack(*paths): the rule packs the verifier_rules "
                                        "fixture checks an implementation against")
@@ -60,6 +77,15 @@ class _Pack:
     """One pack with the implementation, and what its rules share (seeds, memo)."""
 
     def __init__(self, path: str, config):
+        from verifier.errors import PackError, VerifierError
+        try:
+            self._load(path, config)
+        except PackError as exc:
+            raise pytest.UsageError("\n".join(d.render() for d in exc.diagnostics)) from None
+        except VerifierError as exc:
+            raise pytest.UsageError(f"--verifier-pack {path}: {exc}") from None
+
+    def _load(self, path: str, config):
         from verifier.implcheck import interface
         from verifier.loader import load_pack
         self.pack = load_pack(path)
@@ -89,14 +115,16 @@ class VerifierRuleItem(pytest.Item):
     def runtest(self):
         session = self.packrun.run()
         outcome = session.rule(self.rule_id)
+        printed = session.chk.output.summary()
+        printed = f"\n\n({printed})" if printed else ""
         if outcome.status == "failed":
-            raise RuleFailed(session.story(outcome))
+            raise RuleFailed(session.story(outcome) + printed)
         if outcome.status == "not checked":
             pytest.skip(f"not checked: {outcome.message}")
         if session.findings:
             f = session.findings[0]
             raise RuleFailed(f"the implementation broke the interface: {f.kind}: {f.message}"
-                             + (f" (at {f.where})" if f.where else ""))
+                             + (f" (at {f.where})" if f.where else "") + printed)
 
     def repr_failure(self, excinfo):
         if isinstance(excinfo.value, RuleFailed):
@@ -125,7 +153,10 @@ def pytest_collection_modifyitems(session, config, items):
         packrun = _Pack(path, config)
         name = f"verifier::{packrun.pack.name}"
         col = VerifierPackCollector.from_parent(session, name=name, nodeid=name, packrun=packrun)
-        items.extend(col.collect())
+        mine = list(col.collect())
+        # reported as collected, so that the counts of the run ("15 tests collected") include them
+        config.hook.pytest_collectreport(report=pytest.CollectReport(name, "passed", None, mine))
+        items.extend(mine)
 
 
 class Oracle:
