@@ -255,6 +255,8 @@ def _impl_table(rep) -> str:
         lines.append(f"  contract    {f.kind}: {f.message}" + (f" (at {f.where})" if f.where else ""))
         if f.file:
             lines.append(f"              world: {f.file} (found by {f.found_by})")
+    if rep.output is not None and rep.output.bytes:
+        lines.append(f"  output      {rep.output.summary()}")
     counts: dict = {}
     for r in rep.rules:
         counts[r.status] = counts.get(r.status, 0) + 1

@@ -10,8 +10,12 @@ callable ``place(packet: Packet) -> Placement | dict | None`` that receives the 
 the train data and returns where it places the train (``None``: not placed).
 
 Everything returned is validated; a wrong type, a missing or unknown field, an out-of-range
-code, an exception or a time-out becomes a :class:`Finding` that says what and where, never a
-crash of the tool.
+code, an exception (any ``BaseException``: ``sys.exit`` and a ``KeyboardInterrupt`` the code
+raises itself included) or a time-out becomes a :class:`Finding` that says what and where, never
+a crash of the tool and never its exit code. Each call runs in a :class:`_Guard`: what it writes
+on stdout and stderr is captured (counted in :class:`Output`, never mixed with the verifier's
+own output), the working directory is put back, and a real Ctrl-C (SIGINT to the process) still
+stops the run.
 """
 
 from __future__ import annotations
@@ -19,10 +23,13 @@ from __future__ import annotations
 import hashlib
 import importlib
 import inspect
+import io
+import math
+import os
 import signal
 import sys
+import tempfile
 import threading
-import traceback
 from decimal import Decimal
 from fractions import Fraction
 from pathlib import Path
@@ -156,6 +163,7 @@ class Loaded:
     fn: object = attrs.field(eq=False, repr=False)
     module_file: str          # the module's file, as a path relative to the working directory when below it
     module_sha256: str        # sha256 of that file's bytes ("" when it has no file)
+    output: object = attrs.field(default=None, eq=False, repr=False)   # Output of its import, or None
 
 
 def load(spec: str, search: tuple = ()) -> Loaded:
@@ -170,23 +178,38 @@ def load(spec: str, search: tuple = ()) -> Loaded:
             sys.path.insert(0, p)
     if str(Path.cwd()) not in sys.path and "" not in sys.path:
         sys.path.insert(0, str(Path.cwd()))
+    output = Output()
+    guard = _Guard(None, output)
     try:
-        module = importlib.import_module(mod_name)
-    except Exception as exc:   # noqa: BLE001 - any import failure is the user's to see
-        raise UsageError(f"cannot import {mod_name!r} for {spec}: {type(exc).__name__}: {exc}") from None
-    fn = module
-    for part in fn_name.split("."):
-        fn = getattr(fn, part, None)
-        if fn is None:
-            names = [n for n in dir(module) if not n.startswith("_") and callable(getattr(module, n))]
-            from verifier.errors import suggest
-            raise UsageError(f"module {mod_name} has no {fn_name!r}" + suggest(fn_name, names))
+        with guard:       # the module's own code runs here: its prints, exits and chdir stay inside
+            module = importlib.import_module(mod_name)
+            fn = module
+            for part in fn_name.split("."):
+                fn = getattr(fn, part, None)
+                if fn is None:
+                    break
+            path = getattr(module, "__file__", None)
+            path = path if isinstance(path, str) else None
+    except KeyboardInterrupt:
+        if guard.sigint:
+            raise                       # a real Ctrl-C
+        raise UsageError(f"cannot import {mod_name!r} for {spec}: it raised KeyboardInterrupt "
+                         "itself (no Ctrl-C reached the verifier)") from None
+    except SystemExit as exc:
+        raise UsageError(f"cannot import {mod_name!r} for {spec}: it called sys.exit"
+                         f"({'' if exc.code is None else _show(exc.code)}) while being imported") from None
+    except BaseException as exc:  # noqa: BLE001 - any import failure is the user's to see
+        raise UsageError(f"cannot import {mod_name!r} for {spec}: {_raised(exc)}") from None
+    if fn is None:
+        names = [n for n in dir(module) if not n.startswith("_") and callable(getattr(module, n, None))]
+        from verifier.errors import suggest
+        raise UsageError(f"module {mod_name} has no {fn_name!r}" + suggest(fn_name, names))
     if not callable(fn):
         raise UsageError(f"{spec} is not callable")
-    return _loaded(spec, fn, getattr(module, "__file__", None))
+    return _loaded(spec, fn, path, output)
 
 
-def _loaded(spec: str, fn, path) -> Loaded:
+def _loaded(spec: str, fn, path, output=None) -> Loaded:
     """A Loaded, with its module file shown relative to the working directory and hashed."""
     digest, shown = "", ""
     if path:
@@ -195,7 +218,7 @@ def _loaded(spec: str, fn, path) -> Loaded:
             shown = Path(path).resolve().relative_to(Path.cwd().resolve()).as_posix()
         except ValueError:
             shown = Path(path).as_posix()
-    return Loaded(spec, fn, shown, digest)
+    return Loaded(spec, fn, shown, digest, output)
 
 
 def wrap(fn) -> Loaded:
@@ -219,56 +242,305 @@ class _TimeUp(BaseException):
     through the implementation's own ``except Exception``)."""
 
 
-def _call(fn, arg, timeout: float | None):
-    """fn(arg), interrupted after ``timeout`` seconds where a timer signal can do it (the main
-    thread of a Unix process); elsewhere without a limit."""
-    usable = (timeout and hasattr(signal, "setitimer")
-              and threading.current_thread() is threading.main_thread())
-    if not usable:
-        return fn(arg)
+class Output:
+    """What an implementation wrote on stdout and stderr (``print``, ``sys.stdout``, the file
+    descriptors 1 and 2 themselves, a subprocess that inherits them), kept out of the verifier's
+    own output: bytes in all, the calls that wrote something and the first :data:`KEEP`
+    characters."""
 
-    def alarm(signum, frame):
-        raise _TimeUp()
+    KEEP = 2000
 
-    old = signal.signal(signal.SIGALRM, alarm)
-    signal.setitimer(signal.ITIMER_REAL, timeout)
-    try:
-        return fn(arg)
-    finally:
-        signal.setitimer(signal.ITIMER_REAL, 0)
-        signal.signal(signal.SIGALRM, old)
+    def __init__(self):
+        self.bytes = 0
+        self.calls = 0
+        self.head = ""
+
+    def add(self, text: str, nbytes: int | None = None) -> None:
+        if not text and not nbytes:
+            return
+        self.bytes += len(text.encode("utf-8", "replace")) if nbytes is None else nbytes
+        if len(self.head) < self.KEEP:
+            self.head = (self.head + text)[:self.KEEP]
+
+    def merge(self, other) -> None:
+        if other is not None and other.bytes:
+            self.bytes += other.bytes
+            self.calls += other.calls
+            self.head = (self.head + other.head)[:self.KEEP]
+
+    def summary(self) -> str:
+        """One line for the report ("" when nothing was written)."""
+        if not self.bytes:
+            return ""
+        first = self.head.strip().splitlines()[0][:100] if self.head.strip() else ""
+        return (f"the implementation wrote {self.bytes:,} bytes on stdout/stderr in {self.calls:,} "
+                f"call{'s' if self.calls != 1 else ''} (captured, not shown)"
+                + (f"; it began {first!r}" if first else ""))
+
+    def as_json(self) -> dict:
+        return {"bytes": self.bytes, "calls": self.calls, "head": self.head[:200]}
+
+
+_CAPTURE: list = []     # the temporary file that fd 1 and 2 point at during a call (one a process)
+
+
+def _capture_fd() -> int:
+    if not _CAPTURE:
+        _CAPTURE.append(tempfile.TemporaryFile())
+    return _CAPTURE[0].fileno()
+
+
+class _Sink(io.TextIOBase):
+    """sys.stdout and sys.stderr during a call: counts what is written, keeps the beginning."""
+
+    def __init__(self, output: Output):
+        super().__init__()
+        self.output, self.wrote = output, False
+
+    @property
+    def encoding(self):
+        return "utf-8"
+
+    def write(self, text) -> int:
+        text = text if type(text) is str else _show(text)
+        self.wrote = self.wrote or bool(text)
+        self.output.add(text)
+        return len(text)
+
+    def writable(self) -> bool:
+        return True
+
+    def isatty(self) -> bool:
+        return False
+
+    @property
+    def buffer(self):
+        """``sys.stdout.buffer``: bytes, counted the same way."""
+        return _BinarySink(self)
+
+
+class _BinarySink(io.RawIOBase):
+    def __init__(self, text: _Sink):
+        super().__init__()
+        self.text = text
+
+    def writable(self) -> bool:
+        return True
+
+    def write(self, data) -> int:
+        data = bytes(data)
+        self.text.wrote = self.text.wrote or bool(data)
+        self.text.output.add(data.decode("utf-8", "replace"), len(data))
+        return len(data)
+
+
+class _Guard:
+    """Around one call of user code: a time limit (SIGALRM, main thread of a Unix process), a
+    SIGINT handler that notes a real Ctrl-C (``sigint``; a ``KeyboardInterrupt`` without one
+    was raised by the code itself), stdout and stderr captured into ``output`` (Python's
+    streams and the file descriptors), and afterwards the streams, the signal handlers and the
+    working directory as they were."""
+
+    def __init__(self, timeout: float | None, output: Output | None):
+        self.timeout, self.output = timeout, output
+        self.sigint = False
+        self._armed = False
+
+    def __enter__(self):
+        main = threading.current_thread() is threading.main_thread()
+        self._cwd = os.getcwd()
+        self._signals = {}
+        if main:
+            old_int = signal.getsignal(signal.SIGINT)
+            if callable(old_int):   # SIG_IGN and SIG_DFL: no KeyboardInterrupt comes of a SIGINT
+                def on_sigint(signum, frame, old=old_int):
+                    self.sigint = True
+                    old(signum, frame)
+                self._signals[signal.SIGINT] = old_int
+                signal.signal(signal.SIGINT, on_sigint)
+            if self.timeout and hasattr(signal, "setitimer"):
+                def alarm(signum, frame):
+                    if self._armed:
+                        # again soon, in case this one lands where it is swallowed (a gc
+                        # callback, the code's own ``except BaseException``)
+                        signal.setitimer(signal.ITIMER_REAL, 0.1)
+                        raise _TimeUp()
+                self._signals[signal.SIGALRM] = signal.signal(signal.SIGALRM, alarm)
+        self._streams = (sys.stdout, sys.stderr)
+        self._fds = None
+        if self.output is not None:
+            for stream in self._streams:
+                try:
+                    stream.flush()
+                except Exception:  # noqa: BLE001 - a stream that cannot flush has nothing to lose
+                    pass
+            try:
+                saved = (os.dup(1), os.dup(2))
+            except OSError:        # no fd 1 or 2 (closed): nothing can reach them anyway
+                pass
+            else:
+                tmp = _capture_fd()
+                os.ftruncate(tmp, 0)
+                os.lseek(tmp, 0, os.SEEK_SET)
+                os.dup2(tmp, 1)
+                os.dup2(tmp, 2)
+                self._fds = saved
+            self._sink = _Sink(self.output)
+            sys.stdout = sys.stderr = self._sink
+        if signal.SIGALRM in self._signals:
+            self._armed = True
+            signal.setitimer(signal.ITIMER_REAL, self.timeout)
+        return self
+
+    def __exit__(self, *exc) -> bool:
+        self._armed = False
+        if signal.SIGALRM in self._signals:
+            signal.setitimer(signal.ITIMER_REAL, 0)
+        if self.output is not None:
+            wrote = self._sink.wrote
+            for stream in (sys.__stdout__, sys.__stderr__):   # written to directly, still buffered
+                try:
+                    if stream is not None:
+                        stream.flush()
+                except Exception:  # noqa: BLE001
+                    pass
+            sys.stdout, sys.stderr = self._streams
+            if self._fds is not None:
+                os.dup2(self._fds[0], 1)
+                os.dup2(self._fds[1], 2)
+                os.close(self._fds[0])
+                os.close(self._fds[1])
+                tmp = _capture_fd()
+                size = os.fstat(tmp).st_size
+                if size:
+                    room = max(0, Output.KEEP - len(self.output.head))
+                    self.output.add(os.pread(tmp, room, 0).decode("utf-8", "replace") if room else "", size)
+                    wrote = True
+            self.output.calls += wrote
+        else:
+            sys.stdout, sys.stderr = self._streams
+        for sig, old in self._signals.items():
+            signal.signal(sig, old)
+        try:
+            if os.getcwd() != self._cwd:
+                os.chdir(self._cwd)
+        except OSError:
+            os.chdir(self._cwd)
+        return False
+
+
+_MINE = {__file__, str(Path(__file__).resolve())}
 
 
 def _where(exc: BaseException, fn) -> str:
-    """The innermost frame of the implementation's code in a traceback, as file:line."""
-    frames = traceback.extract_tb(exc.__traceback__)
-    mine = Path(__file__).resolve()
-    frames = [f for f in frames if Path(f.filename).resolve() != mine]
-    if not frames:
+    """The innermost frame of the implementation's code in a traceback, as file:line. Walks the
+    traceback without resolving or reading any file but the one frame it names (a
+    RecursionError has a thousand frames)."""
+    tb, last = exc.__traceback__, None
+    while tb is not None:
+        name = tb.tb_frame.f_code.co_filename
+        if name not in _MINE:
+            last = (name, tb.tb_lineno)
+        tb = tb.tb_next
+    if last is None:
         try:
             return f"{inspect.getsourcefile(fn)}:{inspect.getsourcelines(fn)[1]}"
         except (TypeError, OSError):
             return ""
-    f = frames[-1]
+    name, line = last
     try:
-        name = Path(f.filename).resolve().relative_to(Path.cwd().resolve()).as_posix()
-    except ValueError:
-        name = f.filename
-    return f"{name}:{f.lineno}"
+        name = Path(name).resolve().relative_to(Path.cwd().resolve()).as_posix()
+    except (ValueError, OSError):
+        pass
+    return f"{name}:{line}"
+
+
+def _show(x, limit: int = 80, typed: bool = False) -> str:
+    """A returned value in a message, whatever it is: a very long whole number by its count of
+    digits, anything whose repr fails by its type, the rest by its repr cut at ``limit``
+    (after its type's name when ``typed``)."""
+    name = type(x).__name__
+    if isinstance(x, int) and not isinstance(x, bool):
+        v = int.__int__(x)
+        if v.bit_length() > 200:
+            digits = int((v.bit_length() - 1) * math.log10(2)) + 1
+            digits += abs(v) >= 10 ** digits
+            return f"a whole number of {digits:,} digits"
+        text = repr(v)
+    else:
+        try:
+            text = repr(x)
+            if type(text) is not str:
+                raise TypeError("__repr__ returned no str")
+        except BaseException as exc:  # noqa: BLE001 - the value's own code failed
+            return f"a {name} whose repr raised {type(exc).__name__}"
+    text = text if len(text) <= limit else text[:limit] + "..."
+    return f"{name} {text}" if typed or (type(x) is not int and isinstance(x, int)) else text
+
+
+def _raised(exc: BaseException) -> str:
+    """What an exception says, safely (its __str__ is the user's code too), cut short."""
+    name = type(exc).__name__
+    if isinstance(exc, SystemExit):
+        code = exc.code
+        shown = "" if code is None else (_show(code) if not isinstance(code, str) else _show(code, 200))
+        return f"SystemExit (sys.exit({shown})): an implementation must return, not exit"
+    if isinstance(exc, KeyboardInterrupt):
+        return "KeyboardInterrupt, raised by the code itself (no Ctrl-C reached the verifier)"
+    try:
+        text = str(exc)
+        if type(text) is not str:
+            raise TypeError("__str__ returned no str")
+    except BaseException as inner:  # noqa: BLE001
+        text = f"(its message could not be read: {type(inner).__name__})"
+    text = text if len(text) <= 300 else text[:300] + "..."
+    return f"{name}: {text}" if text else name
+
+
+LENGTH_DIGITS = 1000    # digits a returned length's numerator or denominator may have
+
+
+def _code(v, name: str, who: str) -> int:
+    """A returned packet code as a plain int (an int subclass, an IntEnum say, by its value:
+    none of its own methods is called), in its range."""
+    if isinstance(v, bool) or not isinstance(v, int):
+        raise _Bad("wrong type", f"{who} field {name!r} must be a whole number (a packet code), "
+                                 f"got {_show(v, typed=True)}")
+    v = int.__int__(v)
+    lo, hi = CODE_RANGE[name]
+    if not lo <= v <= hi:
+        raise _Bad("out of range", f"{who} field {name!r} is {_show(v)}, outside the code range {lo}..{hi}")
+    return v
 
 
 def _exact(x, name: str, who: str):
-    """A returned length as an exact Fraction (int, Fraction, Decimal, float or numeric text)."""
+    """A returned length as an exact Fraction (int, Fraction, Decimal or float; a subclass of
+    int or float by its value), at most :data:`LENGTH_DIGITS` digits above and below the line."""
     if isinstance(x, bool):
         raise _Bad("wrong type", f"{who} field {name!r} must be a length in metres, got {x!r}")
-    if isinstance(x, (int, Fraction)):
-        return F(x)
-    if isinstance(x, (float, Decimal)):
+    if isinstance(x, int):
+        v = F(int.__int__(x))
+    elif isinstance(x, float):
+        x = float.__float__(x)
         if x != x or x in (float("inf"), float("-inf")):
             raise _Bad("out of range", f"{who} field {name!r} is {x!r}")
-        return F(str(x)) if isinstance(x, float) else F(x)
-    raise _Bad("wrong type", f"{who} field {name!r} must be a length in metres (a number), "
-                             f"got {type(x).__name__} {x!r}")
+        v = F(str(x))
+    elif isinstance(x, Decimal):
+        if Decimal.is_nan(x) or Decimal.is_infinite(x):
+            raise _Bad("out of range", f"{who} field {name!r} is {_show(x)}")
+        if abs(Decimal.as_tuple(x).exponent) > LENGTH_DIGITS:
+            raise _Bad("out of range", f"{who} field {name!r} is {_show(x)}: more than "
+                                       f"{LENGTH_DIGITS:,} digits")
+        v = F(x)
+    elif isinstance(x, Fraction):
+        v = F(x)
+    else:
+        raise _Bad("wrong type", f"{who} field {name!r} must be a length in metres (a number), "
+                                 f"got {_show(x, typed=True)}")
+    if max(v.numerator.bit_length(), v.denominator.bit_length()) > LENGTH_DIGITS * 3.33:
+        raise _Bad("out of range", f"{who} field {name!r} is a length of more than {LENGTH_DIGITS:,} "
+                                   "digits (numerator or denominator)")
+    return v
 
 
 class _Bad(Exception):
@@ -278,34 +550,42 @@ class _Bad(Exception):
 
 
 def _fields(out, cls, who: str) -> dict:
+    """The returned fields by plain str name. A dict (or a subclass) is read with dict's own
+    methods, its keys by their str value, so that nothing of the returned object's own code
+    runs here (its repr only in a message, guarded)."""
     if isinstance(out, cls):
         return attrs.asdict(out, recurse=False)
     if isinstance(out, dict):
         allowed = set(attrs.fields_dict(cls))
-        unknown = sorted(str(k) for k in out if k not in allowed)
+        d, unknown = {}, []
+        for k, v in dict.items(out):
+            if isinstance(k, str):
+                k = str.__str__(k)
+                if k in allowed:
+                    d[k] = v
+                    continue
+            unknown.append(k)
         if unknown:
             from verifier.errors import suggest
-            raise _Bad("unknown field", f"{who} returned an unknown field {unknown[0]!r}"
-                       + suggest(unknown[0], allowed))
-        return dict(out)
+            first = min(unknown, key=lambda k: (not isinstance(k, str), k if isinstance(k, str) else ""))
+            if isinstance(first, str):
+                return_msg = f"{who} returned an unknown field {_show(first)}" + suggest(first, allowed)
+            else:
+                return_msg = (f"{who} returned a key that is not a field name: "
+                              f"{_show(first, typed=True)}")
+            raise _Bad("unknown field", return_msg)
+        return d
     raise _Bad("wrong type", f"{who} must return a {cls.__name__} or a dict, got "
-                             f"{type(out).__name__} {out!r:.80}")
+                             f"{_show(out, typed=True)}")
 
 
 def validate_report(out, who: str = "the onboard implementation") -> Report:
     d = _fields(out, Report, who)
     codes = {}
     for name in REPORT_CODES:
-        if name not in d or d[name] is None:
+        if d.get(name) is None:
             raise _Bad("missing field", f"{who} returned no {name!r}")
-        v = d[name]
-        if isinstance(v, bool) or not isinstance(v, int):
-            raise _Bad("wrong type", f"{who} field {name!r} must be a whole number (a packet code), "
-                                     f"got {type(v).__name__} {v!r}")
-        lo, hi = CODE_RANGE[name]
-        if not lo <= v <= hi:
-            raise _Bad("out of range", f"{who} field {name!r} is {v}, outside the code range {lo}..{hi}")
-        codes[name] = v
+        codes[name] = _code(d[name], name, who)
     lengths = {}
     for name in REPORT_LENGTHS:
         v = d.get(name)
@@ -319,25 +599,42 @@ def validate_placement(out, who: str = "the trackside implementation") -> Placem
     d = _fields(out, Placement, who)
     vals = {}
     for name in PLACEMENT_LENGTHS:
-        if name not in d or d[name] is None:
+        if d.get(name) is None:
             raise _Bad("missing field", f"{who} returned no {name!r}")
         vals[name] = _exact(d[name], name, who)
     return Placement(**vals)
 
 
-def call_checked(loaded: Loaded, arg, validate, timeout: float | None = DEFAULT_CALL_TIMEOUT):
-    """Call an implementation and validate what it returns: (value, None) or (None, Finding)."""
+def call_checked(loaded: Loaded, arg, validate, timeout: float | None = DEFAULT_CALL_TIMEOUT,
+                 output: Output | None = None):
+    """Call an implementation and validate what it returns: (value, None) or (None, Finding).
+    Both run inside a :class:`_Guard` (the time limit counts the validation too: a returned
+    value's own methods are the user's code). Any exception is a finding, but a
+    ``KeyboardInterrupt`` that follows a real SIGINT, which stops the run."""
     who = f"{loaded.spec}"
+    stage = ["call"]
+    guard = _Guard(timeout, output if output is not None else Output())
     try:
-        out = _call(loaded.fn, arg, timeout)
+        with guard:
+            out = loaded.fn(arg)
+            stage[0] = "validate"
+            value = validate(out, who)
     except _TimeUp:
         return None, Finding("time-out", f"{who} did not return within {timeout:g} s")
-    except Exception as exc:  # noqa: BLE001 - the implementation's failure is a finding
-        return None, Finding("exception", f"{who} raised {type(exc).__name__}: {exc}", _where(exc, loaded.fn))
-    try:
-        return validate(out, who), None
     except _Bad as bad:
         return None, Finding(bad.kind, bad.message)
+    except KeyboardInterrupt as exc:
+        if guard.sigint:
+            raise
+        return None, Finding("exception", f"{who} raised {_raised(exc)}", _where(exc, loaded.fn))
+    except BaseException as exc:  # noqa: BLE001 - the implementation's failure is a finding
+        if stage[0] == "call":
+            return None, Finding("exception", f"{who} raised {_raised(exc)}", _where(exc, loaded.fn))
+        return None, Finding("wrong type", f"{who} returned a value that cannot be read: reading it "
+                             f"raised {_raised(exc)}", _where(exc, loaded.fn))
+    if guard.sigint:           # a Ctrl-C the implementation swallowed still stops the run
+        raise KeyboardInterrupt
+    return value, None
 
 
 def packet_of(report: Report, world: World) -> Packet:

@@ -33,7 +33,7 @@ from pathlib import Path
 import attrs
 
 from verifier.check.model import Pack, Rule
-from verifier.implcheck.interface import (DEFAULT_CALL_TIMEOUT, Finding, Loaded, call_checked,
+from verifier.implcheck.interface import (DEFAULT_CALL_TIMEOUT, Finding, Loaded, Output, call_checked,
                                           observe, packet_of, validate_placement, validate_report)
 from verifier.implcheck.state import ImplState, NotReturned
 from verifier.world.sim import World, applies, evaluate, holds, scope_problems
@@ -95,6 +95,7 @@ class ImplReport:
     findings: tuple               # ContractFinding
     calls: int
     seconds: float
+    output: Output | None = attrs.field(default=None, eq=False)   # what the implementation printed
 
     def exit_code(self) -> int:
         if self.findings or any(r.status == "failed" for r in self.rules):
@@ -112,7 +113,8 @@ class ImplReport:
                            "found_by": r.found_by or None, "counterexample": r.counterexample,
                            "message": r.message} for r in self.rules],
                 "contract": [{"kind": f.kind, "message": f.message, "where": f.where or None,
-                              "file": f.file, "found_by": f.found_by} for f in self.findings]}
+                              "file": f.file, "found_by": f.found_by} for f in self.findings],
+                "captured_output": (self.output or Output()).as_json()}
 
 
 def _loaded_json(x: Loaded) -> dict:
@@ -130,6 +132,9 @@ class Checker:
         self.timeouts = 0
         self._hung = None
         self._memo: dict = {}
+        self.output = Output()      # what the implementations wrote, at import and in calls
+        for loaded in (onboard, trackside):
+            self.output.merge(getattr(loaded, "output", None))
 
     def state(self, world: World):
         """The ImplState of a world, or the Finding of the call that broke the interface. After
@@ -142,13 +147,13 @@ class Checker:
             return self._hung
         self.calls += 1
         report, finding = call_checked(self.onboard, observe(world, self.pack.scope),
-                                       validate_report, self.timeout)
+                                       validate_report, self.timeout, self.output)
         out = finding
         if finding is None:
             placement = None
             if self.trackside is not None:
                 placement, finding = call_checked(self.trackside, packet_of(report, world),
-                                                  validate_placement, self.timeout)
+                                                  validate_placement, self.timeout, self.output)
             if finding is not None:
                 out = finding
             else:
@@ -432,6 +437,9 @@ class Session:
             raise UsageError(f"pack {pack.name} has two groups: the implementation interface "
                              "(docs/implementations.md) observes one group only, so far")
         self.t0 = time.monotonic()
+        # where files go, fixed now: the implementation's code may change the working directory
+        self.out = None if opts.out is None else (Path(opts.out), Path(opts.out).absolute())
+        opts = attrs.evolve(opts, archive_dir=Path(opts.archive_dir).absolute())
         self.pack, self.onboard, self.trackside, self.opts = pack, onboard, trackside, opts
         self.strategy = world_strategy
         self.chk = Checker(pack, onboard, trackside, opts.call_timeout)
@@ -502,9 +510,11 @@ class Session:
     def report(self) -> ImplReport:
         outcomes = self.all()
         report = ImplReport(self.pack.name, self.pack.path, self.onboard, self.trackside,
-                            tuple(outcomes), self.findings, self.chk.calls, time.monotonic() - self.t0)
-        if self.opts.out is not None:
-            report = write_files(report, self.pack, self.chk, self.opts.out)
+                            tuple(outcomes), self.findings, self.chk.calls, time.monotonic() - self.t0,
+                            self.chk.output)
+        if self.out is not None:
+            shown, absolute = self.out
+            report = write_files(report, self.pack, self.chk, absolute, shown)
             for r in report.rules:
                 if r.counterexample:
                     self._outcomes[r.rule] = r
@@ -601,10 +611,13 @@ def implementation_block(onboard: Loaded, trackside: Loaded | None) -> dict:
             "trackside": _loaded_json(trackside) if trackside is not None else None}
 
 
-def write_files(report: ImplReport, pack: Pack, chk: Checker, out: Path) -> ImplReport:
-    """Counterexample files (the usual format, with the implementation) and contract findings."""
+def write_files(report: ImplReport, pack: Pack, chk: Checker, out: Path, shown: Path | None = None) -> ImplReport:
+    """Counterexample files (the usual format, with the implementation) and contract findings,
+    written under ``out`` and named in the report as under ``shown`` (the same folder as the
+    user spelt it; default ``out``)."""
     from verifier.evidence import cexfile, diagram
     folder = impl_dir(out, pack, report.onboard)
+    named = impl_dir(shown if shown is not None else out, pack, report.onboard)
     rules = []
     for r in report.rules:
         if r.status != "failed":
@@ -617,7 +630,7 @@ def write_files(report: ImplReport, pack: Pack, chk: Checker, out: Path) -> Impl
         target = folder / f"{rule.id}.json"
         cexfile.write_atomic(target, cexfile.dumps(doc))
         diagram.write_beside(target, doc, rule, st)
-        rules.append(attrs.evolve(r, counterexample=target.as_posix()))
+        rules.append(attrs.evolve(r, counterexample=(named / target.name).as_posix()))
     findings = []
     for f in report.findings:
         from verifier.world.scenario import world_to_data
@@ -628,7 +641,7 @@ def write_files(report: ImplReport, pack: Pack, chk: Checker, out: Path) -> Impl
                "world": world_to_data(f.world)}
         target = folder / f"contract-{f.kind.replace(' ', '-')}.json"
         cexfile.write_atomic(target, cexfile.dumps(doc))
-        findings.append(attrs.evolve(f, file=target.as_posix()))
+        findings.append(attrs.evolve(f, file=(named / target.name).as_posix()))
     return attrs.evolve(report, rules=tuple(rules), findings=tuple(findings))
 
 
