@@ -102,6 +102,17 @@ def test_a_fifo_is_refused_without_blocking(tmp_path, guard):
     assert discover([tmp_path]) == []
 
 
+@pytest.mark.parametrize("command", ["show", "simulate", "replay"])
+def test_a_fifo_given_to_show_simulate_or_replay_is_refused_without_blocking(tmp_path, guard, capsys, command):
+    from verifier.cli import main
+    fifo = tmp_path / "pipe.json"
+    os.mkfifo(fifo)
+    args = [command, str(fifo)] + (["--pack", "rules/position-report.toml"] if command == "simulate" else [])
+    code = main(args)
+    err = capsys.readouterr()
+    assert code in (1, 2) and "not a regular file (a FIFO)" in err.err + err.out
+
+
 @pytest.mark.skipif(not Path("/dev/zero").exists(), reason="no /dev/zero")
 def test_dev_zero_is_refused_without_reading_it(guard):
     (d,) = _diags("/dev/zero", "/dev/zero")

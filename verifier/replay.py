@@ -9,6 +9,7 @@ import attrs
 
 from verifier.errors import Diagnostic, PackError
 from verifier.evidence import cexfile
+from verifier.lang.source import read_regular_text
 from verifier.world.scenario import world_from_data
 from verifier.world.sim import State, applies, evaluate, scope_problems
 
@@ -24,8 +25,8 @@ class Outcome:
 def read_counterexample(path: Path) -> dict:
     shown = path.as_posix()
     try:
-        doc = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+        doc = json.loads(read_regular_text(path, shown, "the file"))
+    except (OSError, json.JSONDecodeError) as exc:
         raise PackError([Diagnostic(shown, getattr(exc, "lineno", 1), getattr(exc, "colno", 1),
                                     f"not a counterexample file: {exc}")]) from None
     fmt = doc.get("format") if isinstance(doc, dict) else None
@@ -121,8 +122,8 @@ def replay_file(path: Path, impl: str | None = None, search: tuple = ()) -> Outc
         return replay_induction(path)
     shown = path.as_posix()
     try:
-        head = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError):
+        head = json.loads(read_regular_text(path, shown, "the file"))
+    except (OSError, PackError, json.JSONDecodeError):
         head = None
     if isinstance(head, dict) and (head.get("format") == "verifier-contract/1" or "implementation" in head):
         from verifier.implcheck.replay import replay_impl_file

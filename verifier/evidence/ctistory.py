@@ -17,6 +17,7 @@ from verifier.errors import Diagnostic, PackError
 from verifier.evidence import cexfile
 from verifier.evidence.story import (LOOSE, _count_leaves, _diff, _Doc, _find_pack, comparison_words, m,
                                      require_fields)
+from verifier.lang.source import read_regular_text
 from verifier.world.scenario import snapshot_from_data, world_from_data
 
 PREFIX = "verifier-induction/"
@@ -37,8 +38,8 @@ class ExplainedInduction:
 def is_induction_file(path: Path) -> bool:
     """Whether a JSON file claims to be a counterexample to induction (by its format field)."""
     try:
-        doc = json.loads(Path(path).read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError):
+        doc = json.loads(read_regular_text(path, Path(path).as_posix(), "the file"))
+    except (OSError, PackError, json.JSONDecodeError):
         return False
     return isinstance(doc, dict) and isinstance(doc.get("format"), str) and doc["format"].startswith(PREFIX)
 
@@ -46,9 +47,9 @@ def is_induction_file(path: Path) -> bool:
 def read_file(path: Path) -> _Doc:
     shown = path.as_posix()
     try:
-        text = path.read_text(encoding="utf-8")
+        text = read_regular_text(path, shown, "the file")
         doc = json.loads(text)
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+    except (OSError, json.JSONDecodeError) as exc:
         raise PackError([Diagnostic(shown, 1, 1, f"cannot read the file: {exc}")]) from None
     d = _Doc(shown, text, doc)
     if not isinstance(doc, dict) or doc.get("format") != cexfile.INDUCTION_FORMAT:

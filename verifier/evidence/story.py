@@ -22,9 +22,10 @@ from verifier.check.model import Pack, Rule
 from verifier.errors import Diagnostic, PackError, VerifierError, visible
 from verifier.evidence import cexfile
 from verifier.lang.ast import LENGTH
+from verifier.lang.source import read_regular_text
 from verifier.world.scenario import fmt, world_from_data
-from verifier.world.vocab import Direction
 from verifier.world.sim import State, applies, evaluate, scope_problems
+from verifier.world.vocab import Direction
 
 FORMAT_PREFIX = "verifier-counterexample/"
 # fields that are compared loosely: the tool that wrote the file and the caution wording may be
@@ -142,8 +143,8 @@ def read_file(path: Path) -> _Doc:
     """Parse a counterexample file and check its format field (not yet its values)."""
     shown = path.as_posix()
     try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
+        text = read_regular_text(path, shown, "the file")
+    except OSError as exc:
         raise PackError([Diagnostic(shown, 1, 1, f"cannot read the file: {exc}")]) from None
     try:
         doc = json.loads(text)

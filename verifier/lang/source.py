@@ -50,6 +50,15 @@ def read_regular(path, shown: str, what: str = "pack") -> bytes:
         raise refuse(f"larger than {MAX_FILE_BYTES // (1024 * 1024)} MB")
     return data
 
+
+def read_regular_text(path, shown: str, what: str) -> str:
+    """:func:`read_regular`, decoded as UTF-8 (a file that is not UTF-8 is a PackError too)."""
+    try:
+        return read_regular(path, shown, what).decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise PackError([Diagnostic(shown, 1, 1, f"cannot read {what}: not UTF-8 ({exc.reason} "
+                                    f"at byte {exc.start})")]) from None
+
 _HEADER = re.compile(r"^\s*(\[\[?)\s*([A-Za-z0-9_.\-\" ]+?)\s*\]\]?\s*(#.*)?$")
 _KEY = re.compile(r"^(\s*)([A-Za-z0-9_\-]+|\"[^\"]*\")\s*=\s*")
 

@@ -9,6 +9,7 @@ from fractions import Fraction
 from pathlib import Path
 
 from verifier.errors import Diagnostic, PackError
+from verifier.lang.source import read_regular_text
 from verifier.world.numbers import fmt  # noqa: F401 - re-exported: scenario.fmt is public
 from verifier.world.sim import Group2, Leg, World
 from verifier.world.vocab import Direction, Running
@@ -196,8 +197,8 @@ def read_scenario(path: str | Path) -> World:
     path = Path(path)
     shown = path.as_posix()
     try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
+        text = read_regular_text(path, shown, "scenario")
+    except OSError as exc:
         raise PackError([Diagnostic(shown, 1, 1, f"cannot read scenario: {exc}")]) from None
     try:
         if path.suffix.lower() == ".json":
