@@ -408,6 +408,17 @@ def _unreadable(entry, reader: str) -> str:
     return "hidden truth"
 
 
+def _legs_through_lets(checked: dict, deps) -> tuple:
+    """The highest i of a legs[i] read through the lets ``deps`` reach (themselves or through
+    other lets), and the first let (by name) that reads it: (0, None) when none does."""
+    lets = {d: checked[d][0].deps for d in checked if d[0] == "let"}
+    best, who = 0, None
+    for d in sorted(_closure({d for d in deps if d[0] == "let"}, lets)):
+        if d in checked and checked[d][2] > best:
+            best, who = checked[d][2], d[1]
+    return best, who
+
+
 def _closure(start: set, direct: dict) -> set:
     seen = set()
     todo = list(start)
@@ -519,6 +530,12 @@ def _check_pack(raw: RawPack) -> Pack:
         if env.max_leg and kind != "let":
             env.error(node, "legs[i] cannot be used in a design formula (it would apply to some worlds only)")
             return
+        if kind != "let":
+            leg, let = _legs_through_lets(checked, env.deps)
+            if leg:
+                env.error(node, f"legs[{leg}] cannot be used in a design formula (it would apply to "
+                          f"some worlds only), here read through let '{let}'")
+                return
         checked[(kind, name)] = (Formula(what, e.text, node, e.key, e.default, frozenset(env.deps)),
                                  dict(env.reads), env.max_leg)
 
@@ -636,6 +653,8 @@ def _check_pack(raw: RawPack) -> Pack:
                 d[0] == "trackside" for d in _closure(deps, graph)):
             deps |= {("onboard", n) for n in vocab.ONBOARD_OUTPUTS}
         full = _closure(deps, graph)
+        # legs[i] read through a let makes the same implicit premise legs.count >= i
+        max_leg = max(max_leg, _legs_through_lets(checked, deps)[0])
         all_reads = set(reads) | set(closure_reads(full))
         bound = r.legs if r.legs is not None else raw.legs
         rule = Rule(r.id, r.title, parts["given"], parts["expect"], r.refs, r.note, r.legs,

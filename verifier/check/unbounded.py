@@ -6,7 +6,8 @@ legs; its value is carried in the state as an *accumulator*, updated at each leg
 works out, from the typed trees alone, which accumulators a set of formulas needs:
 
 - A quantifier's body may read the leg (``leg.FIELD``) and names that never change with the
-  legs (the group, the train, the passage: :data:`STATIC`). Any other part of the body that
+  legs (the group, the train, the passage, G1: :data:`STATIC`; an information item's data and
+  what of it does not follow the train: :func:`_static_info`). Any other part of the body that
   does not read the leg (``est.orientation``, ``flip(est.orientation)``, a let, another
   quantifier) is a *parameter*: it is only known at the state where the formula is read. A
   parameter must be of a finite type (Bool, Direction, Running); the state then carries one
@@ -87,6 +88,25 @@ def _static_let(pack, name: str, seen=()) -> bool:
     return _is_static(pack, pack.lets[name].node, seen + (name,))
 
 
+#: Fields of an information item (``info.ID.FIELD``) that are its data: they never change.
+INFO_DATA = frozenset({"group", "at", "for_nominal", "for_reverse", "location"})
+
+
+def _static_info(pack, info_id: str, field: str, seen=()) -> bool:
+    """Whether ``info.ID.FIELD`` cannot change with the legs: the item's data always; the
+    onboard's ``accepted`` and ``position`` when their formula reads only such names; never
+    where it really is (``real``, in the current LRBG's frame: a both-ways item lies along the
+    train's real orientation, and both implementations read that orientation to place any)."""
+    if field in INFO_DATA:
+        return True
+    if field == "real":
+        return False
+    dep = ("onboard", f"info_{field}")
+    if dep in seen:
+        return False
+    return _is_static(pack, pack.definition(dep).node, seen + (dep,))
+
+
 def _is_static(pack, node: ast.Node, seen=()) -> bool:
     """True when the value of a leg-free sub-term cannot change with the legs."""
     for n in ast.walk(node):
@@ -99,6 +119,8 @@ def _is_static(pack, node: ast.Node, seen=()) -> bool:
             if kind == "legat":
                 return False
             if kind == "let" and not _static_let(pack, n.ref[1], seen):
+                return False
+            if kind == "info" and not _static_info(pack, n.ref[1], n.ref[2], seen):
                 return False
     return True
 

@@ -23,7 +23,7 @@ import attrs
 import z3
 
 from verifier.check.model import Pack, Rule
-from verifier.check.unbounded import Plan
+from verifier.check.unbounded import STATIC, Plan
 from verifier.lang.ast import BOOL, COUNT, DIRECTION, RUNNING
 from verifier.smt import solve
 from verifier.smt.concrete import _plain as _plain_value
@@ -45,19 +45,23 @@ class View(_Terms):
     """Names, designs and rules at one state of a path (a prefix of its own for every
     constant it defines); quantifiers read the state's accumulators."""
 
-    def __init__(self, owner: "Path", S: dict, st: dict | None, count, prefix: str):
-        self._setup(owner.pack, owner.ctx, prefix, owner.constraints)
+    def __init__(self, owner: "Path", S: dict, st: dict, count, prefix: str,
+                 static_only: bool = False):
+        # the view an accumulator's body is read in keeps the names of unbounded.STATIC only,
+        # which are the same at every state (here s0's); the constants its other names define
+        # go to a list of their own, left out of the path
+        self._setup(owner.pack, owner.ctx, prefix, [] if static_only else owner.constraints)
         self.plan = owner.plan
         self.st = st
-        if st is None:       # the view an accumulator's body is read in: static names only
-            self.terms.update({k: v for k, v in S.items() if k not in ("known", "frame")})
-            self.known = S["known"]
-        else:
-            self._names(S, st, count)
-            self._group_names(S, None, count)
+        self.static_only = static_only
+        self._names(S, st, count)
+        self._group_names(S, None, count)
+        if static_only:
+            self.terms = {k: v for k, v in self.terms.items() if k in STATIC}
+            self.constraints = owner.constraints
 
     def name(self, name: str):
-        if self.st is None and name not in self.terms:
+        if self.static_only and name not in self.terms:
             raise KeyError(f"{name} changes with the legs: it cannot be read in an accumulator's body")
         return super().name(name)
 
@@ -93,7 +97,7 @@ class Path(_Terms):
         self.S = S
         self.states = [s0]
         self.leg_inputs = []
-        self.body_view = View(self, S, None, None, "body!")
+        self.body_view = View(self, S, s0, s0["count"], "body!", static_only=True)
         st = s0
         for i in range(1, depth + 1):
             cab, fwd = self.boolean(f"legs.{i}.cab_change"), self.boolean(f"legs.{i}.forward")
