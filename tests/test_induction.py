@@ -45,6 +45,9 @@ def lemma_toml(lid: str, expect: str, given: str | None = None) -> str:
 
 
 def run(path, **kw):
+    # these tests are about the induction step: the base case is not deepened before
+    # "bounded" (--max-legs 0; deepening is tested in test_deepening.py)
+    kw.setdefault("max_legs", 0)
     packs = [load_pack(path)]
     return {r.rule: r for r in check_packs(packs, CheckOptions(**kw))[0].results}
 
@@ -67,6 +70,9 @@ def test_a_rule_true_up_to_5_legs_and_false_at_6_is_never_proved(write_pack, tmp
     assert run(p, out=None, legs=5)["fifty"].verdict == "holds"
     six = run(p, out=None, legs=6)["fifty"]
     assert six.verdict == "violated" and six.proof == {"kind": "bounded", "legs": 6}
+    # deepening the base case (DESIGN 4.7) finds that same counterexample at 6 legs
+    deep = run(p, out=None, induction_depth=6, max_legs=6)["fifty"]
+    assert deep.verdict == "violated" and deep.bound == 6 and deep.proof["deepened_from"] == 5
 
 
 def test_a_count_true_up_to_the_bound_only(write_pack):
@@ -136,7 +142,7 @@ def test_legs_option_any_and_k(write_pack):
 def test_bounded_exits_3(write_pack, tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     (tmp_path / "p.toml").write_text(pack_text(rule_toml("few", "legs.count <= 3"), legs=3))
-    assert main(["check", "p.toml", "--legs", "any", "--no-files"]) == 3
+    assert main(["check", "p.toml", "--legs", "any", "--no-files", "--max-legs", "0"]) == 3
     assert main(["check", "p.toml", "--no-files"]) == 0
 
 
@@ -388,7 +394,7 @@ def few_cti(tmp_path, monkeypatch):
     (tmp_path / "p.toml").write_text(pack_text(lemma_toml("o0", ORIENTATION_0)
                                                + rule_toml("few", "legs.count <= 3"), legs=3)
                                      .replace("legs = 3", 'legs = "any"'))
-    assert main(["check", "p.toml", "--no-cache"]) == 3
+    assert main(["check", "p.toml", "--no-cache", "--max-legs", "0"]) == 3
     return tmp_path / "p.toml", tmp_path / "counterexamples" / "t" / "few.induction.json"
 
 
@@ -427,17 +433,17 @@ def test_replay_rejudges_counterexamples_to_induction(few_cti, capsys):
 def test_ci_formats_and_report_say_what_kind_of_proof(few_cti, capsys):
     pack, _ = few_cti
     capsys.readouterr()
-    assert main(["check", "p.toml", "--format", "sarif"]) == 3
+    assert main(["check", "p.toml", "--format", "sarif", "--max-legs", "0"]) == 3
     log = json.loads(capsys.readouterr().out)
     res = {r["ruleId"]: r for r in log["runs"][0]["results"]}
     assert res["t/few"]["kind"] == "open" and res["t/few"]["properties"]["proof"]["kind"] == "bounded"
     assert any("induction" in x["message"]["text"] for x in res["t/few"]["relatedLocations"])
     rules = {r["id"]: r for r in log["runs"][0]["tool"]["driver"]["rules"]}
     assert rules["t/o0"]["properties"]["proof"]["kind"] == "induction"
-    assert main(["check", "p.toml", "--format", "junit"]) == 3
+    assert main(["check", "p.toml", "--format", "junit", "--max-legs", "0"]) == 3
     xml = capsys.readouterr().out
     assert 'name="lemma o0"' in xml and "holds for any number of legs (k-induction at depth 1" in xml
-    assert main(["check", "p.toml", "--report", "rep"]) == 3
+    assert main(["check", "p.toml", "--report", "rep", "--max-legs", "0"]) == 3
     manifest = json.loads(Path("rep/manifest.json").read_text())
     few = {r["id"]: r for r in manifest["packs"][0]["rules"]}["few"]
     assert few["counterexample_to_induction"]["file"] == "counterexamples/t/few.induction.json"

@@ -81,6 +81,8 @@ def _table(results, input_diags) -> str:
                 lines.append(f"            {proof_detail(r)}")
             if r.counterexample:
                 lines.append(f"            counterexample: {r.counterexample}")
+            if r.write_error:
+                lines.append(f"            not written: {r.write_error}")
             if r.induction:
                 lines.append(f"            counterexample to induction: {r.induction}")
             if r.message and r.verdict != "holds":
@@ -118,7 +120,7 @@ def cmd_check(args) -> int:
     input_errors = any(d.severity == "error" for d in diags)
     opts = CheckOptions(legs=args.legs, rules=tuple(args.rule or ()), timeout=args.timeout,
                         rlimit=args.rlimit, out=None if args.no_files else Path(args.out),
-                        induction_depth=args.induction_depth)
+                        induction_depth=args.induction_depth, max_legs=args.max_legs)
     opts = _with_jobs_and_cache(opts, args)
     fmt = "json" if args.json else args.format
     if args.crosscheck:
@@ -128,6 +130,9 @@ def cmd_check(args) -> int:
     if args.report:
         from verifier.evidence.report import ensure_ours
         ensure_ours(Path(args.report))  # refuse a foreign directory before any work
+    if opts.out is not None and opts.out.exists() and not opts.out.is_dir():
+        raise UsageError(f"--out {opts.out.as_posix()} exists and is not a directory: counterexample "
+                         "files go into a folder (give a new or existing folder, or --no-files)")
     progress = _Progress(sys.stderr.isatty() and not args.json)
     try:
         results = check_packs(packs, opts, progress)
@@ -160,17 +165,37 @@ def cmd_check(args) -> int:
         print(_table(results, diags))
     if cross is not None and fmt != "json":
         print(cross.summary(), file=sys.stderr if fmt in ("junit", "sarif") else sys.stdout)
+    # files that could not be written are said after the verdicts, with the path and the
+    # operating system's reason, and make the exit code 2 (4 still wins)
+    unwritten = [r.write_error for p in results for r in p.results if r.write_error]
     if args.report:
+        from verifier.evidence.cexfile import WriteError
         from verifier.evidence.report import write_report
-        page = write_report(Path(args.report), packs, results, diags, opts)
-        print(f"report: {page.as_posix()}", file=sys.stderr)
+        try:
+            page = write_report(Path(args.report), packs, results, diags, opts)
+            print(f"report: {page.as_posix()}", file=sys.stderr)
+        except WriteError as exc:
+            unwritten.append(f"the report: {exc}")
     if args.smt2:
         from verifier.smt.export import write_for_results
-        n = len(write_for_results(Path(args.smt2), packs, results))
-        print(f"smt2: {n} SMT-LIB files in {Path(args.smt2).as_posix()}", file=sys.stderr)
+        try:
+            n = len(write_for_results(Path(args.smt2), packs, results))
+            print(f"smt2: {n} SMT-LIB files in {Path(args.smt2).as_posix()}", file=sys.stderr)
+        except OSError as exc:
+            unwritten.append(f"the SMT-LIB files: {_os_words(exc)}")
     if opts.out is not None:
         _note_stale_files(opts.out, packs, results)
-    return exit_code(results, input_errors)
+    for text in unwritten:
+        print(f"verifier: error: {text}", file=sys.stderr)
+    code = exit_code(results, input_errors)
+    return EXIT_INPUT if unwritten and code != EXIT_INTERNAL else code
+
+
+def _os_words(exc: OSError) -> str:
+    """An OSError as "cannot write PATH: reason" when it names a file."""
+    if exc.filename is not None and exc.strerror:
+        return f"{Path(exc.filename).as_posix()}: {exc.strerror}"
+    return str(exc)
 
 
 def _note_stale_files(out: Path, packs, results) -> None:
@@ -346,8 +371,6 @@ def cmd_simulate(args) -> int:
     return EXIT_OK if ok else EXIT_FAIL
 
 
-def _legs_arg(text: str):
-    """--legs of check: a whole number 0..8, or 'any'."""
 # ---- numeric options: one set of argparse types, so a bad value is a usage error (exit 2)
 # before any work, for every subcommand alike.
 MAX_SECONDS = 1_000_000          # about 11.6 days; z3 takes its time-out as 32-bit milliseconds
@@ -389,6 +412,7 @@ def seconds_arg(text: str) -> float:
 
 _bound_arg = count_arg(0, 8, "movement legs")
 _depth_arg = count_arg(1, 8, "induction depth")
+_max_legs_arg = count_arg(0, 32, "deepest base case")    # verifier.induct.MAX_MAX_LEGS
 _rlimit_arg = count_arg(1, MAX_RLIMIT, "solver budget per check")
 _examples_arg = count_arg(1, 1_000_000, "examples per rule")
 _seed_arg = count_arg(0, None, "seed")
@@ -399,6 +423,8 @@ def _jobs_arg(text: str) -> int:
     return _whole(text, 1, MAX_JOBS, "worker processes")
 
 
+def _legs_arg(text: str):
+    """--legs of check: a whole number 0..8, or 'any'."""
     if text == "any":
         return "any"
     try:
@@ -429,6 +455,11 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--induction-depth", type=_depth_arg, default=4, metavar="N",
                    help="for rules with legs = \"any\": the deepest induction step tried, 1..8 "
                         "(default 4; the base case covers at least N - 1 legs)")
+    c.add_argument("--max-legs", type=_max_legs_arg, default=12, metavar="N",
+                   help="for rules with legs = \"any\" whose induction step is not proved: deepen "
+                        "the base case one leg at a time up to N legs (default 12) within the "
+                        "rule's budget, before answering bounded; a counterexample found so is "
+                        "violated")
     c.add_argument("--rule", action="append", metavar="ID", help="check only this rule (repeatable)")
     c.add_argument("--timeout", type=seconds_arg, metavar="SECONDS", help="wall-clock guard per rule (default 120)")
     c.add_argument("--rlimit", type=_rlimit_arg, metavar="N", help="deterministic solver budget per check (default 500000000)")
@@ -581,6 +612,9 @@ def main(argv=None) -> int:
         import os
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 0
+    except OSError as exc:    # a file that cannot be read or written: the place, not a traceback
+        print(f"verifier: error: {exc if hasattr(exc, 'reason') else _os_words(exc)}", file=sys.stderr)
+        return EXIT_INPUT
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -33,6 +33,7 @@ class CheckOptions:
     jobs: int = 1                      # --jobs: worker processes (see verifier.parallel)
     cache: object = None               # a verifier.cache.Cache, or None: solve everything
     induction_depth: int = 4           # --induction-depth: deepest step of k-induction tried
+    max_legs: int = 12                 # --max-legs: deepest base case tried before "bounded"
 
 
 @attrs.frozen
@@ -58,6 +59,7 @@ class RuleResult:
     role: str = "rule"      # or "lemma"
     proof: dict | None = None   # what kind of proof the verdict rests on (see proof_words)
     induction: str | None = None  # the counterexample to induction file, for verdict bounded
+    write_error: str = ""   # its evidence file could not be written: the path and the OS's reason
 
     @property
     def unbounded(self) -> bool:
@@ -65,19 +67,24 @@ class RuleResult:
         return bool(self.proof) and self.proof.get("kind") == "induction"
 
     def as_json(self) -> dict:
-        return {"id": self.rule, "verdict": self.verdict, "bound": self.bound,
-                "seconds": round(self.seconds, 3), "counterexample": self.counterexample,
-                "witness": self.witness, "message": self.message,
-                "proof": self.proof, "counterexample_to_induction": self.induction}
+        out = {"id": self.rule, "verdict": self.verdict, "bound": self.bound,
+               "seconds": round(self.seconds, 3), "counterexample": self.counterexample,
+               "witness": self.witness, "message": self.message,
+               "proof": self.proof, "counterexample_to_induction": self.induction}
+        if self.write_error:
+            out["write_error"] = self.write_error
+        return out
 
 
 def proof_words(r: RuleResult) -> str:
-    """The kind of proof of a result in words: "up to 3 legs", "any number of legs"."""
+    """The kind of proof of a result in words: "up to 3 legs", "any number of legs", or for a
+    counterexample found by deepening the base case (DESIGN 4.7) "at 7 legs"."""
     n = r.bound
-    bounded = f"up to {n} leg{'s' if n != 1 else ''}"
     if r.unbounded:
         return "any number of legs"
-    return bounded
+    if r.verdict == "violated" and r.proof and "deepened_from" in r.proof:
+        return f"at {n} leg{'s' if n != 1 else ''}"
+    return f"up to {n} leg{'s' if n != 1 else ''}"
 
 
 def proof_detail(r: RuleResult) -> str:
@@ -137,6 +144,8 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None,
         return RuleResult(verdict=verdict, seconds=time.monotonic() - t0, **{**base, **kw})
 
     if solved.verdict == "vacuous":
+        if pack.unbounded_for(rule, opts.legs):   # decided for any number of legs later
+            return result("vacuous", message=solved.reason)
         return result("vacuous", message=_vacuity_message(pack, rule, bound, solved.reason))
     if solved.verdict == "unknown" or solved.world is None:
         return result(solved.verdict, message=solved.reason)
@@ -164,30 +173,35 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None,
         return result("error", kind="internal", message=msg)
     if solved.verdict == "holds":
         return result("holds", witness=world_to_data(world), message=solved.reason)
-    path = None
+    path, unwritten = None, ""
     if opts.out is not None:
         doc = cexfile.build(pack, rule, st, verdict="violated", bound=bound, solver=solved.solver,
                             minimal=solved.minimal)
         target = cexfile.cex_path(opts.out, pack, rule)
-        cexfile.write_atomic(target, cexfile.dumps(doc))
-        diagram.write_beside(target, doc, rule, st)
-        path = target.as_posix()
+        try:    # the file and its diagram, both or neither; a failure does not lose the verdict
+            cexfile.write_files(opts.out, [(target, cexfile.dumps(doc)),
+                                           (diagram.svg_path(target), diagram.render(doc, rule, st))])
+            path = target.as_posix()
+        except cexfile.WriteError as exc:
+            unwritten = str(exc)
     msg = describe_failure(cexfile.failed_detail(rule, st))
     if not solved.minimal:
         msg += " (not fully minimised: " + solved.reason + ")"
-    return result("violated", counterexample=path, message=msg)
+    return result("violated", counterexample=path, message=msg, write_error=unwritten)
 
 
-def _vacuity_message(pack: Pack, rule: Rule, bound: int, reason: str) -> str:
-    """Say which parts of the given cannot hold (an unsat core over its top-level items)."""
+def _vacuity_message(pack: Pack, rule: Rule, bound: int, reason: str, within: str = "") -> str:
+    """Say which parts of the given cannot hold (an unsat core over its top-level items, found
+    up to ``bound`` legs); ``within`` says how far that is known (default: up to the bound)."""
     from verifier.smt import solve
+    within = within or f"up to {bound} leg{'s' if bound != 1 else ''}"
     core = solve.vacuity_core(pack, rule, bound)
     if not core:
-        return reason
+        return f"{reason} ({within})"
     if len(core) == 1:
-        return f"{reason}: '{core[0]}' is impossible within the scope (up to {bound} legs)"
+        return f"{reason}: '{core[0]}' is impossible within the scope ({within})"
     return (f"{reason}: " + " and ".join(f"'{c}'" for c in core)
-            + f" cannot hold together within the scope (up to {bound} legs)")
+            + f" cannot hold together within the scope ({within})")
 
 
 def describe_failure(detail: dict | None) -> str:
@@ -234,7 +248,7 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
         if progress:
             progress(n, len(todo), pack, rule, None)
         res = check_rule(pack, rule, opts, next(presolved), bound)
-        if res.verdict == "holds" and pack.unbounded_for(rule, opts.legs):
+        if res.verdict in ("holds", "vacuous") and pack.unbounded_for(rule, opts.legs):
             res = _any_number(pack, rule, res, tuple(lemmas[id(pack)]), bound, opts)
         if rule.role == "lemma" and res.unbounded:
             lemmas[id(pack)].append(rule)
@@ -249,22 +263,138 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
 
 def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: int,
                 opts: CheckOptions) -> RuleResult:
-    """The induction step after a bounded check that holds (DESIGN 4.7)."""
+    """After a base case up to ``bound`` legs that holds or is vacuous (DESIGN 4.7): the
+    induction step of the rule, or for a vacuous one the step of "the given never holds";
+    when that is not proved, the base case deepened (``bound`` + 1, + 2, ... up to
+    ``--max-legs``, within the budget, fewest legs first) before the answer is ``bounded``. A
+    counterexample found on the way makes the rule ``violated`` at that many legs, solved,
+    minimised, replayed and written exactly as by a bounded check at that bound."""
     from verifier import induct
-    out = induct.prove(pack, rule, lemmas, bound, depth=opts.induction_depth,
-                       rlimit=opts.rlimit, timeout=opts.timeout, cache=opts.cache)
-    seconds = base.seconds + out.seconds
-    base = attrs.evolve(base, cached=base.cached and out.cached)
-    if out.error:
+    from verifier.smt.solve import DEFAULT_TIMEOUT
+    t0 = time.monotonic() - base.seconds
+
+    def prove(r, b):
+        return induct.prove(pack, r, lemmas, b, depth=opts.induction_depth, rlimit=opts.rlimit,
+                            timeout=opts.timeout, cache=opts.cache)
+
+    def failed(out):
         return attrs.evolve(base, verdict="error", kind="internal", message=out.error,
-                            seconds=seconds, proof=out.proof)
-    if out.verdict == "holds":
-        return attrs.evolve(base, proof=out.proof, seconds=seconds)
+                            seconds=time.monotonic() - t0, proof=out.proof)
+
+    cached = base.cached
+    out = never = None          # the rule's own step; the step of "the given never holds"
+    if base.verdict == "vacuous":
+        never = prove(induct.not_given(rule), bound)
+        cached = cached and never.cached
+        if never.error:
+            return failed(never)
+        if never.verdict == "holds":
+            return attrs.evolve(base, proof=never.proof, seconds=time.monotonic() - t0, cached=cached,
+                                message=_vacuity_message(pack, rule, bound, base.message,
+                                                         "for any number of legs"))
+    else:
+        out = prove(rule, bound)
+        cached = cached and out.cached
+        if out.error:
+            return failed(out)
+        if out.verdict == "holds":
+            return attrs.evolve(base, proof=out.proof, seconds=time.monotonic() - t0, cached=cached)
+
+    # deepening: the rule holds (or its given never does) up to `last` legs
+    timeout = opts.timeout if opts.timeout is not None else DEFAULT_TIMEOUT
+    budget, spent, last, stop, witness = induct.deepening_budget(opts.rlimit), 0, bound, "", base.witness
+    for n in range(bound + 1, opts.max_legs + 1):
+        left = timeout - (time.monotonic() - t0)
+        if left <= 0 or spent >= budget:
+            stop = f"the deepening budget ran out before {n} legs"
+            break
+        first = out is None            # the given not yet satisfiable: a witness if it now is
+        res, pre = _deepened(pack, rule, opts, n, min(induct.rule_rlimit(opts.rlimit), budget - spent),
+                             left, first and opts.witness)
+        solved = pre.solved
+        spent += solved.rlimit
+        cached = cached and pre.cached
+        if solved.verdict == "vacuous":
+            last = n
+            continue
+        if solved.verdict == "unknown":
+            stop = f"the check at {n} legs ran out of the deepening budget"
+            break
+        if res.verdict == "violated" and not res.minimal and budget - spent < induct.rule_rlimit(opts.rlimit):
+            res, _ = _deepened(pack, rule, opts, n, induct.rule_rlimit(opts.rlimit), left, False)
+        if res.verdict == "violated":
+            proof = {"kind": "bounded", "legs": n, "deepened_from": bound}
+            step = (out or never).proof.get("induction")
+            if step:
+                proof["induction"] = step
+            return attrs.evolve(res, proof=proof, seconds=time.monotonic() - t0, message=(
+                res.message + f" (found by deepening the base case from {bound} legs, the induction "
+                f"step not proved: holds up to {n - 1}, fails at {n})"))
+        if res.verdict != "holds":     # an error: said as it is
+            return attrs.evolve(res, seconds=time.monotonic() - t0)
+        last = n
+        if first:                      # the given holds for the first time: the rule's own step
+            witness = res.witness
+            out = prove(rule, n)
+            if out.error:
+                return failed(out)
+            if out.verdict == "holds":
+                return attrs.evolve(base, verdict="holds", bound=n, proof=out.proof, witness=witness,
+                                    message="", seconds=time.monotonic() - t0, cached=False)
+    else:
+        stop = f"--max-legs {opts.max_legs}" if opts.max_legs > bound else ""
+    return _bounded(pack, rule, base, lemmas, bound, last, stop, out, never, witness,
+                    time.monotonic() - t0, cached, opts)
+
+
+def _deepened(pack: Pack, rule: Rule, opts: CheckOptions, n: int, rlimit: int, timeout: float,
+              witness: bool):
+    """The bounded check of ``rule`` up to ``n`` legs, through the cache as any other: the
+    engine's result (None when the solver's answer is vacuous or unknown) and the answer."""
+    from verifier.parallel import solve_in_order
+    pre = next(solve_in_order([(pack, rule)], timeout=timeout, rlimit=rlimit, witness=witness,
+                              cache=opts.cache, bounds=[n]))
+    if pre.solved.verdict in ("vacuous", "unknown"):
+        return None, pre
+    deep = attrs.evolve(opts, witness=witness, rlimit=rlimit, timeout=timeout)
+    return check_rule(pack, rule, deep, pre, n), pre
+
+
+def _bounded(pack, rule, base, lemmas, bound, last, stop, out, never, witness, seconds, cached,
+             opts) -> RuleResult:
+    """The verdict ``bounded`` after deepening: it holds up to ``last`` legs, with the
+    counterexample to induction of the rule's own step written beside the counterexamples."""
+    notes = [f"the base case deepened from {bound} legs"] if last > bound else []
+    if stop and last < opts.max_legs:
+        notes.append(stop)
+    within = f" ({'; '.join(notes)})" if notes else ""
+    if out is None:             # the given never held up to `last` legs
+        if never.cti is not None:
+            k = never.cti["state"]["legs.count"]
+            step = (f"not proved for any number of legs: from a state after {k} "
+                    f"leg{'s' if k != 1 else ''} in which it did not hold, one more leg makes it hold")
+        else:
+            step = never.message
+        message = f"{_vacuity_message(pack, rule, last, base.message)}{within}; that it never holds is {step}"
+        proof = {**never.proof, "legs": last}
+        if last > bound:
+            proof["deepened_from"] = bound
+        return attrs.evolve(base, verdict="bounded", bound=last, proof=proof, seconds=seconds,
+                            message=message, cached=cached, witness=None)
+    proof = {**out.proof, "legs": last}
+    if last > bound:
+        proof["deepened_from"] = bound
     path = None
+    unwritten = ""
     if out.cti is not None and opts.out is not None:
-        path = cexfile.write_induction(opts.out, pack, rule, lemmas, out, bound, base.solver)
-    return attrs.evolve(base, verdict="bounded", proof=out.proof, seconds=seconds,
-                        message=out.message, induction=path, minimal=out.minimal)
+        try:
+            path = cexfile.write_induction(opts.out, pack, rule, lemmas, out, last, base.solver)
+        except cexfile.WriteError as exc:
+            unwritten = str(exc)
+    message = out.message + f"; holds up to {last} legs{within}"
+    return attrs.evolve(base, verdict="bounded", bound=last, proof=proof, seconds=seconds,
+                        message=message, induction=path, minimal=out.minimal, cached=cached,
+                        witness=witness, write_error=unwritten)
 
 
 def exit_code(results: list[PackResult], input_errors: bool) -> int:

@@ -21,6 +21,9 @@ from verifier.world.sim import SnapView, advance, applies, evaluate, holds, snap
 
 DEFAULT_DEPTH = 4
 MAX_DEPTH = 8
+DEFAULT_MAX_LEGS = 12     # --max-legs: the deepest base case tried before "bounded"
+MAX_MAX_LEGS = 32
+DEEPENING_SHARE = 20      # deepening spends at most 1/20 of one check's rlimit in all
 
 
 @attrs.frozen
@@ -29,6 +32,35 @@ class Replayed:
 
     views: tuple              # SnapView of s0 .. sk
     problems: tuple           # why it is not a counterexample to induction (empty: it is)
+
+
+def rule_rlimit(rlimit: int | None) -> int:
+    """The deterministic budget of one solver check (``--rlimit``, or the default)."""
+    if rlimit is not None:
+        return rlimit
+    from verifier.smt.solve import DEFAULT_RLIMIT
+    return DEFAULT_RLIMIT
+
+
+def deepening_budget(rlimit: int | None) -> int:
+    """What the deepening of one rule's base case may spend in all (z3's deterministic
+    resource count): a twentieth of one check's budget (25 M of the default 500 M), so that
+    the deepened bound a rule reaches is the same on every machine (the wall-clock
+    ``--timeout`` of the rule stays the guard). Measured on the shipped
+    automatic-step-stays-in-range (3 December 2026): 4 to 8 legs take 22.6 M and 2.3 s of CPU,
+    9 legs 18.8 M more, 11 legs alone 243 M (29 s), 12 legs 166 M (14 s)."""
+    return rule_rlimit(rlimit) // DEEPENING_SHARE
+
+
+def not_given(rule: Rule) -> Rule:
+    """"The given never holds" as a rule of its own: the same given (with its implicit
+    premise) and ``expect = false``. Proved for any number of legs, the rule is vacuous for any
+    number of legs (DESIGN 4.7)."""
+    from verifier.check.model import Formula
+    from verifier.lang.ast import BOOL, BoolLit
+    false = Formula(f"{rule.role} {rule.id} never given", "false", BoolLit(False, ty=BOOL),
+                    rule.expect.key)
+    return attrs.evolve(rule, expect=false)
 
 
 def plan_with_lemmas(pack: Pack, rule: Rule, lemmas) -> Plan:
