@@ -109,6 +109,10 @@ def test_a_given_impossible_up_to_the_base_case_only_is_not_vacuous(write_pack):
     got = run(p)["four"]
     assert got.verdict == "violated" and got.bound == 4
     assert "cab_changes is 3" in got.message
+    # a bounded pack keeps its vacuity up to its bound
+    bounded = write_pack(pack_text(rule_toml("four", "cab_changes <= 2", "legs.count >= 4"), legs=3), "b.toml")
+    got = run(bounded)["four"]
+    assert got.verdict == "vacuous" and "(up to 3 legs)" in got.message
 
 
 def test_vacuous_for_any_number_of_legs_when_the_negation_is_proved(write_pack):
@@ -130,12 +134,6 @@ def test_a_given_never_met_up_to_max_legs_but_not_proved_is_bounded(write_pack, 
     assert main(["check", str(p), "--max-legs", "5", "--no-files", "--no-cache"]) == 3
 
 
-def test_a_bounded_pack_keeps_its_vacuity_up_to_the_bound(write_pack):
-    p = write_pack(pack_text(rule_toml("four", "cab_changes <= 2", "legs.count >= 4"), legs=3))
-    got = run(p)["four"]
-    assert got.verdict == "vacuous" and "(up to 3 legs)" in got.message
-
-
 # ---- quantifier bodies reading G1 or an information item (point 4) ----------------------------
 
 def test_a_body_reading_g1_is_carried_as_static(write_pack):
@@ -145,27 +143,21 @@ def test_a_body_reading_g1_is_carried_as_static(write_pack):
     assert got.verdict == "holds" and got.unbounded
 
 
-def test_a_body_reading_an_items_data_is_carried_as_static(write_pack):
-    # the item's data beside a leg field: static, so no parameter; where it really is (a
-    # one-way item: 500 m) read as a Bool of the state, a parameter
-    p = any_pack(write_pack, rule_toml("item", "all(l in legs: l.distance <= info.eoa.at + 4500 m "
-                                               "and info.eoa.real == 500 m)"),
-                 extra=ITEM.format(valid="nominal"))
-    got = run(p)["item"]
-    assert got.verdict == "holds" and got.unbounded
-
-
 def test_accepted_in_a_body_is_a_parameter_of_the_state(write_pack):
     # the default onboard accepts an item by the train's orientation, which cab changes flip:
     # the body is read at the state, one accumulator per value (DESIGN 4.7)
-    rule = rule_toml("accepted", "count(l in legs: info.eoa.accepted) <= legs.count")
+    # beside it, the item's data next to a leg field is static (no parameter), and where a
+    # one-way item really is (500 m) is read as a Bool of the state
+    rule = rule_toml("accepted", "count(l in legs: info.eoa.accepted) <= legs.count") + rule_toml(
+        "item", "all(l in legs: l.distance <= info.eoa.at + 4500 m and info.eoa.real == 500 m)")
     p = any_pack(write_pack, rule, extra=ITEM.format(valid="nominal"))
     pack = load_pack(p)
     plan = plan_for(pack, rule_formulas(pack.rule("accepted")))
     fam = [f for f in plan.accumulators if f.text == "count(l in legs: $1)"]
     assert plan.unsupported == () and len(fam) == 1 and len(fam[0].params) == 1
-    got = run(p)["accepted"]
-    assert got.verdict == "holds" and got.unbounded
+    got = run(p)
+    assert got["accepted"].verdict == "holds" and got["accepted"].unbounded
+    assert got["item"].verdict == "holds" and got["item"].unbounded
 
 
 def test_the_issues_accepted_count_is_refuted_not_a_crash(write_pack):
