@@ -240,3 +240,14 @@ def test_a_pack_run_collects_no_testpaths_unless_asked(pytester):
     assert "test_project_suite" not in text and "15 tests collected" in text
     both = pytester.runpytest_subprocess(*args, "tests")
     assert "test_project_suite" in both.stdout.str() and "16 tests collected" in both.stdout.str()
+
+
+def test_the_fixture_takes_a_function_that_has_no_source_file():
+    # a callable made by exec (a notebook, a generated wrapper) has "<string>" for its file:
+    # it is named without a file and hash instead of a FileNotFoundError
+    space: dict = {"__name__": "__main__"}       # as at a prompt: a module with a loader
+    exec(f"def report(obs):\n    return {GOOD}\n", space)
+    loaded = interface.wrap(space["report"])
+    assert (loaded.module_file, loaded.module_sha256) == ("", "")
+    value, finding = interface.call_checked(loaded, None, interface.validate_report)
+    assert finding is None and value.d_lrbg == 2

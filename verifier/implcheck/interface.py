@@ -30,6 +30,11 @@ import signal
 import sys
 import tempfile
 import threading
+
+try:                    # signal's own functions without the enum conversions (a call is ~20 us)
+    import _signal as _sig
+except ImportError:     # pragma: no cover - not CPython
+    _sig = signal
 from decimal import Decimal
 from fractions import Fraction
 from pathlib import Path
@@ -213,7 +218,11 @@ def _loaded(spec: str, fn, path, output=None) -> Loaded:
     """A Loaded, with its module file shown relative to the working directory and hashed."""
     digest, shown = "", ""
     if path:
-        digest = hashlib.sha256(Path(path).read_bytes()).hexdigest()
+        try:
+            digest = hashlib.sha256(Path(path).read_bytes()).hexdigest()
+        except OSError:     # no such file (code from exec, "<string>"), or unreadable
+            digest, path = "", None
+    if path:
         try:
             shown = Path(path).resolve().relative_to(Path.cwd().resolve()).as_posix()
         except ValueError:
@@ -351,13 +360,13 @@ class _Guard:
         self._cwd = os.getcwd()
         self._signals = {}
         if main:
-            old_int = signal.getsignal(signal.SIGINT)
+            old_int = _sig.getsignal(signal.SIGINT)
             if callable(old_int):   # SIG_IGN and SIG_DFL: no KeyboardInterrupt comes of a SIGINT
                 def on_sigint(signum, frame, old=old_int):
                     self.sigint = True
                     old(signum, frame)
                 self._signals[signal.SIGINT] = old_int
-                signal.signal(signal.SIGINT, on_sigint)
+                _sig.signal(signal.SIGINT, on_sigint)
             if self.timeout and hasattr(signal, "setitimer"):
                 def alarm(signum, frame):
                     if self._armed:
@@ -365,7 +374,7 @@ class _Guard:
                         # callback, the code's own ``except BaseException``)
                         signal.setitimer(signal.ITIMER_REAL, 0.1)
                         raise _TimeUp()
-                self._signals[signal.SIGALRM] = signal.signal(signal.SIGALRM, alarm)
+                self._signals[signal.SIGALRM] = _sig.signal(signal.SIGALRM, alarm)
         self._streams = (sys.stdout, sys.stderr)
         self._fds = None
         if self.output is not None:
@@ -379,9 +388,7 @@ class _Guard:
             except OSError:        # no fd 1 or 2 (closed): nothing can reach them anyway
                 pass
             else:
-                tmp = _capture_fd()
-                os.ftruncate(tmp, 0)
-                os.lseek(tmp, 0, os.SEEK_SET)
+                tmp = _capture_fd()      # empty: emptied after each call that wrote to it
                 os.dup2(tmp, 1)
                 os.dup2(tmp, 2)
                 self._fds = saved
@@ -416,11 +423,13 @@ class _Guard:
                     room = max(0, Output.KEEP - len(self.output.head))
                     self.output.add(os.pread(tmp, room, 0).decode("utf-8", "replace") if room else "", size)
                     wrote = True
+                    os.ftruncate(tmp, 0)
+                    os.lseek(tmp, 0, os.SEEK_SET)
             self.output.calls += wrote
         else:
             sys.stdout, sys.stderr = self._streams
         for sig, old in self._signals.items():
-            signal.signal(sig, old)
+            _sig.signal(sig, old)
         try:
             if os.getcwd() != self._cwd:
                 os.chdir(self._cwd)
