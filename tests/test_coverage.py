@@ -163,3 +163,21 @@ def test_simulate_gives_the_true_reason_for_32767_and_names_the_safe_ends(tmp_pa
     out = capsys.readouterr().out
     trackside = next(line for line in out.splitlines() if line.startswith("trackside:"))
     assert "min safe front -91 m, max safe front -113 m" in trackside
+
+
+def test_verifier_test_says_what_its_passes_cover(tmp_path, monkeypatch, capsys):
+    """A pass of `verifier test` is a test in the worlds tried: the header says their legs
+    (generated worlds of a pack for any number of legs: 6, docs/implementations.md) and that the
+    onboard is the implementation, not the pack's design."""
+    root = __import__("pathlib").Path(__file__).resolve().parent.parent
+    monkeypatch.chdir(tmp_path)
+    args = ["test", str(root / "rules" / "position-report.toml"), "--impl", "kestrel_onboard:report",
+            "--path", str(root / "examples"), "--rule", "qualifier-codes", "--no-smt",
+            "--max-examples", "3", "--no-files"]
+    assert main(args) == 0
+    out = " ".join(capsys.readouterr().out.split())
+    assert "scope worlds of up to 6 legs (generated), solver worlds up to 3 legs; a test in these worlds, not a proof" in out
+    assert "onboard: the implementation kestrel_onboard:report; trackside: the default design" in out
+    assert main(args + ["--json"]) == 0
+    (rep,) = json.loads(capsys.readouterr().out)["implementations"]
+    assert rep["scope"]["tested"]["generated_legs"] == 6 and rep["scope"]["world"]["leg_distance"] == ["0", "5000"]

@@ -263,6 +263,9 @@ def _impl_table(rep) -> str:
              f"{rep.onboard.module_sha256[:16]}...)"
              + (f" with trackside {rep.trackside.spec}" if rep.trackside else "")
              + f" against pack {rep.pack} ({rep.path})"]
+    if rep.scope:
+        from verifier.evidence import coverage
+        lines += coverage.lines(rep.scope)
     width = max((len(r.rule) for r in rep.rules), default=10)
     for r in rep.rules:
         lines.append(f"  {r.status:<11} {r.rule:<{width}}  {r.worlds} world{'s' if r.worlds != 1 else ''} "

@@ -22,13 +22,16 @@ def _legs(n) -> str:
     return f"{n} leg{'s' if n != 1 else ''}"
 
 
-def summary(pack: Pack, legs=None, induction_depth: int = 4, rules=None) -> dict:
+def summary(pack: Pack, legs=None, induction_depth: int = 4, rules=None, tested=None) -> dict:
     """The scope of ``pack``'s verdicts under ``--legs`` ``legs`` and ``--induction-depth``
-    (plain data; ``rules``: the rules and lemmas checked, default all)."""
+    (plain data; ``rules``: the rules and lemmas checked, default all). ``tested``: for
+    ``verifier test``, the legs of the worlds tried ({"generated_legs", "solver_legs"})."""
     rules = list(pack.lemmas + pack.rules) if rules is None else list(rules)
     unbounded = pack.unbounded if legs is None else legs == "any"
     bound = legs if isinstance(legs, int) else pack.legs
     out = {"legs": "any" if unbounded else bound}
+    if tested is not None:
+        out["tested"] = dict(tested)
     if unbounded:
         out["base_legs"] = max(bound, induction_depth - 1)
         out["induction_depth"] = induction_depth
@@ -73,6 +76,10 @@ def parts(scope: dict) -> list[tuple[str, str]]:
                 f"step depth 1..{scope['induction_depth']})")
     else:
         legs = f"up to {_legs(scope['legs'])}"
+    if "tested" in scope:        # verifier test: worlds tried, not a proof
+        t = scope["tested"]
+        legs = (f"worlds of up to {_legs(t['generated_legs'])} (generated), solver worlds up to "
+                f"{_legs(t['solver_legs'])}; a test in these worlds, not a proof")
     if "legs_option" in scope:
         legs += f" (--legs {scope['legs_option']})"
     w = scope["world"]
@@ -91,6 +98,11 @@ def parts(scope: dict) -> list[tuple[str, str]]:
            + (" counted inside those bounds" if w.get("detection_in_odometry") else " on top of them"))
     designs = (f"onboard: {_design(scope['onboard'])}, Q_SCALE {scope['onboard']['q_scale']}, "
                f"rounding {scope['onboard']['rounding']}; trackside: {_design(scope['trackside'])}")
+    if "tested" in scope:
+        t = scope["tested"]
+        designs = (f"onboard: the implementation {t['onboard']}; trackside: "
+                   + (f"the implementation {t['trackside']}" if t.get("trackside")
+                      else _design(scope["trackside"])))
     items = scope["information_items"]
     out = [("scope", f"{legs}; {groups} group{'s' if groups != 1 else ''}"
               + (f", {items} information item{'s' if items != 1 else ''}" if items else "")),

@@ -33,6 +33,7 @@ from pathlib import Path
 import attrs
 
 from verifier.check.model import Pack, Rule
+from verifier.evidence import coverage
 from verifier.implcheck.interface import (DEFAULT_CALL_TIMEOUT, Finding, Loaded, Output, call_checked,
                                           observe, packet_of, validate_placement, validate_report)
 from verifier.implcheck.state import ImplState, NotReturned
@@ -96,6 +97,7 @@ class ImplReport:
     calls: int
     seconds: float
     output: Output | None = attrs.field(default=None, eq=False)   # what the implementation printed
+    scope: dict = attrs.field(factory=dict, eq=False)   # what "passed" covers (evidence.coverage)
 
     def exit_code(self) -> int:
         if self.findings or any(r.status == "failed" for r in self.rules):
@@ -114,7 +116,7 @@ class ImplReport:
                            "message": r.message} for r in self.rules],
                 "contract": [{"kind": f.kind, "message": f.message, "where": f.where or None,
                               "file": f.file, "found_by": f.found_by} for f in self.findings],
-                "captured_output": (self.output or Output()).as_json()}
+                "captured_output": (self.output or Output()).as_json(), "scope": self.scope}
 
 
 def _loaded_json(x: Loaded) -> dict:
@@ -509,9 +511,14 @@ class Session:
 
     def report(self) -> ImplReport:
         outcomes = self.all()
+        tested = {"generated_legs": max((generation_bound(self.pack, r, self.opts.legs) for r in self.rules),
+                                        default=self.pack.legs),
+                  "solver_legs": max((self.pack.bound_for(r) for r in self.rules), default=self.pack.legs),
+                  "onboard": self.onboard.spec, "trackside": self.trackside.spec if self.trackside else None}
         report = ImplReport(self.pack.name, self.pack.path, self.onboard, self.trackside,
                             tuple(outcomes), self.findings, self.chk.calls, time.monotonic() - self.t0,
-                            self.chk.output)
+                            self.chk.output,
+                            coverage.summary(self.pack, rules=self.rules, tested=tested))
         if self.out is not None:
             shown, absolute = self.out
             report = write_files(report, self.pack, self.chk, absolute, shown)
