@@ -68,6 +68,145 @@ def test_the_extremes_of_each_range_are_accepted(argv, tmp_path, monkeypatch, ca
     assert "violated  bad" in capsys.readouterr().out
 
 
+
+# ---- 4. where files go, and when they cannot -----------------------------------------------
+
+def _check(tmp_path, monkeypatch, capsys, *args):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "p.toml").write_text(FAST)
+    code = main(["check", "p.toml", "--no-cache", *args])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def _verdicts_printed(out):
+    return "holds     ok" in out and "violated  bad" in out and "summary: 1 holds, 1 violated" in out
+
+
+def _temporaries(root: Path):
+    return [p for p in root.rglob("*") if p.name.endswith(".tmp")]
+
+
+def test_out_naming_a_file_is_refused_before_any_work(tmp_path, monkeypatch, capsys):
+    (tmp_path / "afile").write_text("mine")
+    code, out, err = _check(tmp_path, monkeypatch, capsys, "--out", "afile")
+    assert code == 2 and "--out afile exists and is not a directory" in err
+    assert "Traceback" not in err and (tmp_path / "afile").read_text() == "mine"
+
+
+def test_a_file_where_a_folder_goes_is_reported_after_the_verdicts(tmp_path, monkeypatch, capsys):
+    # stands in for a folder that cannot be written (the tests run as root, whom chmod does
+    # not stop): counterexamples/t must be a folder and is a file
+    (tmp_path / "counterexamples").mkdir()
+    (tmp_path / "counterexamples" / "t").write_text("in the way")
+    code, out, err = _check(tmp_path, monkeypatch, capsys)
+    assert code == 2 and _verdicts_printed(out)
+    assert "verifier: error: cannot write counterexamples/t: exists and is not a directory" in err
+    assert "not written: cannot write counterexamples/t" in out
+
+
+def test_a_full_disk_leaves_the_earlier_pair_whole(tmp_path, monkeypatch, capsys):
+    """ENOSPC while the diagram is written (simulated in-process: the second fsync fails, as
+    it would when the disk fills up during the second file): the verdicts are printed, the
+    path and the reason are said, exit 2, and the counterexample and diagram of the earlier
+    run are left as they were (neither is replaced, no temporary file stays)."""
+    from verifier.evidence import cexfile
+    assert _check(tmp_path, monkeypatch, capsys)[0] == 1
+    pair = [tmp_path / "counterexamples" / "t" / n for n in ("bad.json", "bad.svg")]
+    before = [p.read_bytes() for p in pair]
+    for p in pair:
+        p.write_bytes(p.read_bytes() + b"\n")       # to tell a rewrite from the earlier file
+    before = [p.read_bytes() for p in pair]
+    real, calls = os.fsync, []
+
+    def fsync(fd):
+        calls.append(fd)
+        if len(calls) == 2:
+            raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+        return real(fd)
+    monkeypatch.setattr(cexfile.os, "fsync", fsync)
+    code, out, err = _check(tmp_path, monkeypatch, capsys)
+    assert code == 2 and _verdicts_printed(out) and "Traceback" not in err
+    assert f"cannot write counterexamples/t/bad.svg: {os.strerror(errno.ENOSPC)}" in err
+    assert [p.read_bytes() for p in pair] == before
+    assert not _temporaries(tmp_path)
+
+
+def test_a_failed_rename_leaves_no_half_pair(tmp_path, monkeypatch, capsys):
+    from verifier.evidence import cexfile
+    real = os.replace
+
+    def replace(src, dst):
+        if str(dst).endswith(".svg"):
+            raise OSError(errno.EIO, os.strerror(errno.EIO))
+        return real(src, dst)
+    monkeypatch.setattr(cexfile.os, "replace", replace)
+    code, out, err = _check(tmp_path, monkeypatch, capsys, "--json")
+    assert code == 2
+    bad = {r["id"]: r for r in json.loads(out)["packs"][0]["rules"]}["bad"]
+    assert bad["verdict"] == "violated" and bad["counterexample"] is None
+    assert bad["write_error"] == f"cannot write counterexamples/t/bad.svg: {os.strerror(errno.EIO)}"
+    folder = tmp_path / "counterexamples" / "t"
+    assert not list(folder.iterdir())          # neither the .json nor the .svg, no temporary
+
+
+def test_a_link_out_of_out_is_not_followed(tmp_path, monkeypatch, capsys):
+    elsewhere = tmp_path / "elsewhere"
+    elsewhere.mkdir()
+    (tmp_path / "out").mkdir()
+    (tmp_path / "out" / "t").symlink_to(elsewhere)
+    code, out, err = _check(tmp_path, monkeypatch, capsys, "--out", "out")
+    assert code == 2 and _verdicts_printed(out)
+    assert f"cannot write out/t: a symbolic link to {elsewhere.resolve().as_posix()}, outside out" in err
+    assert not list(elsewhere.iterdir())
+
+
+def test_a_link_that_stays_inside_out_is_followed(tmp_path, monkeypatch, capsys):
+    (tmp_path / "out" / "real").mkdir(parents=True)
+    (tmp_path / "out" / "t").symlink_to(tmp_path / "out" / "real")
+    code, out, err = _check(tmp_path, monkeypatch, capsys, "--out", "out")
+    assert code == 1, err
+    assert sorted(p.name for p in (tmp_path / "out" / "real").iterdir()) == ["bad.json", "bad.svg"]
+
+
+def test_a_second_report_run_while_the_first_is_writing(tmp_path, monkeypatch, capsys):
+    """Two runs with the same --report DIR, interleaved: the second starts (and finishes)
+    while the first has copied its counterexamples and not yet written its manifest. Both
+    must succeed and leave a whole report."""
+    from verifier.evidence import report
+    real, inner = report.render_html, []
+
+    def render_html(*a, **k):
+        if not inner:                       # the first run, in the middle of its writing
+            inner.append(None)
+            inner[0] = main(["check", "p.toml", "--no-cache", "--report", "evidence"])
+        return real(*a, **k)
+    monkeypatch.setattr(report, "render_html", render_html)
+    code, out, err = _check(tmp_path, monkeypatch, capsys, "--report", "evidence")
+    assert inner == [1] and code == 1, err
+    assert "not a verifier report" not in err
+    doc = json.loads((tmp_path / "evidence" / "manifest.json").read_text())
+    files = [r["counterexample"] for p in doc["packs"] for r in p["rules"] if r["counterexample"]]
+    for c in files:
+        assert (tmp_path / "evidence" / c["file"]).is_file() and (tmp_path / "evidence" / c["diagram"]).is_file()
+    assert not _temporaries(tmp_path / "evidence")
+
+
+def test_a_report_that_cannot_be_written_is_said_after_the_verdicts(tmp_path, monkeypatch, capsys):
+    from verifier.evidence import cexfile
+    real = os.fsync
+
+    def fsync(fd):
+        if "index.html" in os.readlink(f"/proc/self/fd/{fd}"):
+            raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+        return real(fd)
+    monkeypatch.setattr(cexfile.os, "fsync", fsync)
+    code, out, err = _check(tmp_path, monkeypatch, capsys, "--report", "evidence")
+    assert code == 2 and _verdicts_printed(out) and "Traceback" not in err
+    assert f"cannot write evidence/index.html: {os.strerror(errno.ENOSPC)}" in err
+    assert not _temporaries(tmp_path / "evidence")
+
+
 # ---- 5. interrupts and workers -----------------------------------------------------------
 
 HARD = ("along(report.q_dirlrbg, actual.front - rbc.min_safe_front) >= 0 m and "

@@ -151,25 +151,108 @@ def _umask() -> int:
     return mask
 
 
-def write_atomic(path: Path, text: str) -> None:
-    """Write so that a reader (or a kill) never sees half a file. The file gets the permissions
-    an ordinary new file would (0666 less the umask), not the owner-only ones of a temporary
-    file: counterexamples and reports are meant to be shared."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+class WriteError(OSError):
+    """A file of ours could not be written: the path and the operating system's reason. The
+    command line reports it after the verdicts, as exit 2."""
+
+    def __init__(self, path, reason: str):
+        super().__init__(f"cannot write {Path(path).as_posix()}: {reason}")
+        self.path, self.reason = Path(path), reason
+
+
+def _why(exc: OSError) -> str:
+    return exc.strerror or str(exc)
+
+
+def _inside(path: Path, root: Path) -> bool:
+    return path == root or root in path.parents
+
+
+def safe_dir(root: Path, folder: Path) -> None:
+    """Make ``folder`` (``root`` or a folder below it) without following a symbolic link out of
+    ``root``: a link ``root/st -> /elsewhere`` would put the evidence outside the folder the
+    user named. ``root`` itself may be, or pass through, a link (the user chose it); a link
+    below it that stays inside it is followed."""
+    root, folder = Path(root), Path(folder)
     try:
-        os.chmod(tmp, 0o666 & ~_umask())
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
+        root.mkdir(parents=True, exist_ok=True)
+        real_root = Path(os.path.realpath(root))
+        rel = folder.relative_to(root)
+    except ValueError:
+        raise WriteError(folder, f"not inside {root.as_posix()}") from None
+    except OSError as exc:
+        raise WriteError(root, _why(exc)) from None
+    here = root
+    for part in rel.parts:
+        here = here / part
+        if here.is_symlink():
+            real = Path(os.path.realpath(here))
+            if not _inside(real, real_root):
+                raise WriteError(here, f"a symbolic link to {real.as_posix()}, outside "
+                                       f"{root.as_posix()}; not followed")
         try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
+            here.mkdir(exist_ok=True)
+        except FileExistsError:
+            raise WriteError(here, "exists and is not a directory") from None
+        except OSError as exc:
+            raise WriteError(here, _why(exc)) from None
+
+
+def write_files(root: Path, files) -> None:
+    """Write each (path, text) of ``files`` below ``root`` all or nothing, as far as a file
+    system allows: every text goes to a temporary file beside its target first (a full disk
+    or a refused folder stops here, and the files of an earlier run are left as they were);
+    then each is renamed into place. If a rename fails, the targets already replaced are
+    removed, so a counterexample is never left without its diagram or the other way round.
+    No reader (or a kill) ever sees half a file. A file gets the permissions an ordinary new
+    file would (0666 less the umask), not the owner-only ones of a temporary file:
+    counterexamples and reports are meant to be shared. Raises :class:`WriteError`."""
+    files = [(Path(p), t) for p, t in files]
+    temps: list = []
+    try:
+        for path, text in files:
+            safe_dir(root, path.parent)
+            try:
+                fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+            except OSError as exc:
+                raise WriteError(path, _why(exc)) from None
+            temps.append(tmp)
+            try:
+                os.chmod(tmp, 0o666 & ~_umask())
+                with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
+                    fh.write(text)
+                    fh.flush()
+                    os.fsync(fh.fileno())
+            except OSError as exc:
+                raise WriteError(path, _why(exc)) from None
+        for n, ((path, _), tmp) in enumerate(zip(files, temps)):
+            try:
+                os.replace(tmp, path)
+            except OSError as exc:
+                # no half pair: the new files already in place and the old ones not yet
+                # replaced go, so that no file is left whose partner is missing or stale
+                for other, _ in files:
+                    _unlink(other)
+                raise WriteError(path, _why(exc)) from None
+            temps[n] = None
+        temps = []
+    finally:
+        for tmp in temps:
+            if tmp is not None:
+                _unlink(Path(tmp))
+
+
+def _unlink(path: Path) -> None:
+    try:
+        os.unlink(path)
+    except OSError:
+        pass
+
+
+def write_atomic(path: Path, text: str, root: Path | None = None) -> None:
+    """Write one file atomically (:func:`write_files`); ``root``: the folder it must stay in
+    (default: its own folder)."""
+    write_files(Path(root) if root is not None else Path(path).parent, [(path, text)])
 
 
 def cex_path(out_dir: Path, pack: Pack, rule: Rule) -> Path:
@@ -275,6 +358,6 @@ def write_induction(out_dir: Path, pack: Pack, rule: Rule, lemmas, outcome, boun
     doc = build_induction(pack, rule, lemmas, outcome.views, outcome.plan, legs_from_flat(outcome.cti["legs"]),
                           bound=bound, minimal=outcome.minimal, solver=solver)
     target = induction_path(out_dir, pack, rule)
-    write_atomic(target, dumps(doc))
-    diagram.write_induction_beside(target, doc, rule, outcome.views)
+    write_files(out_dir, [(target, dumps(doc)),
+                          (diagram.svg_path(target), diagram.render_induction(doc, rule, outcome.views))])
     return target.as_posix()

@@ -13,7 +13,12 @@ Files in DIR:
   their diagrams, each checked by re-simulation (verifier show) before it is copied; likewise
   ``<rule>.induction.json`` and ``.induction.svg`` for counterexamples to induction.
 
-A directory that exists, is not empty and has no manifest of ours is never written into.
+- ``.verifier-report``: a marker, written first, so that a second run writing the same
+  report at the same time knows the folder is a report before its manifest exists.
+
+A directory that exists, is not empty and has neither a manifest of ours nor the marker is
+never written into. Each file is written atomically (a temporary file beside it, then a
+rename); a counterexample and its diagram are written both or neither.
 """
 
 from __future__ import annotations
@@ -97,13 +102,27 @@ def manifest_problem(doc, schema=MANIFEST_SCHEMA, where: str = "manifest") -> st
     return None
 
 
+MARKER = ".verifier-report"
+_TEMPORARY = re.compile(r"^\..+\.tmp$")     # cexfile.write_files' temporary files
+
+
+def _has_marker(out: Path) -> bool:
+    try:
+        return (out / MARKER).read_text(encoding="utf-8").strip() == FORMAT
+    except (OSError, UnicodeDecodeError):
+        return False
+
+
 def ensure_ours(out: Path) -> None:
     """Refuse (UsageError, exit 2) a path that exists and is not an empty directory or a report
-    of ours. Called before any rule is checked, and again before writing."""
+    of ours. Called before any rule is checked, and again before writing. A report that
+    another run is writing at this moment is ours: it has the marker (written first, before
+    any manifest), and a folder holding only temporary files of ours counts as empty."""
     out = Path(out)
     if out.exists() and not out.is_dir():
         raise UsageError(f"report directory {out.as_posix()} exists and is not a directory; not overwritten")
-    if out.is_dir() and any(out.iterdir()):
+    if (out.is_dir() and any(not _TEMPORARY.match(p.name) for p in out.iterdir())
+            and not (_has_marker(out) and not (out / "manifest.json").exists())):
         _read_manifest(out)
 
 
@@ -150,6 +169,7 @@ def prepare_dir(out: Path) -> None:
             if root in target.parents and target.is_file():
                 target.unlink()
     out.mkdir(parents=True, exist_ok=True)
+    cexfile.write_atomic(out / MARKER, FORMAT + "\n", root=out)
 
 
 def _natural(text: str):
@@ -259,17 +279,17 @@ def write_report(out: Path, packs, results, diags, opts) -> Path:
             rel = Path("counterexamples") / pr.name / f"{r.rule}.json"
             data = src.read_bytes()
             svg = diagram.render(e.doc, e.rule, e.state)
-            cexfile.write_atomic(out / rel, data.decode("utf-8"))
-            cexfile.write_atomic(out / rel.with_suffix(".svg"), svg)
+            cexfile.write_files(out, [(out / rel, data.decode("utf-8")),
+                                      (out / rel.with_suffix(".svg"), svg)])
             explained[(pr.name, r.rule)] = {
                 "file": rel.as_posix(), "sha256": _sha(data), "diagram": rel.with_suffix(".svg").as_posix(),
                 "diagram_sha256": _sha(svg.encode("utf-8")), "checked": e.checked}
             stories[(pr.name, r.rule)] = ("ok", e.text, svg)
     manifest, timings = build(packs, results, diags, opts, explained=explained)
-    cexfile.write_atomic(out / "timings.json", cexfile.dumps(timings))
+    cexfile.write_atomic(out / "timings.json", cexfile.dumps(timings), root=out)
     page = render_html(manifest, timings, stories, packs)
-    cexfile.write_atomic(out / "index.html", page)
-    cexfile.write_atomic(out / "manifest.json", cexfile.dumps(manifest))
+    cexfile.write_atomic(out / "index.html", page, root=out)
+    cexfile.write_atomic(out / "manifest.json", cexfile.dumps(manifest), root=out)
     return out / "index.html"
 
 
@@ -286,8 +306,7 @@ def _copy_induction(out: Path, pack, name: str, r, explained: dict, stories: dic
     rel = Path("counterexamples") / name / f"{r.rule}.induction.json"
     data = src.read_bytes()
     svg = diagram.render_induction(e.doc, e.rule, e.views)
-    cexfile.write_atomic(out / rel, data.decode("utf-8"))
-    cexfile.write_atomic(out / rel.with_suffix(".svg"), svg)
+    cexfile.write_files(out, [(out / rel, data.decode("utf-8")), (out / rel.with_suffix(".svg"), svg)])
     explained[key] = {"file": rel.as_posix(), "sha256": _sha(data),
                       "diagram": rel.with_suffix(".svg").as_posix(),
                       "diagram_sha256": _sha(svg.encode("utf-8")), "checked": e.checked}
