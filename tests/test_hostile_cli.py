@@ -150,7 +150,7 @@ def test_a_failed_rename_leaves_no_half_pair(tmp_path, monkeypatch, capsys):
     assert not list(folder.iterdir())          # neither the .json nor the .svg, no temporary
 
 
-def test_a_link_out_of_out_is_not_followed(tmp_path, monkeypatch, capsys):
+def test_a_link_out_of_out_is_not_followed_and_one_inside_it_is(tmp_path, monkeypatch, capsys):
     elsewhere = tmp_path / "elsewhere"
     elsewhere.mkdir()
     (tmp_path / "out").mkdir()
@@ -159,10 +159,9 @@ def test_a_link_out_of_out_is_not_followed(tmp_path, monkeypatch, capsys):
     assert code == 2 and _verdicts_printed(out)
     assert f"cannot write out/t: a symbolic link to {elsewhere.resolve().as_posix()}, outside out" in err
     assert not list(elsewhere.iterdir())
-
-
-def test_a_link_that_stays_inside_out_is_followed(tmp_path, monkeypatch, capsys):
-    (tmp_path / "out" / "real").mkdir(parents=True)
+    # a link that stays inside --out is followed
+    (tmp_path / "out" / "t").unlink()
+    (tmp_path / "out" / "real").mkdir()
     (tmp_path / "out" / "t").symlink_to(tmp_path / "out" / "real")
     code, out, err = _check(tmp_path, monkeypatch, capsys, "--out", "out")
     assert code == 1, err
