@@ -283,7 +283,13 @@ def shrink(world: World, fails, scope, bound: int) -> World:
     w = world
     for _ in range(4):
         before = w
-        # (1) fewest legs, fewest cab changes, fewest balises
+        # (1) fewest legs, fewest cab changes, fewest balises; first the shortest prefix that
+        # still fails (two cab changes that cancel are dropped together, not one by one)
+        for k in range(len(w.legs)):
+            trial = attrs.evolve(w, legs=w.legs[:k])
+            if ok(trial):
+                w = trial
+                break
         i = len(w.legs) - 1
         while i >= 0:
             trial = attrs.evolve(w, legs=w.legs[:i] + w.legs[i + 1:])
