@@ -72,8 +72,9 @@ def test_a_legs_option_and_any_number_of_legs_are_said(tmp_path, monkeypatch, ca
     _, out = _run(tmp_path, monkeypatch, capsys, "--legs", "2")
     assert "up to 2 legs (--legs 2)" in out and "own bound" not in out   # --legs overrides rules
     _, out = _run(tmp_path, monkeypatch, capsys, "--legs", "any", "--induction-depth", "3",
-                  "--rule", "front-known")
-    assert "any number of legs (k-induction: base case up to 2 legs, step depth 1..3)" in " ".join(out.split())
+                  "--max-legs", "5", "--rule", "front-known")
+    assert ("any number of legs (k-induction: base case up to 2 legs, step depth 1..3; a rule whose "
+            "step fails is checked on up to 5 legs)") in " ".join(out.split())
 
 
 def test_json_sarif_and_junit_carry_the_scope(tmp_path, monkeypatch, capsys):

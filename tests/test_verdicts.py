@@ -39,7 +39,7 @@ def test_json_output_shape(tmp_path, capsys, monkeypatch):
     rules = {r["id"]: r for r in doc["packs"][0]["rules"]}
     # DESIGN 7, with the proof kind and the lemmas of DESIGN 4.7
     assert set(doc) == {"packs", "errors", "summary", "lemma_summary"}
-    assert set(doc["packs"][0]) == {"name", "path", "rules", "lemmas"}
+    assert set(doc["packs"][0]) == {"name", "path", "scope", "rules", "lemmas"}
     assert set(rules["ok"]) == {"id", "verdict", "bound", "seconds", "counterexample", "witness",
                                 "message", "proof", "counterexample_to_induction"}
     assert rules["ok"]["proof"] == {"kind": "bounded", "legs": 1}

@@ -257,7 +257,7 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
             progress(n, len(todo), pack, rule, res)
     return [PackResult(p.name, p.path, tuple(results[id(p)]),
                        coverage.summary(p, opts.legs, opts.induction_depth,
-                                        [r for q, r in todo if q is p]))
+                                        [r for q, r in todo if q is p], max_legs=opts.max_legs))
             for p in packs]
 
 

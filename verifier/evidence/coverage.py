@@ -22,9 +22,11 @@ def _legs(n) -> str:
     return f"{n} leg{'s' if n != 1 else ''}"
 
 
-def summary(pack: Pack, legs=None, induction_depth: int = 4, rules=None, tested=None) -> dict:
+def summary(pack: Pack, legs=None, induction_depth: int = 4, rules=None, tested=None,
+            max_legs: int | None = None) -> dict:
     """The scope of ``pack``'s verdicts under ``--legs`` ``legs`` and ``--induction-depth``
-    (plain data; ``rules``: the rules and lemmas checked, default all). ``tested``: for
+    (plain data; ``rules``: the rules and lemmas checked, default all; ``max_legs``: how far the
+    base case of a rule whose step is not proved is deepened, ``--max-legs``). ``tested``: for
     ``verifier test``, the legs of the worlds tried ({"generated_legs", "solver_legs"})."""
     rules = list(pack.lemmas + pack.rules) if rules is None else list(rules)
     unbounded = pack.unbounded if legs is None else legs == "any"
@@ -35,6 +37,8 @@ def summary(pack: Pack, legs=None, induction_depth: int = 4, rules=None, tested=
     if unbounded:
         out["base_legs"] = max(bound, induction_depth - 1)
         out["induction_depth"] = induction_depth
+        if max_legs is not None:
+            out["max_legs"] = max_legs
     if legs is not None:
         out["legs_option"] = str(legs)
     own = {}
@@ -73,7 +77,9 @@ def parts(scope: dict) -> list[tuple[str, str]]:
     """The scope in words: (label, text) pairs."""
     if scope["legs"] == "any":
         legs = (f"any number of legs (k-induction: base case up to {_legs(scope['base_legs'])}, "
-                f"step depth 1..{scope['induction_depth']})")
+                f"step depth 1..{scope['induction_depth']}"
+                + (f"; a rule whose step fails is checked on up to {_legs(scope['max_legs'])}"
+                   if scope.get("max_legs", 0) > scope["base_legs"] else "") + ")")
     else:
         legs = f"up to {_legs(scope['legs'])}"
     if "tested" in scope:        # verifier test: worlds tried, not a proof
