@@ -153,6 +153,25 @@ def test_a_failed_rename_leaves_no_half_pair(tmp_path, monkeypatch, capsys):
     assert not list(folder.iterdir())          # neither the .json nor the .svg, no temporary
 
 
+def test_a_counterexample_to_induction_that_cannot_be_written(tmp_path, monkeypatch, capsys):
+    """The same for the file of a counterexample to induction (verdict bounded)."""
+    from verifier.evidence import cexfile
+    real = os.replace
+
+    def replace(src, dst):
+        if str(dst).endswith(".induction.svg"):
+            raise OSError(errno.EIO, os.strerror(errno.EIO))
+        return real(src, dst)
+    monkeypatch.setattr(cexfile.os, "replace", replace)
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "p.toml").write_text(pack_text(rule_toml("few", "legs.count <= 3"), legs=3)
+                                     .replace("legs = 3", 'legs = "any"'))
+    code = main(["check", "p.toml", "--no-cache", "--max-legs", "0"])
+    out, err = capsys.readouterr()
+    assert code == 2 and "bounded   few" in out and "summary: 0 holds, 0 violated, 0 vacuous, 1 bounded" in out
+    assert f"cannot write counterexamples/t/few.induction.svg: {os.strerror(errno.EIO)}" in err
+    assert not list((tmp_path / "counterexamples" / "t").iterdir())
+
 def test_a_link_out_of_out_is_not_followed_and_one_inside_it_is(tmp_path, monkeypatch, capsys):
     elsewhere = tmp_path / "elsewhere"
     elsewhere.mkdir()
