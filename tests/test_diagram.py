@@ -25,6 +25,7 @@ PACK = textwrap.dedent("""\
 
     [world]
     train_length = ["20 m", "1000 m"]
+    detection_in_odometry = true      # the worlds below were worked with the detection inside
 
     [onboard]
     q_scale = "10 cm"
