@@ -294,3 +294,49 @@ def test_diff_reports_progress_before_each_slow_step(tmp_path):
     assert said[0] == "diff: deciding 2 verdicts"          # one edited rule, both sides
     assert said[1:] == ["diff: [1/1] relating the two versions of position-report/"
                         "front-first-keeps-orientation (coverage and claim, up to 1 leg)"]
+
+
+# Lemmas are part of a pack's meaning, and diff decides verdicts as check does: the rule below is
+# true for one change of cab but provable for any number of legs only with the lemma o0 (as in
+# tests/test_replay_lemmas.py).
+ANY_OLD = """[pack]
+name = "t"
+title = "t"
+legs = "any"
+
+[[rule]]
+id = "one"
+title = "one"
+given = "cab_changes == 1"
+expect = "actual.orientation == (if passage.running == forward then flip(passage.direction) else passage.direction)"
+"""
+ANY_NEW = ANY_OLD.replace("[[rule]]", """[[lemma]]
+id = "o0"
+title = "o0"
+expect = "cab_changes == 0 implies actual.orientation == (if passage.running == forward then passage.direction else flip(passage.direction))"
+
+[[rule]]""")
+
+
+def test_an_added_lemma_is_a_change_and_verdicts_use_checks_bounds(tmp_path):
+    from verifier.diff import DiffOptions, diff_specs, exit_code, table
+    from verifier.engine import CheckOptions, check_packs
+    from verifier.loader import load_pack
+    (tmp_path / "old.toml").write_text(ANY_OLD)
+    (tmp_path / "new.toml").write_text(ANY_NEW)
+    opts = DiffOptions(induction_depth=1, max_legs=3)
+    (d,) = diff_specs(str(tmp_path / "old.toml"), str(tmp_path / "new.toml"), opts)
+    rules = {r.id: r for r in d.rules}
+    assert rules["o0"].status == "added" and rules["o0"].role == "lemma"
+    assert rules["one"].status == "edited" and "lemma.o0" in rules["one"].edits
+    assert (rules["one"].old.verdict, rules["one"].new.verdict) == ("bounded", "holds")
+    assert rules["one"].new.proof == "any number of legs"
+    # the same verdict and bound as check with the same options
+    (old_check,) = check_packs([load_pack(tmp_path / "old.toml")],
+                               CheckOptions(out=None, induction_depth=1, max_legs=3))
+    assert (old_check.results[0].verdict, old_check.results[0].bound) == ("bounded", rules["one"].old.bound)
+    assert rules["one"].bound == old_check.results[0].proof["legs"] == 3   # DESIGN 4.7: base 3
+    text = table([d], "old", "new")
+    assert "1 added" in text and "added     lemma o0" in text
+    assert "section added    lemma.o0: reaches one" in text
+    assert exit_code([d]) == 1

@@ -219,7 +219,8 @@ def cmd_diff(args) -> int:
     opts = diff.DiffOptions(legs=args.legs, rlimit=args.rlimit, timeout=args.timeout,
                             jobs=check_jobs(args.jobs), cache=cache,
                             out=Path(args.out) if args.out else None,
-                            rules=tuple(args.rule or ()), progress=progress.say)
+                            rules=tuple(args.rule or ()), progress=progress.say,
+                            induction_depth=args.induction_depth, max_legs=args.max_legs)
     try:
         diffs = diff.diff_specs(args.old, args.new, opts)
     finally:
@@ -491,6 +492,10 @@ def build_parser() -> argparse.ArgumentParser:
     d.add_argument("new", metavar="NEW")
     d.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
     d.add_argument("--legs", type=_bound_arg, metavar="K", help="bound for both sides (overrides packs and rules)")
+    d.add_argument("--induction-depth", type=_depth_arg, default=4, metavar="N",
+                   help="as for check: the deepest induction step tried for rules with legs = \"any\" (default 4)")
+    d.add_argument("--max-legs", type=_max_legs_arg, default=12, metavar="N",
+                   help="as for check: how far the base case of a rule whose step is not proved is deepened (default 12)")
     d.add_argument("--out", metavar="DIR", help="write distinguishing worlds and counterexamples under DIR (default: write nothing)")
     d.add_argument("--timeout", type=seconds_arg, metavar="SECONDS", help="wall-clock guard per question (default 120)")
     d.add_argument("--rlimit", type=_rlimit_arg, metavar="N", help="deterministic solver budget per check")

@@ -1,6 +1,9 @@
 """``verifier diff OLD NEW``: what an edit of a pack changes (DESIGN 7).
 
-Packs are matched by name, rules by id. A rule is
+Packs are matched by name, rules (and lemmas: they are part of a pack's meaning) by id. Every
+verdict is decided as ``verifier check`` decides it (the same bounds: a rule checked for any
+number of legs at its base case, with induction and deepening), and a rule checked for any
+number of legs is also edited when a lemma before it is. A rule is
 
 - ``added`` / ``removed``: present on one side only (its verdict on that side is reported);
 - ``unchanged``: everything that decides it is the same on both sides: its ``given`` (with the
@@ -23,7 +26,8 @@ with the rules they reach and those whose verdict they change.
 
 A verdict *changes* when an edited rule's verdict differs between the sides, and when a rule is
 added or removed (it goes from or to having no verdict). Exit code: 4 when solver and simulator
-disagree, 1 when some verdict changes, 3 when nothing changes but something is unknown, else 0
+disagree, 1 when some verdict changes, 3 when nothing changes but something is unknown or
+bounded, else 0
 (bad input is 2, raised as an error naming the side).
 
 Nothing is written unless ``out`` is given: then each distinguishing world and each side's
@@ -71,6 +75,8 @@ class DiffOptions:
     out: Path | None = None         # where to write worlds and counterexamples (None: nowhere)
     rules: tuple = ()               # rule ids to compare (empty: every rule)
     progress: object = None         # called with a line of text before each slow step, or None
+    induction_depth: int = 4        # as verifier check's defaults: the same bounds, the same proofs
+    max_legs: int = 12
 
 
 @attrs.frozen
@@ -81,10 +87,11 @@ class SideVerdict:
     kind: str = ""
     world: dict | None = None       # counterexample (violated) or witness (holds), as data
     file: str | None = None
+    proof: str = ""                 # as check says it: "up to 3 legs", "any number of legs", ...
 
     def as_json(self) -> dict:
         return {"verdict": self.verdict, "bound": self.bound, "message": self.message,
-                "world": self.world, "file": self.file}
+                "world": self.world, "file": self.file, "proof": self.proof}
 
 
 @attrs.frozen
@@ -117,6 +124,7 @@ class RuleDiff:
     coverage: str | None = None
     claim: str | None = None
     worlds: tuple = ()              # World, for the four questions
+    role: str = "rule"              # or "lemma": lemmas are part of a pack's meaning too
 
     def claim_meaning(self) -> str:
         """The claim relation in words. "Stronger" reads like an improvement, but it only means
@@ -145,7 +153,8 @@ class RuleDiff:
         return self.status == "edited" and self.old.verdict != self.new.verdict
 
     def as_json(self) -> dict:
-        return {"id": self.id, "status": self.status, "verdict_changed": self.verdict_changed,
+        return {"id": self.id, "role": self.role, "status": self.status,
+                "verdict_changed": self.verdict_changed,
                 "old": self.old.as_json() if self.old else None,
                 "new": self.new.as_json() if self.new else None,
                 "edits": list(self.edits), "bound": self.bound, "coverage": self.coverage,
@@ -189,10 +198,18 @@ def _params_named(texts) -> set:
     return out
 
 
-def fingerprint(pack: Pack, rule: Rule, bound: int) -> dict:
-    """Everything that decides the rule's meaning, by the section key it comes from."""
+def fingerprint(pack: Pack, rule: Rule, bound: int, legs=None) -> dict:
+    """Everything that decides the rule's meaning, by the section key it comes from. For a rule
+    checked for any number of legs that includes every lemma of the pack before it (each may
+    be assumed by its proof) and that it is checked so."""
     fp = {"given": rule.given.text if rule.given else None, "premise": rule.premise_legs,
-          "expect": rule.expect.text, "bound": bound, "world": pack.scope.as_json()}
+          "expect": rule.expect.text, "bound": bound, "world": pack.scope.as_json(),
+          "legs": "any" if pack.unbounded_for(rule, legs) else bound}
+    if pack.unbounded_for(rule, legs):
+        for lemma in pack.lemmas:
+            if lemma.id == rule.id:
+                break
+            fp[f"lemma.{lemma.id}"] = _lemma_text(lemma)
     texts = [rule.expect.text] + ([rule.given.text] if rule.given else [])
     for kind, name in sorted(rule.deps):
         text = pack.definition((kind, name)).text
@@ -206,8 +223,13 @@ def fingerprint(pack: Pack, rule: Rule, bound: int) -> dict:
     return fp
 
 
+def _lemma_text(lemma: Rule) -> str:
+    return (f"given {lemma.given.text}; " if lemma.given else "") + f"expect {lemma.expect.text}"
+
+
 def sections(pack: Pack) -> dict:
     out = {"world": json.dumps(pack.scope.as_json(), sort_keys=True)}
+    out.update({f"lemma.{x.id}": _lemma_text(x) for x in pack.lemmas})
     out.update({f"params.{k}": fmt(v[1]) for k, v in pack.params.items()})
     out.update({f"let.{k}": f.text for k, f in pack.lets.items()})
     out.update({f"onboard.{k}": f.text for k, f in pack.onboard.items()})
@@ -225,28 +247,47 @@ _MISSING = object()
 
 # ---- verdicts ------------------------------------------------------------------------------
 def _verdicts(items, opts: DiffOptions) -> list[SideVerdict]:
-    """Each (pack, rule, side) decided and replayed exactly as by ``verifier check``."""
-    from verifier.engine import CheckOptions, check_rule
-    from verifier.parallel import solve_in_order
-    copts = CheckOptions(legs=opts.legs, timeout=opts.timeout, rlimit=opts.rlimit, out=None)
-    pre = solve_in_order([(p, r) for p, r, _ in items], legs=opts.legs, timeout=opts.timeout,
-                         rlimit=opts.rlimit, jobs=opts.jobs, cache=opts.cache)
+    """Each (pack, rule, side) decided exactly as by ``verifier check`` (``engine.check_packs``:
+    the same bounds, the pack's lemmas first, induction and deepening for a rule checked for any
+    number of legs), each side's rules of a pack in one call."""
+    from verifier.engine import CheckOptions, check_packs
+    copts = CheckOptions(legs=opts.legs, timeout=opts.timeout, rlimit=opts.rlimit, out=None,
+                         jobs=opts.jobs, cache=opts.cache, induction_depth=opts.induction_depth,
+                         max_legs=opts.max_legs)
+    groups: dict = {}
+    for pack, rule, _ in items:
+        groups.setdefault(id(pack), (pack, []))[1].append(rule.id)
+    results: dict = {}
+    for pack, ids in groups.values():
+        (pr,) = check_packs([pack], attrs.evolve(copts, rules=tuple(ids)))
+        results.update({(id(pack), r.rule): r for r in pr.results})
     out = []
-    for (pack, rule, side), ps in zip(items, pre):
-        res = check_rule(pack, rule, copts, ps)
-        world = res.witness
-        path = None
-        if res.verdict == "violated":
-            w = world_from_flat(ps.solved.world)
-            world = world_to_data(w)
+    for pack, rule, side in items:
+        res = results[(id(pack), rule.id)]
+        world, path = res.witness, None
+        if res.verdict == "violated" and res.world is not None:
+            world = res.world
             if opts.out is not None:
-                doc = cexfile.build(pack, rule, State(pack, w), verdict="violated", bound=res.bound,
-                                    solver=ps.solved.solver, minimal=ps.solved.minimal)
+                doc = cexfile.build(pack, rule, State(pack, world_from_data(world)), verdict="violated",
+                                    bound=res.bound, solver=res.solver, minimal=res.minimal)
                 target = opts.out / pack.name / f"{rule.id}.{side}.json"
                 cexfile.write_atomic(target, cexfile.dumps(doc))
                 path = target.as_posix()
-        out.append(SideVerdict(res.verdict, res.bound, res.message, res.kind, world, path))
+        out.append(SideVerdict(res.verdict, res.bound, res.message, res.kind, world, path,
+                               _proof_words(res)))
     return out
+
+
+def _proof_words(res) -> str:
+    from verifier.engine import proof_words
+    return proof_words(res)
+
+
+def check_bound(pack: Pack, rule: Rule, opts: DiffOptions) -> int:
+    """The bound ``verifier check`` decides the rule at (the base case of a rule checked for any
+    number of legs)."""
+    from verifier.induct import base_bound
+    return base_bound(pack, rule, opts.legs, opts.induction_depth)
 
 
 # ---- distinguishing worlds -------------------------------------------------------------------
@@ -382,16 +423,17 @@ def diff_packs(old_packs: list[Pack], new_packs: list[Pack], opts: DiffOptions =
     plan, items = [], []
     for name in names:
         op, np_ = olds.get(name), news.get(name)
-        ids = [r.id for r in op.rules] if op else []
-        ids += [r.id for r in np_.rules if r.id not in ids] if np_ else []
+        ids = [r.id for r in op.lemmas + op.rules] if op else []
+        ids += [r.id for r in np_.lemmas + np_.rules if r.id not in ids] if np_ else []
         if opts.rules:
             ids = [rid for rid in ids if rid in opts.rules]
         for rid in ids:
             orule = _rule(op, rid)
             nrule = _rule(np_, rid)
             if orule and nrule:
-                ob, nb = op.bound_for(orule, opts.legs), np_.bound_for(nrule, opts.legs)
-                edits = tuple(_changed_keys(fingerprint(op, orule, ob), fingerprint(np_, nrule, nb)))
+                ob, nb = check_bound(op, orule, opts), check_bound(np_, nrule, opts)
+                edits = tuple(_changed_keys(fingerprint(op, orule, ob, opts.legs),
+                                            fingerprint(np_, nrule, nb, opts.legs)))
                 status = "edited" if edits else "unchanged"
             else:
                 status, edits = ("removed" if orule else "added"), ()
@@ -402,7 +444,7 @@ def diff_packs(old_packs: list[Pack], new_packs: list[Pack], opts: DiffOptions =
                 if nrule:
                     items.append((np_, nrule, "new"))
     if opts.rules:
-        known = {r.id for p in old_packs + new_packs for r in p.rules}
+        known = {r.id for p in old_packs + new_packs for r in p.rules + p.lemmas}
         missing = [r for r in opts.rules if r not in known]
         if missing:
             raise UsageError(f"no rule with id '{missing[0]}' on either side" + suggest(missing[0], known))
@@ -418,18 +460,19 @@ def diff_packs(old_packs: list[Pack], new_packs: list[Pack], opts: DiffOptions =
             if pname != name:
                 continue
             old_v, new_v = verdicts.get((name, rid, "old")), verdicts.get((name, rid, "new"))
+            role = (_rule(op, rid) or _rule(np_, rid)).role
             if status != "edited":
-                rules.append(RuleDiff(rid, status, old_v, new_v, edits))
+                rules.append(RuleDiff(rid, status, old_v, new_v, edits, role=role))
                 continue
             orule, nrule = op.rule(rid), np_.rule(rid)
-            bound = min(op.bound_for(orule, opts.legs), np_.bound_for(nrule, opts.legs))
+            bound = min(check_bound(op, orule, opts), check_bound(np_, nrule, opts))
             k_edited += 1
             if opts.progress:
                 opts.progress(f"diff: [{k_edited}/{n_edited}] relating the two versions of "
                               f"{name}/{rid} (coverage and claim, up to {bound} leg{'s' if bound != 1 else ''})")
             seeds = [v.world for v in (old_v, new_v) if v is not None and v.world is not None]
             cov, claim, worlds = _relations(op, orule, np_, nrule, bound, opts, seeds)
-            rules.append(RuleDiff(rid, status, old_v, new_v, edits, bound, cov, claim, worlds))
+            rules.append(RuleDiff(rid, status, old_v, new_v, edits, bound, cov, claim, worlds, role))
         secs = []
         if op and np_:
             so, sn = sections(op), sections(np_)
@@ -470,7 +513,7 @@ def exit_code(diffs: list[PackDiff]) -> int:
         return 2
     if any(r.verdict_changed for r in rules):
         return 1
-    if any(v.verdict == "unknown" for v in sides) or any(w.status == "unknown" for w in worlds):
+    if any(v.verdict in ("unknown", "bounded") for v in sides) or any(w.status == "unknown" for w in worlds):
         return 3
     return 0
 
@@ -506,11 +549,12 @@ def table(diffs: list[PackDiff], old: str, new: str) -> str:
             moved = f"; changes the verdict of {', '.join(s.changes_verdict)}" if s.changes_verdict else ""
             reach = f"reaches {', '.join(s.reaches)}" if s.reaches else "reaches no rule"
             lines.append(f"  section {s.change:<8} {s.key}: {reach}{moved}")
-        width = max((len(r.id) for r in d.rules), default=10)
+        width = max((len(r.id) + (6 if r.role == "lemma" else 0) for r in d.rules), default=10)
         for r in d.rules:
-            ov = r.old.verdict if r.old else "-"
-            nv = r.new.verdict if r.new else "-"
-            head = f"  {r.status:<9} {r.id:<{width}}"
+            ov = f"{r.old.verdict} ({r.old.proof})" if r.old and r.old.proof else r.old.verdict if r.old else "-"
+            nv = f"{r.new.verdict} ({r.new.proof})" if r.new and r.new.proof else r.new.verdict if r.new else "-"
+            name = f"lemma {r.id}" if r.role == "lemma" else r.id
+            head = f"  {r.status:<9} {name:<{width}}"
             if r.status == "unchanged":
                 lines.append(head)
                 continue

@@ -60,6 +60,7 @@ class RuleResult:
     proof: dict | None = None   # what kind of proof the verdict rests on (see proof_words)
     induction: str | None = None  # the counterexample to induction file, for verdict bounded
     write_error: str = ""   # its evidence file could not be written: the path and the OS's reason
+    world: dict | None = attrs.field(default=None, eq=False)   # a violated rule's counterexample world (data)
 
     @property
     def unbounded(self) -> bool:
@@ -187,7 +188,8 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None,
     msg = describe_failure(cexfile.failed_detail(rule, st))
     if not solved.minimal:
         msg += " (not fully minimised: " + solved.reason + ")"
-    return result("violated", counterexample=path, message=msg, write_error=unwritten)
+    return result("violated", counterexample=path, message=msg, write_error=unwritten,
+                  world=world_to_data(world))
 
 
 def _vacuity_message(pack: Pack, rule: Rule, bound: int, reason: str, within: str = "") -> str:
