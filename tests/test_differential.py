@@ -120,8 +120,9 @@ def _outside(world: World, scope: Scope, how: int) -> World:
     last = world.legs[-1]
     if how == 6:
         return attrs.evolve(world, legs=world.legs[:-1] + (attrs.evolve(last, distance=scope.leg_distance[1] + mm),))
-    # over-reading 1 mm beyond what the bound allows after the last leg
-    over = max(F(0), -world.detect_error)
+    # over-reading 1 mm beyond what the bound allows after the last leg (the detection error
+    # counts against the odometry bound only when it is inside it, DESIGN 4.1)
+    over = max(F(0), -world.detect_error) if scope.detection_in_odometry else F(0)
     measured = F(0)
     for leg in world.legs[:-1]:
         over += max(F(0), leg.odometer - leg.distance)
