@@ -261,3 +261,18 @@ def test_a_shipped_pack_edit_of_an_item_validity_is_solved_again(tmp_path):
     assert not after.results[0].cached
     assert after.results[0].verdict != "error"
     assert before.results[0].verdict == "holds"
+
+
+def test_an_interrupt_while_storing_leaves_no_temporary_file(tmp_path, monkeypatch):
+    """Ctrl-C between the temporary file and the rename: nothing half-written stays behind."""
+    import os
+
+    from verifier.smt.solve import Solved
+    cache = Cache(tmp_path)
+
+    def interrupted(*_):
+        raise KeyboardInterrupt
+    monkeypatch.setattr(os, "replace", interrupted)
+    with pytest.raises(KeyboardInterrupt):
+        cache.put("c" * 64, Solved("holds", world=None, minimal=True), witness=False)
+    assert [p for p in tmp_path.rglob("*") if p.is_file()] == []

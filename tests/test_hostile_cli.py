@@ -342,3 +342,26 @@ def test_workers_exit_when_the_parent_is_killed(tmp_path):
         for w in workers:
             if _alive(w):
                 os.kill(w, signal.SIGKILL)
+
+
+def test_every_check_outside_a_session_turns_z3s_ctrl_c_answer_into_an_interrupt():
+    """z3 answers SIGINT with unknown 'interrupted from keyboard' (measured); the induction
+    step, the concrete checks and the export all check through solve.check, which raises."""
+    import pathlib
+
+    import z3
+
+    from verifier.smt import solve
+
+    class Interrupted:
+        def check(self, *_):
+            return z3.unknown
+
+        def reason_unknown(self):
+            return solve.INTERRUPTED
+    with pytest.raises(KeyboardInterrupt):
+        solve.check(Interrupted())
+    smt = pathlib.Path(solve.__file__).parent
+    for name in ("induction.py", "concrete.py", "export.py"):
+        text = (smt / name).read_text()
+        assert not __import__("re").search(r"(?<![\w.])s\.check\(", text), name

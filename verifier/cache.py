@@ -311,15 +311,23 @@ class Cache:
         doc = {"format": fmt, "key": key, field: payload,
                "sha256": _sha(json.dumps(payload, sort_keys=True))}
         path = self._file(key)
+        tmp = None
         try:
             path.parent.mkdir(parents=True, exist_ok=True)
             fd, tmp = tempfile.mkstemp(prefix=f".{key[:8]}.", suffix=".tmp", dir=path.parent)
             with os.fdopen(fd, "w", encoding="utf-8") as fh:
                 fh.write(json.dumps(doc, sort_keys=True) + "\n")
             os.replace(tmp, path)
+            tmp = None
         except OSError as exc:
             self._warn(f"cannot write the cache under {self.root.as_posix()}: "
-                                 f"{exc.strerror or exc}")
+                       f"{exc.strerror or exc}")
             return False
+        finally:        # an error or a Ctrl-C before the rename leaves no temporary file
+            if tmp is not None:
+                try:
+                    os.unlink(tmp)
+                except OSError:
+                    pass
         self.stored += 1
         return True

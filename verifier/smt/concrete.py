@@ -18,6 +18,7 @@ import attrs
 import z3
 
 from verifier.check.model import Pack
+from verifier.smt import solve
 from verifier.smt.encode import Encoding
 from verifier.smt.solve import _fraction
 from verifier.world.vocab import GLOBAL, INFO_FIELDS, LEG, names_for
@@ -142,7 +143,7 @@ class Evaluator:
     def _evaluate(self, world: dict, assumptions: list, unique: bool) -> Concrete:
         s = self.solver
         s.add(*assumptions)
-        r = s.check()
+        r = solve.check(s)
         if r == z3.unsat:
             return Concrete(scope_ok=False)
         if r != z3.sat:
@@ -172,7 +173,7 @@ class Evaluator:
         is_unique, ambiguous = None, ()
         if unique:
             s.add(z3.Or([t != v for _, _, t, v in fixed]))
-            r2 = s.check()
+            r2 = solve.check(s)
             if r2 == z3.sat:
                 m2 = s.model()
                 ambiguous = tuple(str(key) for _, key, t, v in fixed
@@ -259,7 +260,7 @@ def boundary_worlds(pack: Pack, rule, bound: int, *, count: int = 4, timeout: fl
         s.set("rlimit", rlimit)
         s.set("timeout", int(timeout * 1000))
         s.add(*enc.constraints, given, *exclude, q)
-        r = s.check()
+        r = solve.check(s)
         if r != z3.sat:
             continue
         m = s.model()
@@ -284,7 +285,7 @@ def violation_status(pack: Pack, rule, bound: int, *, rlimit: int = 20_000_000,
     s.set("timeout", int(timeout * 1000))
     s.add(*enc.constraints)
     s.add(given, z3.Not(expect))
-    return str(s.check())
+    return str(solve.check(s))
 
 
 def same_outputs(original: Pack, mutant: Pack, bound: int, names, *, rlimit: int = 50_000_000,
@@ -301,7 +302,7 @@ def same_outputs(original: Pack, mutant: Pack, bound: int, names, *, rlimit: int
     s.set("timeout", int(timeout * 1000))
     s.add(*a.constraints, *b.constraints)
     s.add(z3.Or(differ))
-    r = s.check()
+    r = solve.check(s)
     return {"unsat": "equivalent", "sat": "different"}.get(str(r), "unknown")
 
 
@@ -324,4 +325,4 @@ def same_formula(original: Pack, mutant: Pack, dep: tuple, bound: int, *,
     s.set("timeout", int(timeout * 1000))
     s.add(*a.constraints, *b.constraints)
     s.add(z3.Or(differ) if differ else z3.BoolVal(False, ctx))
-    return {"unsat": "equivalent", "sat": "different"}.get(str(s.check()), "unknown")
+    return {"unsat": "equivalent", "sat": "different"}.get(str(solve.check(s)), "unknown")

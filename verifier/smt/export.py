@@ -25,6 +25,7 @@ import z3
 
 from verifier.check.model import Pack, Rule
 from verifier.errors import InternalError
+from verifier.smt import solve
 from verifier.smt.smtlib import EXPECT, GIVEN, export_rule
 
 LOGIC = "QF_LIRA"
@@ -226,7 +227,7 @@ def z3_status(text: str, timeout: float = 60.0) -> str:
     s = z3.Solver(ctx=ctx)
     s.set("timeout", int(timeout * 1000))
     s.add(*z3.parse_smt2_string(text, ctx=ctx))
-    return str(s.check())
+    return str(solve.check(s))
 
 
 def declared_status(text: str) -> str | None:

@@ -376,7 +376,7 @@ def evaluate_path(pack: Pack, plan: Plan, data: dict, names, rules=(), *, timeou
     s = z3.Solver(ctx=ctx)
     s.set("timeout", int(timeout * 1000))
     s.add(*path.constraints, *_fix(path, data))
-    r = s.check()
+    r = solve.check(s)
     if r == z3.unsat:
         return None
     if r != z3.sat:
@@ -425,7 +425,7 @@ def bounded_state(pack: Pack, plan: Plan, world: dict, *, timeout: float = 30.0)
     s.push()
     try:
         s.add(*ev._assumptions(world))
-        if s.check() != z3.sat:
+        if solve.check(s) != z3.sat:
             raise ValueError("the bounded encoding rejects the world")
         m = s.model()
         out = {}

@@ -50,6 +50,14 @@ def raise_if_interrupted(solver, result) -> None:
         raise KeyboardInterrupt
 
 
+def check(solver, *assumptions):
+    """``solver.check(*assumptions)``, with z3's answer to Ctrl-C turned back into
+    KeyboardInterrupt: every check outside a session goes through here."""
+    result = solver.check(*assumptions)
+    raise_if_interrupted(solver, result)
+    return result
+
+
 class _Budget:
     def __init__(self, timeout: float):
         self.deadline = time.monotonic() + timeout
