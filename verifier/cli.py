@@ -58,6 +58,27 @@ class _Progress:
             sys.stderr.flush()
 
 
+TABLE_WIDTH = 100
+
+
+def _fit(lines: list, width: int = TABLE_WIDTH) -> str:
+    """The table's lines folded to ``width`` columns, each continuation under the text it
+    continues; a word longer than a line (a long path) is kept whole on a line of its own."""
+    import textwrap
+    out = []
+    for line in lines:
+        if len(line) <= width:
+            out.append(line)
+            continue
+        body = line.lstrip(" ")
+        lead = len(line) - len(body)
+        hang = lead if lead else len(body.split(" ", 1)[0]) + 1     # "note: ", "summary: "
+        out += textwrap.wrap(body, width=width, initial_indent=" " * lead,
+                             subsequent_indent=" " * hang, break_long_words=False,
+                             break_on_hyphens=False)
+    return "\n".join(out)
+
+
 def _table(results, input_diags) -> str:
     from verifier.engine import VERDICTS, proof_detail, proof_words
     from verifier.evidence import coverage
@@ -95,7 +116,7 @@ def _table(results, input_diags) -> str:
         summary += f"; {errors} input error{'s' if errors != 1 else ''} (packs with errors were not checked)"
     lines.append(f"summary: {summary}")
     lines.append(f"note: {CAUTION}")
-    return "\n".join(lines)
+    return _fit(lines)
 
 
 def _with_jobs_and_cache(opts, args):
