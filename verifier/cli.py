@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+import textwrap
 import time
 from pathlib import Path
 
@@ -64,7 +65,6 @@ TABLE_WIDTH = 100
 def _fit(lines: list, width: int = TABLE_WIDTH) -> str:
     """The table's lines folded to ``width`` columns, each continuation under the text it
     continues; a word longer than a line (a long path) is kept whole on a line of its own."""
-    import textwrap
     out = []
     for line in lines:
         if len(line) <= width:

@@ -250,7 +250,7 @@ def _verdicts(items, opts: DiffOptions) -> list[SideVerdict]:
     """Each (pack, rule, side) decided exactly as by ``verifier check`` (``engine.check_packs``:
     the same bounds, the pack's lemmas first, induction and deepening for a rule checked for any
     number of legs), each side's rules of a pack in one call."""
-    from verifier.engine import CheckOptions, check_packs
+    from verifier.engine import CheckOptions, check_packs, proof_words
     copts = CheckOptions(legs=opts.legs, timeout=opts.timeout, rlimit=opts.rlimit, out=None,
                          jobs=opts.jobs, cache=opts.cache, induction_depth=opts.induction_depth,
                          max_legs=opts.max_legs)
@@ -274,13 +274,8 @@ def _verdicts(items, opts: DiffOptions) -> list[SideVerdict]:
                 cexfile.write_atomic(target, cexfile.dumps(doc))
                 path = target.as_posix()
         out.append(SideVerdict(res.verdict, res.bound, res.message, res.kind, world, path,
-                               _proof_words(res)))
+                               proof_words(res)))
     return out
-
-
-def _proof_words(res) -> str:
-    from verifier.engine import proof_words
-    return proof_words(res)
 
 
 def check_bound(pack: Pack, rule: Rule, opts: DiffOptions) -> int:
