@@ -1,4 +1,4 @@
-"""How long ``verifier.loader.discover`` takes over many pack files (it was quadratic: each new
+"""How long ``verifier.run.loader.discover`` takes over many pack files (it was quadratic: each new
 file was compared with every file kept so far, resolving both paths each time).
 
     .venv/bin/python bench/bench_discover.py            # 1,000 and 2,000 packs
@@ -19,7 +19,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from verifier.loader import discover  # noqa: E402
+from verifier.run.loader import discover  # noqa: E402
 
 
 def measure(n: int, once: bool = False) -> tuple[float, int]:

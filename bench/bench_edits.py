@@ -18,11 +18,11 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from verifier.cache import Cache  # noqa: E402
+from verifier.run.cache import Cache  # noqa: E402
 from verifier.check.typer import check_pack  # noqa: E402
-from verifier.engine import CheckOptions, check_packs  # noqa: E402
+from verifier.api import CheckOptions, check_packs  # noqa: E402
 from verifier.lang.pack import parse_pack_text  # noqa: E402
-from verifier.loader import load_all  # noqa: E402
+from verifier.run.loader import load_all  # noqa: E402
 
 
 def edit_one_rule(packs):

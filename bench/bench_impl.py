@@ -23,8 +23,8 @@ from hypothesis import HealthCheck, given, settings  # noqa: E402
 
 from verifier.implcheck import interface  # noqa: E402
 from verifier.implcheck.runner import Checker, solver_worlds  # noqa: E402
-from verifier.loader import load_pack  # noqa: E402
-from verifier.strategies import worlds  # noqa: E402
+from verifier.run.loader import load_pack  # noqa: E402
+from verifier.trust.strategies import worlds  # noqa: E402
 
 TRIVIAL = dict(q_scale=1, d_lrbg=0, q_dlrbg=1, q_dirlrbg=1, q_dirtrain=1, l_doubtover=10, l_doubtunder=10)
 

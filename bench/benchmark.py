@@ -20,8 +20,8 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from verifier.engine import CheckOptions, check_packs  # noqa: E402
-from verifier.loader import load_all  # noqa: E402
+from verifier.api import CheckOptions, check_packs  # noqa: E402
+from verifier.run.loader import load_all  # noqa: E402
 
 
 def run(packs, legs=None):

@@ -51,7 +51,7 @@ def whole_check_refused(monkeypatch):
         import z3
 
         from verifier.smt import solve
-        real, refused = solve._Session.check, []
+        real, refused = solve.SolverSession.check, []
 
         def check(self, *assumptions):
             if not assumptions and not getattr(self, "_refused", False):
@@ -60,6 +60,6 @@ def whole_check_refused(monkeypatch):
                 real(self, *assumptions)
                 return z3.unknown
             return real(self, *assumptions)
-        monkeypatch.setattr(solve._Session, "check", check)
+        monkeypatch.setattr(solve.SolverSession, "check", check)
         return refused
     return install

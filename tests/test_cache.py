@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import json
 
-from verifier.cache import Cache, rule_key
+from verifier.run.cache import Cache, rule_key
 from verifier.check.typer import check_pack
-from verifier.engine import CheckOptions, check_packs
+from verifier.api import CheckOptions, check_packs
 from verifier.lang.pack import parse_pack_text
-from verifier.parallel import solve_in_order
+from verifier.run.parallel import solve_in_order
 from verifier.smt.solve import Solved
 
 
@@ -94,7 +94,7 @@ def test_editing_a_design_formula_resolves_only_the_rules_that_reach_it(tmp_path
     stale value would be an internal error)."""
     from pathlib import Path
 
-    from verifier.loader import load_pack
+    from verifier.run.loader import load_pack
     root = Path(__file__).resolve().parent.parent
     text = (root / "rules" / "demo" / "kestrel-quay.toml").read_text(encoding="utf-8")
     old_line = 'q_dirlrbg = "if passage.running == forward then passage.seen else flip(passage.seen)"'
@@ -128,8 +128,8 @@ def test_stale_compared_values_from_the_cache_would_be_caught(tmp_path, monkeypa
     report values the edit changed, which is why a hit recomputes them."""
     from pathlib import Path
 
-    from verifier import parallel
-    from verifier.loader import load_pack
+    from verifier.run import parallel
+    from verifier.run.loader import load_pack
     root = Path(__file__).resolve().parent.parent
     text = (root / "rules" / "demo" / "kestrel-quay.toml").read_text(encoding="utf-8")
     (tmp_path / "a").mkdir()

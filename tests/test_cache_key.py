@@ -17,11 +17,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from verifier.cache import Cache, induction_key, rule_key
+from verifier.run.cache import Cache, induction_key, rule_key
 from verifier.check.typer import check_pack
-from verifier.engine import CheckOptions, check_packs
+from verifier.api import CheckOptions, check_packs
 from verifier.lang.pack import TABLES, parse_pack_text
-from verifier.world import vocab
+from verifier.lang import vocab
 
 # A two-group pack with every table filled in, whose one rule reaches every definition: the
 # let, the parameter, the information item, every onboard output (through report.*), every

@@ -6,9 +6,9 @@ import pytest
 
 from catalogue import CASES
 from conftest import pack_text, rule_toml
-from verifier.engine import CheckOptions, check_rule
+from verifier.api import CheckOptions, check_rule
 from verifier.lang.parser import parse
-from verifier.loader import load_pack
+from verifier.run.loader import load_pack
 from verifier.world.scenario import world_from_data
 from verifier.world.sim import State, applies, evaluate, scope_problems
 

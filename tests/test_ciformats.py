@@ -18,7 +18,7 @@ import jsonschema
 import pytest
 
 from verifier.cli import main
-from verifier.engine import PackResult, RuleResult
+from verifier.run.engine import PackResult, RuleResult
 from verifier.errors import Diagnostic
 from verifier.evidence import ciformats
 

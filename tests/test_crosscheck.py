@@ -6,9 +6,9 @@ from pathlib import Path
 
 import pytest
 
-from verifier import crosscheck
+from verifier.trust import crosscheck
 from verifier.cli import main
-from verifier.loader import load_pack
+from verifier.run.loader import load_pack
 from verifier.smt import export, second
 from verifier.smt.concrete import boundary_worlds
 from verifier.world.scenario import world_from_flat

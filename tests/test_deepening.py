@@ -8,14 +8,16 @@ Every expected leg count is worked by hand in the test: the tool's output is nev
 from __future__ import annotations
 
 import json
-import pytest
 
+import pytest
 from conftest import pack_text, rule_toml
+
+from verifier.api import CheckOptions, check_packs
 from verifier.check.unbounded import plan_for, rule_formulas
 from verifier.cli import main
-from verifier.engine import CheckOptions, check_packs, proof_words
 from verifier.errors import PackError
-from verifier.loader import load_pack
+from verifier.run.engine import proof_words
+from verifier.run.loader import load_pack
 
 EXACT = 'leg_distance = ["0 m", "10 m"]\nodometry_over = { fixed = "0 m", rate = "0 %" }\n' \
         'odometry_under = { fixed = "0 m", rate = "0 %" }\ndetection = "0 m"'
@@ -83,7 +85,7 @@ def test_deepening_stops_at_max_legs_and_says_how_far_it_holds(write_pack, tmp_p
 
 
 def test_deepening_stops_when_its_budget_runs_out(write_pack, monkeypatch):
-    from verifier import induct
+    from verifier.run import induct
     monkeypatch.setattr(induct, "deepening_budget", lambda rlimit: 0)
     p = any_pack(write_pack, rule_toml("few-cabs", "cab_changes <= 6"))
     got = run(p)["few-cabs"]
@@ -92,7 +94,7 @@ def test_deepening_stops_when_its_budget_runs_out(write_pack, monkeypatch):
 
 
 def test_a_rule_proved_by_induction_is_not_deepened(write_pack, monkeypatch):
-    from verifier import engine
+    from verifier.run import engine
     calls = []
     monkeypatch.setattr(engine, "_deepened", lambda *a: calls.append(a))
     p = any_pack(write_pack, rule_toml("cabs", "cab_changes <= legs.count"))

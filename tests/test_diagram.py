@@ -11,7 +11,7 @@ from xml.etree import ElementTree as ET
 import pytest
 
 from verifier.evidence import cexfile, diagram
-from verifier.loader import load_pack
+from verifier.run.loader import load_pack
 from verifier.world.scenario import world_from_data
 from verifier.world.sim import State, evaluate, scope_problems
 

@@ -8,10 +8,10 @@ from pathlib import Path
 
 import pytest
 
-from verifier import diff
+from verifier.recheck import diff
 from verifier.cli import main
-from verifier.gitrev import load_side
-from verifier.loader import load_pack
+from verifier.run.gitrev import load_side
+from verifier.run.loader import load_pack
 
 ROOT = Path(__file__).resolve().parent.parent
 PACKS = ROOT / "tests" / "packs"
@@ -213,7 +213,7 @@ def test_missing_sides_are_usage_errors(spec, capsys, monkeypatch):
     (("expect",), "equivalent", ""),
 ])
 def test_claim_meaning_says_what_stronger_means(edits, claim, words):
-    """'Stronger' is true in fewer worlds (the definition in verifier/diff.py, worked by hand):
+    """'Stronger' is true in fewer worlds (the definition in verifier/recheck/diff.py, worked by hand):
     for an edited design that is the design getting worse, and the words must say so."""
     side = diff.SideVerdict("holds", 1)
     r = diff.RuleDiff("r", "edited", side, side, edits=edits, claim=claim)
@@ -319,9 +319,9 @@ expect = "cab_changes == 0 implies actual.orientation == (if passage.running == 
 
 
 def test_an_added_lemma_is_a_change_and_verdicts_use_checks_bounds(tmp_path):
-    from verifier.diff import DiffOptions, diff_specs, exit_code, table
-    from verifier.engine import CheckOptions, check_packs
-    from verifier.loader import load_pack
+    from verifier.recheck.diff import DiffOptions, diff_specs, exit_code, table
+    from verifier.api import CheckOptions, check_packs
+    from verifier.run.loader import load_pack
     (tmp_path / "old.toml").write_text(ANY_OLD)
     (tmp_path / "new.toml").write_text(ANY_NEW)
     opts = DiffOptions(induction_depth=1, max_legs=3)

@@ -1,6 +1,6 @@
 """Differential testing: the simulator and the SMT encoding evaluated on the same worlds.
 
-The worlds come from :mod:`verifier.strategies` (inside each pack's scope, leaning on the
+The worlds come from :mod:`verifier.trust.strategies` (inside each pack's scope, leaning on the
 corners); the packs are the shipped catalogue (rules/) and the test catalogue (tests/packs/).
 For each world every vocabulary name, every per-leg field, every ``let`` and every rule's given
 and expect must have the same value in both implementations.
@@ -17,13 +17,13 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from verifier.differential import catalogue, compare, flat, run_differential, simulate
-from verifier.loader import load_pack
+from verifier.trust.differential import catalogue, compare, flat, run_differential, simulate
+from verifier.run.loader import load_pack
 from verifier.smt.concrete import Evaluator
-from verifier.strategies import CORNERS, corners, largest_bound, profile, worlds
-from verifier.world.scope import Scope
+from verifier.trust.strategies import CORNERS, corners, largest_bound, profile, worlds
+from verifier.lang.scope import Scope
 from verifier.world.sim import Leg, State, World, scope_problems
-from verifier.world.vocab import Direction, Running
+from verifier.lang.vocab import Direction, Running
 
 ROOT = Path(__file__).resolve().parent.parent
 PACKS = ROOT / "tests" / "packs"

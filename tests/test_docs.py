@@ -1,6 +1,6 @@
 from pathlib import Path
 
-from verifier.world import vocab
+from verifier.lang import vocab
 
 ROOT = Path(__file__).resolve().parent.parent
 

@@ -8,7 +8,7 @@ import pytest
 from conftest import pack_text, rule_toml
 from verifier.cli import main
 from verifier.errors import PackError
-from verifier.loader import load_pack
+from verifier.run.loader import load_pack
 
 
 def _errors(write_pack, text):

@@ -12,10 +12,10 @@ import pytest
 
 from conftest import pack_text, rule_toml
 from verifier.errors import PackError
-from verifier.loader import load_pack
-from verifier.world.scope import Scope
+from verifier.run.loader import load_pack
+from verifier.lang.scope import Scope
 from verifier.world.sim import Leg, State, World
-from verifier.world.vocab import Direction, Running
+from verifier.lang.vocab import Direction, Running
 
 NOM, REV = Direction.NOMINAL, Direction.REVERSE
 FWD, BWD = Running.FORWARD, Running.BACKWARD
@@ -34,7 +34,7 @@ def test_special_distance_value_is_15_bit_all_ones():
     # SUBSET-026 7.5.1.13/43/44 (published text): 15-bit fields, 32767 = "unknown or greater than
     # 327.660 km"; that a code above 32766 at a finer step is sent as 32767 is this tool's choice
     # (docs/design.md 4.4), not the clause
-    from verifier.world.vocab import MAX_CODE, UNKNOWN_CODE
+    from verifier.lang.vocab import MAX_CODE, UNKNOWN_CODE
     assert UNKNOWN_CODE == 2**15 - 1 == 32767 and MAX_CODE == 32766
 
 
@@ -320,7 +320,7 @@ def test_distance_to_an_item_as_the_train_is_and_as_the_onboard_believes(write_p
 
 
 def test_the_encoding_agrees_on_the_hand_worked_relocations(write_pack):
-    from verifier.differential import compare, flat, simulate
+    from verifier.trust.differential import compare, flat, simulate
     from verifier.smt.concrete import Evaluator
     pack = _two(write_pack)
     ev = Evaluator(pack, 2)

@@ -11,11 +11,11 @@ from pathlib import Path
 
 import pytest
 
-from verifier.differential import catalogue
+from verifier.trust.differential import catalogue
 from verifier.errors import PackError
-from verifier.fuzz import ExprGen, Input, _pack_around, inputs, run_fuzz, run_one
-from verifier.loader import load_pack
-from verifier.strategies import profile
+from verifier.trust.fuzz import ExprGen, Input, _pack_around, inputs, run_fuzz, run_one
+from verifier.run.loader import load_pack
+from verifier.trust.strategies import profile
 
 ROOT = Path(__file__).resolve().parent.parent
 LIMIT = 30.0       # seconds per input, a hang guard (each solver question has a 5 s budget)
@@ -164,7 +164,7 @@ def test_corpus_entry(entry, tmp_path, monkeypatch):
         out = run_one(Input("corpus", path.read_bytes()), sandbox, LIMIT, full=False)
         if kind == "error":
             assert (out.result, what in out.detail) == ("error", True), out
-            from verifier.loader import load_all
+            from verifier.run.loader import load_all
             try:
                 packs, diags = load_all([path])     # as `verifier check` reads it
             except PackError as exc:
@@ -179,7 +179,7 @@ def test_corpus_entry(entry, tmp_path, monkeypatch):
             assert answers <= {"sat", "unsat"}, answers
             assert {"holds" if a == "unsat" else "violated" for a in answers} == set(what.split(","))
             if pack.unbounded:      # a pack for any number of legs goes through the induction too
-                from verifier.engine import CheckOptions, check_packs
+                from verifier.api import CheckOptions, check_packs
                 (res,) = check_packs([pack], CheckOptions(out=None, induction_depth=1, max_legs=0))
                 assert all(r.verdict != "error" for r in res.results), res.results
     elif entry.endswith(".manifest.json"):
@@ -200,7 +200,7 @@ def test_corpus_entry(entry, tmp_path, monkeypatch):
 def _corpus_file(path: Path, tmp_path: Path) -> None:
     import os
     import signal
-    from verifier.loader import discover
+    from verifier.run.loader import discover
     kind, what = _expect(path)
     word, *arg = path.read_text(encoding="utf-8").strip().split("\n")[-1].split()
     if word == "many":

@@ -20,10 +20,10 @@ from verifier.cli import main
 from verifier.implcheck import interface
 from verifier.implcheck.interface import Observation, observe
 from verifier.implcheck.runner import Checker, ImplOptions, check
-from verifier.loader import load_pack
-from verifier.strategies import worlds
+from verifier.run.loader import load_pack
+from verifier.trust.strategies import worlds
 from verifier.world.sim import Leg, World
-from verifier.world.vocab import Direction, Running
+from verifier.lang.vocab import Direction, Running
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLES = ROOT / "examples"
@@ -45,7 +45,7 @@ def test_the_observation_carries_no_hidden_truth():
     # DESIGN 4.3: the onboard cannot know the real distances, the location or detection error
     a = World(offset=F(3), detect_error=F(1, 2), locacc=F(5), legs=(Leg(False, Running.FORWARD, F(100), F(103)),))
     b = World(offset=F(-2), detect_error=F(-1), locacc=F(5), legs=(Leg(False, Running.FORWARD, F(98), F(103)),))
-    from verifier.world.scope import Scope
+    from verifier.lang.scope import Scope
     assert observe(a, Scope()) == observe(b, Scope())
     import attrs
     fields = set(attrs.fields_dict(Observation))

@@ -22,7 +22,7 @@ import pytest
 from verifier.cli import main
 from verifier.implcheck import interface
 from verifier.implcheck.runner import Checker, ImplOptions, check
-from verifier.loader import load_pack
+from verifier.run.loader import load_pack
 from verifier.world.sim import World
 
 ROOT = Path(__file__).resolve().parent.parent

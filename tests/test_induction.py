@@ -23,14 +23,14 @@ from hypothesis import strategies as hs
 from conftest import pack_text, rule_toml
 from verifier.check.unbounded import plan_for, rule_formulas
 from verifier.cli import main
-from verifier.engine import CheckOptions, check_packs
-from verifier.loader import load_pack
+from verifier.api import CheckOptions, check_packs
+from verifier.run.loader import load_pack
 from verifier.smt import induction
 from verifier.smt.solve import COMPARED
-from verifier.strategies import worlds
+from verifier.trust.strategies import worlds
 from verifier.world.scenario import snapshot_from_flat
 from verifier.world.sim import Leg, SnapView, World, advance, snapshot_problems, start
-from verifier.world.vocab import GLOBAL, Running, names_for
+from verifier.lang.vocab import GLOBAL, Running, names_for
 
 FEW = settings(max_examples=40, deadline=None, database=None, derandomize=True,
                suppress_health_check=list(HealthCheck))
@@ -233,7 +233,7 @@ def test_the_plan_shares_equal_quantifiers(designed):
 @FEW
 @given(hs.data())
 def test_d_step_of_one_leg_equals_the_bounded_encoding_of_legs_i_to_i_plus_1(designed, data):
-    from verifier.differential import flat
+    from verifier.trust.differential import flat
     pack, rule, plan = designed
     w = data.draw(worlds(pack.scope, 3))
     if not w.legs:
@@ -305,7 +305,7 @@ def _domain_state(data, pack, plan, w: World):
 @FEW
 @given(hs.data())
 def test_simulator_step_agrees_with_the_encoder_step_on_arbitrary_states(designed, data):
-    from verifier.differential import flat
+    from verifier.trust.differential import flat
     pack, rule, plan = designed
     w = data.draw(worlds(pack.scope, 1))
     state = _domain_state(data, pack, plan, w)
@@ -452,7 +452,7 @@ def test_ci_formats_and_report_say_what_kind_of_proof(few_cti, capsys):
 
 
 def test_the_induction_step_is_cached_and_replayed(write_pack, tmp_path):
-    from verifier.cache import Cache
+    from verifier.run.cache import Cache
     text = pack_text(lemma_toml("o0", ORIENTATION_0)
                      + rule_toml("one", ONE_CAB, "passage.seen != unknown and cab_changes == 1")
                      + rule_toml("few", "legs.count <= 3")).replace("legs = 2", 'legs = "any"')

@@ -20,7 +20,7 @@ from verifier.cli import main
 from verifier.errors import Diagnostic, PackError, UsageError
 from verifier.lang import ast
 from verifier.lang.parser import parse
-from verifier.loader import discover, load_pack
+from verifier.run.loader import discover, load_pack
 
 
 def _diags(path, shown="p.toml"):
@@ -220,7 +220,7 @@ def test_a_flat_chain_of_2000_terms_parses_shallow(op, term, ty):
 def test_a_flat_chain_of_2000_terms_goes_through_typer_encoder_and_simulator(tmp_path):
     """2,000 conjuncts, the last false when there is a leg: a verdict (violated) whose world the
     simulator replays, and a sum of 2,000 lengths whose value is worked by hand."""
-    from verifier.engine import CheckOptions, check_packs
+    from verifier.api import CheckOptions, check_packs
     conj = " and ".join(["legs.count >= 0"] * 1999 + ["legs.count == 0"])
     total = " + ".join(["1 cm"] * 2000)        # 2,000 cm = 20 m
     p = tmp_path / "chain.toml"

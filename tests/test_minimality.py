@@ -13,8 +13,8 @@ from pathlib import Path
 import pytest
 import z3
 
-from verifier.engine import CheckOptions, check_rule
-from verifier.loader import load_pack
+from verifier.api import CheckOptions, check_rule
+from verifier.run.loader import load_pack
 from verifier.smt.encode import Encoding
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -8,8 +8,8 @@ import pytest
 
 from verifier.cli import main
 from verifier.errors import PackError
-from verifier.loader import load_pack
-from verifier.mutate import build, mutants, run_catalogue, run_mutants
+from verifier.run.loader import load_pack
+from verifier.trust.mutate import build, mutants, run_catalogue, run_mutants
 
 ROOT = Path(__file__).resolve().parent.parent
 PACK = ROOT / "tests" / "packs" / "diff-mutants.toml"
@@ -40,7 +40,7 @@ def test_mutants_load_as_ordinary_packs(pack):
 
 
 def test_a_mutant_that_breaks_observability_is_invalid(pack):
-    from verifier.mutate import Mutant
+    from verifier.trust.mutate import Mutant
     bad = Mutant("trackside est_front", "flip a sign", "rbc.d_lrbg", "actual.front",
                  "along(report.q_dlrbg, actual.front)")
     with pytest.raises(PackError):
@@ -80,7 +80,7 @@ def test_equivalent_mutants_leave_the_denominator(tmp_path):
     p = load_pack(f)
     swap = [m for m in mutants(p) if m.target == "onboard l_doubtover" and m.original == "est.bound_over"
             and m.operator == "swap over and under"]
-    from verifier.mutate import CatalogueReport
+    from verifier.trust.mutate import CatalogueReport
     rep = run_mutants(p, timeout=20, limit=None, killed_elsewhere={m.key: "x" for m in mutants(p) if m not in swap})
     statuses = {r.status for r in rep.results if r.mutant in swap}
     assert statuses == {"equivalent"}

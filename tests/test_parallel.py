@@ -6,11 +6,11 @@ from pathlib import Path
 
 import pytest
 
-from verifier.cache import Cache
-from verifier.engine import CheckOptions, check_packs
+from verifier.run.cache import Cache
+from verifier.api import CheckOptions, check_packs
 from verifier.errors import UsageError
-from verifier.loader import load_pack
-from verifier.parallel import check_jobs
+from verifier.run.loader import load_pack
+from verifier.run.parallel import check_jobs
 from verifier.smt import smtlib, solve
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -14,12 +14,12 @@ import pytest
 
 from conftest import pack_text, rule_toml
 from verifier.cli import main
-from verifier.engine import CheckOptions, check_packs
+from verifier.api import CheckOptions, check_packs
 from verifier.errors import PackError
-from verifier.loader import load_pack
+from verifier.run.loader import load_pack
 from verifier.world.scenario import world_from_data, world_to_data
 from verifier.world.sim import Group2, Leg, World
-from verifier.world.vocab import Direction, Running
+from verifier.lang.vocab import Direction, Running
 
 ROOT = Path(__file__).resolve().parent.parent
 TWO = 'groups = 2\ng2_distance = ["100 m", "600 m"]\nleg_distance = ["0 m", "800 m"]'

@@ -19,7 +19,7 @@ from pathlib import Path
 
 import pytest
 
-from verifier import CAUTION
+from verifier.about import CAUTION
 from verifier.cli import main
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -5,7 +5,7 @@ from pathlib import Path
 
 import pytest
 
-from verifier import selftest
+from verifier.trust import selftest
 from verifier.smt import second
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -9,8 +9,8 @@ from pathlib import Path
 
 import pytest
 
-from verifier.engine import CheckOptions, check_packs
-from verifier.loader import load_all
+from verifier.api import CheckOptions, check_packs
+from verifier.run.loader import load_all
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -72,9 +72,9 @@ def test_in_range_fails_after_long_runs():
     # bound: "holds for any number of legs" would be wrong.
     from fractions import Fraction as F
 
-    from verifier.loader import load_pack
+    from verifier.run.loader import load_pack
     from verifier.world.sim import Leg, State, World
-    from verifier.world.vocab import Running
+    from verifier.lang.vocab import Running
     pack = load_pack(ROOT / "rules" / "confidence-interval.toml")
     rule = pack.rule("automatic-step-stays-in-range")
     legs = tuple(Leg(False, Running.FORWARD, F(12000), F(12000)) for _ in range(28))

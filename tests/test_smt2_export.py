@@ -7,7 +7,7 @@ from pathlib import Path
 import pytest
 
 from verifier.cli import main
-from verifier.loader import load_pack
+from verifier.run.loader import load_pack
 from verifier.smt import second
 from verifier.smt.export import declared_status, nonstandard, obligations, parse_sexprs, z3_status
 
@@ -90,7 +90,7 @@ def test_rule_text_with_newlines_stays_in_comments(tmp_path):
 def test_every_catalogue_obligation_reads_in_cvc5():
     """Every rule of every loadable pack (shipped and test) exports to text that cvc5 parses and
     type-checks in strict mode (solving them all is the cross-check's job, not this test's)."""
-    from verifier.differential import catalogue
+    from verifier.trust.differential import catalogue
     count = 0
     for path in catalogue((ROOT / "rules", ROOT / "tests" / "packs")):
         pack = load_pack(path)

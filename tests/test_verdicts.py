@@ -6,8 +6,9 @@ import json
 
 from conftest import pack_text, rule_toml
 from verifier.cli import main
-from verifier.engine import CheckOptions, PackResult, RuleResult, check_rule, exit_code
-from verifier.loader import load_pack
+from verifier.api import CheckOptions, check_rule
+from verifier.run.engine import PackResult, RuleResult, exit_code
+from verifier.run.loader import load_pack
 
 HARD = ("along(report.q_dirlrbg, actual.front - rbc.min_safe_front) >= 0 m and "
         "along(report.q_dirlrbg, rbc.max_safe_front - actual.front) >= 0 m")

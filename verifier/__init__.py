@@ -1,28 +1,32 @@
 """verifier: proves or refutes safety rules about balise-group-relative train positioning.
 
-Public API (everything else is internal):
+Public API (everything else is internal; see :mod:`verifier.api`):
 
 - :func:`load_pack`, :func:`load_all`: read and check rule packs;
-- :func:`check_packs`, :class:`CheckOptions`: verdicts for every rule;
+- :func:`check_packs`, :func:`check_rule`, :class:`CheckOptions`: verdicts for every rule,
+  with their counterexample files;
 - :func:`simulate`: the exact simulator on one world;
 - the error tree in :mod:`verifier.errors`.
 """
 
-__version__ = "0.1.0"
+import importlib
 
-CAUTION = ("verifier checks rules against a stated model, not against a real train. Its verdicts "
-           "support, and never replace, a safety case prepared under EN 50126/50128/50129, local "
-           "rules and licensed practice.")
+from verifier.about import CAUTION, __version__
+
+__all__ = ["CAUTION", "__version__", "load_pack", "load_all", "check_packs", "check_rule",
+           "CheckOptions", "RuleResult", "PackResult", "simulate"]
+
+# where each name lives: `import verifier` stays light, and reading or simulating a pack loads
+# no solver (tests/test_import_graph.py)
+_LAZY = {"load_pack": ("verifier.run.loader", "load_pack"),
+         "load_all": ("verifier.run.loader", "load_all"),
+         "simulate": ("verifier.world.sim", "State"),
+         **{n: ("verifier.api", n) for n in ("check_packs", "check_rule", "CheckOptions",
+                                             "RuleResult", "PackResult")}}
 
 
-def __getattr__(name):  # lazy, so that `import verifier` stays light and z3-free
-    if name in ("load_pack", "load_all"):
-        from verifier import loader
-        return getattr(loader, name)
-    if name in ("check_packs", "CheckOptions", "RuleResult", "PackResult"):
-        from verifier import engine
-        return getattr(engine, name)
-    if name == "simulate":
-        from verifier.world.sim import State
-        return State
-    raise AttributeError(name)
+def __getattr__(name):   # PEP 562
+    if name in _LAZY:
+        module, attr = _LAZY[name]
+        return getattr(importlib.import_module(module), attr)
+    raise AttributeError(f"module 'verifier' has no attribute {name!r}")

@@ -14,8 +14,29 @@ import textwrap
 import time
 from pathlib import Path
 
-from verifier import CAUTION, __version__
-from verifier.errors import PackError, UsageError, VerifierError
+from verifier.about import CAUTION, __version__
+from verifier.api import CheckOptions, check_packs
+from verifier.errors import PackError, UsageError, VerifierError, WriteError, suggest
+from verifier.evidence.cexfile import stale_files
+from verifier.evidence.ciformats import render
+from verifier.evidence.report import ensure_ours, write_report
+from verifier.evidence.show import show
+from verifier.evidence.text import simulate_text
+from verifier.implcheck import interface, runner
+from verifier.implcheck.replay import fresh_doc
+from verifier.implcheck.runner import describe_sources
+from verifier.recheck import diff
+from verifier.recheck.replay import replay_paths
+from verifier.run import coverage
+from verifier.run.cache import Cache
+from verifier.run.engine import VERDICTS, exit_code, proof_detail, proof_words
+from verifier.run.loader import load_all, load_pack
+from verifier.run.parallel import MAX_JOBS, check_jobs
+from verifier.smt.export import write_for_results
+from verifier.trust import selftest
+from verifier.trust.crosscheck import crosscheck_results
+from verifier.trust.mutate import run_catalogue
+from verifier.world.scenario import read_scenario
 
 EXIT_OK, EXIT_FAIL, EXIT_INPUT, EXIT_UNKNOWN, EXIT_INTERNAL = 0, 1, 2, 3, 4
 
@@ -80,8 +101,6 @@ def _fit(lines: list, width: int = TABLE_WIDTH) -> str:
 
 
 def _table(results, input_diags) -> str:
-    from verifier.engine import VERDICTS, proof_detail, proof_words
-    from verifier.evidence import coverage
     lines = []
     counts = dict.fromkeys(VERDICTS, 0)
     lemma_counts = dict.fromkeys(VERDICTS, 0)
@@ -120,18 +139,14 @@ def _table(results, input_diags) -> str:
 
 
 def _with_jobs_and_cache(opts, args):
-    """--jobs and --no-cache (see verifier.parallel and verifier.cache)."""
+    """--jobs and --no-cache (see verifier.run.parallel and verifier.run.cache)."""
     import attrs
 
-    from verifier.cache import Cache
-    from verifier.parallel import check_jobs
     cache = None if args.no_cache else Cache(warn=lambda w: print(f"verifier: warning: {w}", file=sys.stderr))
     return attrs.evolve(opts, jobs=check_jobs(args.jobs), cache=cache)
 
 
 def cmd_check(args) -> int:
-    from verifier.engine import CheckOptions, check_packs, exit_code
-    from verifier.loader import load_all
 
     if not args.paths and not Path("rules").exists():
         raise UsageError("no PATH given and no rules/ folder here: name the pack files or folders "
@@ -149,7 +164,6 @@ def cmd_check(args) -> int:
         if importlib.util.find_spec("cvc5") is None:   # say so before any solving
             raise UsageError("--crosscheck needs cvc5: pip install 'verifier[crosscheck]'")
     if args.report:
-        from verifier.evidence.report import ensure_ours
         ensure_ours(Path(args.report))  # refuse a foreign directory before any work
     if opts.out is not None and opts.out.exists() and not opts.out.is_dir():
         raise UsageError(f"--out {opts.out.as_posix()} exists and is not a directory: counterexample "
@@ -161,13 +175,10 @@ def cmd_check(args) -> int:
         progress.clear()
     cross = None
     if args.crosscheck:
-        from verifier.crosscheck import crosscheck_results
         results, cross = crosscheck_results(packs, results, opts)
     if fmt in ("junit", "sarif"):
-        from verifier.evidence.ciformats import render
         print(render(fmt, results, diags), end="")
     elif fmt == "json":
-        from verifier.engine import VERDICTS
         counts = dict.fromkeys(VERDICTS, 0)
         lemma_counts = dict.fromkeys(VERDICTS, 0)
         for p in results:
@@ -190,15 +201,12 @@ def cmd_check(args) -> int:
     # operating system's reason, and make the exit code 2 (4 still wins)
     unwritten = [r.write_error for p in results for r in p.results if r.write_error]
     if args.report:
-        from verifier.evidence.cexfile import WriteError
-        from verifier.evidence.report import write_report
         try:
             page = write_report(Path(args.report), packs, results, diags, opts)
             print(f"report: {page.as_posix()}", file=sys.stderr)
         except WriteError as exc:
             unwritten.append(f"the report: {exc}")
     if args.smt2:
-        from verifier.smt.export import write_for_results
         try:
             n = len(write_for_results(Path(args.smt2), packs, results))
             print(f"smt2: {n} SMT-LIB files in {Path(args.smt2).as_posix()}", file=sys.stderr)
@@ -223,7 +231,6 @@ def _note_stale_files(out: Path, packs, results) -> None:
     """Say which evidence files left by an earlier run no longer match their rule's verdict
     (``cexfile.stale_files``). They are kept (they may be archived evidence); ``verifier
     replay`` re-judges them."""
-    from verifier.evidence.cexfile import stale_files
     for path, rule_id, words in stale_files(out, packs, results):
         print(f"note: {path.as_posix()} is from an earlier run: rule {rule_id} {words}; the file "
               f"is kept ('verifier replay' re-judges it; delete it if it is no longer evidence)",
@@ -231,10 +238,7 @@ def _note_stale_files(out: Path, packs, results) -> None:
 
 
 def cmd_diff(args) -> int:
-    """verifier diff OLD NEW (logic in verifier.diff)."""
-    from verifier import diff
-    from verifier.cache import Cache
-    from verifier.parallel import check_jobs
+    """verifier diff OLD NEW (logic in verifier.recheck.diff)."""
     cache = None if args.no_cache else Cache(warn=lambda w: print(f"verifier: warning: {w}", file=sys.stderr))
     progress = _Progress(sys.stderr.isatty() and not args.json)
     opts = diff.DiffOptions(legs=args.legs, rlimit=args.rlimit, timeout=args.timeout,
@@ -254,10 +258,7 @@ def cmd_diff(args) -> int:
 
 
 def cmd_mutate(args) -> int:
-    """verifier mutate PACK... (logic in verifier.mutate)."""
-    from verifier.loader import load_pack
-    from verifier.mutate import run_catalogue
-    from verifier.parallel import check_jobs
+    """verifier mutate PACK... (logic in verifier.trust.mutate)."""
     packs = [load_pack(p) for p in args.packs]
     rep = run_catalogue(packs, timeout=args.timeout, jobs=check_jobs(args.jobs))
     if args.json:
@@ -270,8 +271,7 @@ def cmd_mutate(args) -> int:
 
 
 def cmd_selftest(args) -> int:
-    """verifier selftest --report DIR (logic in verifier.selftest)."""
-    from verifier import selftest
+    """verifier selftest --report DIR (logic in verifier.trust.selftest)."""
     plan = selftest.default_plan(Path("."), args.profile)
     data = selftest.run(plan, Path(args.report), progress=lambda m: print(m, file=sys.stderr))
     print(f"selftest: {'all criteria met' if data['passed'] else 'some criteria NOT met'}; "
@@ -280,13 +280,11 @@ def cmd_selftest(args) -> int:
 
 
 def _impl_table(rep) -> str:
-    from verifier.implcheck.runner import describe_sources
     lines = [f"implementation {rep.onboard.spec} ({rep.onboard.module_file or 'no file'}, sha256 "
              f"{rep.onboard.module_sha256[:16]}...)"
              + (f" with trackside {rep.trackside.spec}" if rep.trackside else "")
              + f" against pack {rep.pack} ({rep.path})"]
     if rep.scope:
-        from verifier.evidence import coverage
         lines += coverage.lines(rep.scope)
     width = max((len(r.rule) for r in rep.rules), default=10)
     for r in rep.rules:
@@ -319,9 +317,6 @@ def _impl_table(rep) -> str:
 
 def cmd_test(args) -> int:
     """verifier test PACK --impl MODULE:FUNCTION (logic in verifier.implcheck)."""
-    from verifier.cache import Cache
-    from verifier.implcheck import interface, runner
-    from verifier.loader import load_pack
     reports = []
     progress = _Progress(sys.stderr.isatty() and not args.json)
     for path in args.packs:
@@ -343,7 +338,6 @@ def cmd_test(args) -> int:
         if opts.rules:
             unknown = [r for r in opts.rules if r not in {x.id for x in pack.rules}]
             if unknown:
-                from verifier.errors import suggest
                 raise UsageError(f"pack {pack.name} has no rule '{unknown[0]}'"
                                  + suggest(unknown[0], [x.id for x in pack.rules]))
         try:
@@ -360,7 +354,6 @@ def cmd_test(args) -> int:
 
 
 def cmd_replay(args) -> int:
-    from verifier.replay import replay_paths
     outcomes = replay_paths(args.paths or ["counterexamples"], impl=args.impl, search=tuple(args.path or ()))
     width = max((len(o.file) for o in outcomes), default=10)
     for o in outcomes:
@@ -376,8 +369,7 @@ def cmd_replay(args) -> int:
 
 
 def cmd_show(args) -> int:
-    from verifier.evidence.story import show
-    text, svg = show(args.file, pack_path=args.pack, svg=args.svg)
+    text, svg = show(args.file, pack_path=args.pack, svg=args.svg, recompute=fresh_doc)
     print(text)
     if svg:
         print(f"diagram: {svg}", file=sys.stderr)
@@ -385,9 +377,6 @@ def cmd_show(args) -> int:
 
 
 def cmd_simulate(args) -> int:
-    from verifier.loader import load_pack
-    from verifier.report_text import simulate_text
-    from verifier.world.scenario import read_scenario
     world = read_scenario(args.scenario)
     pack = load_pack(args.pack)
     _print_diags(pack.warnings)
@@ -437,14 +426,13 @@ def seconds_arg(text: str) -> float:
 
 _bound_arg = count_arg(0, 8, "movement legs")
 _depth_arg = count_arg(1, 8, "induction depth")
-_max_legs_arg = count_arg(0, 32, "deepest base case")    # verifier.induct.MAX_MAX_LEGS
+_max_legs_arg = count_arg(0, 32, "deepest base case")    # verifier.run.induct.MAX_MAX_LEGS
 _rlimit_arg = count_arg(1, MAX_RLIMIT, "solver budget per check")
 _examples_arg = count_arg(1, 1_000_000, "examples per rule")
 _seed_arg = count_arg(0, None, "seed")
 
 
 def _jobs_arg(text: str) -> int:
-    from verifier.parallel import MAX_JOBS
     return _whole(text, 1, MAX_JOBS, "worker processes")
 
 

@@ -9,6 +9,7 @@ on purpose across the public API.
 from __future__ import annotations
 
 import re
+from pathlib import Path
 
 import attrs
 
@@ -104,6 +105,16 @@ class UsageError(VerifierError):
 
 class InternalError(VerifierError):
     """The tool disagrees with itself (for example simulator and solver): a bug (exit code 4)."""
+
+
+class WriteError(OSError):
+    """A file of ours could not be written: the path and the operating system's reason. The
+    command line reports it after the verdicts, as exit 2 (an OSError, not a VerifierError: the
+    input was fine, the disk was not)."""
+
+    def __init__(self, path, reason: str):
+        super().__init__(f"cannot write {Path(path).as_posix()}: {reason}")
+        self.path, self.reason = Path(path), reason
 
 
 def file_error(path: str, message: str, line: int = 1, column: int = 1) -> PackError:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import attrs
 
 from verifier.lang import ast
-from verifier.world.scope import Scope
+from verifier.lang.scope import Scope
 
 
 @attrs.frozen

@@ -16,17 +16,15 @@ Resolved names carry a ``ref``:
 from __future__ import annotations
 
 import re
-
 from fractions import Fraction
 
 import attrs
 
 from verifier.check.model import Formula, Pack, Rule
 from verifier.errors import Diagnostic, PackError, suggest
-from verifier.lang import ast
+from verifier.lang import ast, vocab
 from verifier.lang.ast import BOOL, COUNT, DIRECTION, LENGTH, NUMBER, NUMERIC, ZERO
 from verifier.lang.pack import RawExpr, RawPack
-from verifier.world import vocab
 
 FUNCTIONS = ("abs", "min", "max", "flip", "side", "along", "floor_to", "ceil_to", "round_to")
 

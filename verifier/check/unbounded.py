@@ -28,9 +28,8 @@ import itertools
 
 import attrs
 
-from verifier.lang import ast
+from verifier.lang import ast, vocab
 from verifier.lang.ast import BOOL, DIRECTION, RUNNING
-from verifier.world import vocab
 
 #: Names whose value does not depend on the legs: inputs of the group, the train and the
 #: passage, and what follows from them alone.

@@ -10,14 +10,15 @@ import tempfile
 from fractions import Fraction
 from pathlib import Path
 
-from verifier import CAUTION as _TOOL_CAUTION
-from verifier import __version__
+from verifier.about import CAUTION as _TOOL_CAUTION
+from verifier.about import __version__
 from verifier.check.model import Pack, Rule
-from verifier.lang import ast
+from verifier.errors import WriteError
+from verifier.lang import vocab
 from verifier.lang.ast import COUNT
-from verifier.world import vocab
-from verifier.world.scenario import fmt, world_to_data
-from verifier.world.sim import State, compare, evaluate
+from verifier.world.failure import failed_detail, implicit_premise
+from verifier.world.scenario import fmt, snapshot_to_data, world_to_data
+from verifier.world.sim import State, World, applies, evaluate
 
 FORMAT = "verifier-counterexample/1"
 CAUTION = ("This file records a world of the stated model in which the rule is false. "
@@ -73,31 +74,6 @@ def derived_values(st: State) -> dict:
     return out
 
 
-def _items(node: ast.Node) -> list:
-    if isinstance(node, ast.Binary) and node.op == "and":
-        return _items(node.left) + _items(node.right)
-    return [node]
-
-
-def failed_detail(rule: Rule, st: State) -> dict | None:
-    """The first false item of expect's top-level ``and``; for a comparison (chain) also its
-    first false pair: {text, op, left: (text, value, type), right: (...)}; None if expect holds."""
-    text = rule.expect.text
-    for item in _items(rule.expect.node):
-        if evaluate(item, st, {}):
-            continue
-        out = {"text": text[item.start:item.end]}
-        if isinstance(item, ast.Chain):
-            for op, a, b in zip(item.ops, item.operands, item.operands[1:]):
-                va, vb = evaluate(a, st, {}), evaluate(b, st, {})
-                if not compare(op, va, vb):
-                    out.update(op=op, left=(text[a.start:a.end], va, a.ty),
-                               right=(text[b.start:b.end], vb, b.ty))
-                    break
-        return out
-    return None
-
-
 def failed_part(rule: Rule, st: State) -> dict | None:
     """The failed part as JSON data (DESIGN 6): the item's text and, for a comparison, the
     operator and both sides with their values."""
@@ -112,10 +88,6 @@ def failed_part(rule: Rule, st: State) -> dict | None:
     else:
         out["value"] = False
     return out
-
-
-def implicit_premise(rule: Rule) -> str | None:
-    return f"legs.count >= {rule.premise_legs}" if rule.premise_legs else None
 
 
 def build(pack: Pack, rule: Rule, st: State, *, verdict: str, bound: int, solver: str,
@@ -149,15 +121,6 @@ def _umask() -> int:
     mask = os.umask(0)
     os.umask(mask)
     return mask
-
-
-class WriteError(OSError):
-    """A file of ours could not be written: the path and the operating system's reason. The
-    command line reports it after the verdicts, as exit 2."""
-
-    def __init__(self, path, reason: str):
-        super().__init__(f"cannot write {Path(path).as_posix()}: {reason}")
-        self.path, self.reason = Path(path), reason
 
 
 def _why(exc: OSError) -> str:
@@ -311,8 +274,6 @@ def build_induction(pack: Pack, rule: Rule, lemmas, views, plan, legs, *, bound:
     """The file of a counterexample to induction: the rule, the lemmas assumed, the first
     state, the legs after it (the simulator's), and every state's values (``views``, the
     simulator's states s0 .. sk) with the rule's and lemmas' truth."""
-    from verifier.world.scenario import snapshot_to_data
-    from verifier.world.sim import World, applies
     first = views[0].snap
     legs = [world_to_data(World(legs=(leg,)))["legs"][0] for leg in legs]
     states = []
@@ -350,14 +311,3 @@ def build_induction(pack: Pack, rule: Rule, lemmas, views, plan, legs, *, bound:
     }
 
 
-def write_induction(out_dir: Path, pack: Pack, rule: Rule, lemmas, outcome, bound: int,
-                    solver: str) -> str:
-    """Write the counterexample to induction (and its diagram) beside the counterexamples."""
-    from verifier.evidence import diagram
-    from verifier.world.scenario import legs_from_flat
-    doc = build_induction(pack, rule, lemmas, outcome.views, outcome.plan, legs_from_flat(outcome.cti["legs"]),
-                          bound=bound, minimal=outcome.minimal, solver=solver)
-    target = induction_path(out_dir, pack, rule)
-    write_files(out_dir, [(target, dumps(doc)),
-                          (diagram.svg_path(target), diagram.render_induction(doc, rule, outcome.views))])
-    return target.as_posix()

@@ -22,16 +22,17 @@ import hashlib
 import json
 from xml.etree import ElementTree as ET
 
-from verifier import CAUTION, __version__
+from verifier.about import CAUTION, __version__
 from verifier.errors import visible
-from verifier.evidence import coverage
+from verifier.run import coverage
+from verifier.run.engine import proof_detail, proof_words
+from verifier.smt.solve import SOLVER
 
 SARIF_SCHEMA = "https://json.schemastore.org/sarif-2.1.0.json"
 FAILURES = ("violated", "vacuous")
 
 
 def _proof(r) -> str:
-    from verifier.engine import proof_detail, proof_words
     return proof_words(r) + (f" ({proof_detail(r)})" if proof_detail(r) else "")
 
 
@@ -118,7 +119,6 @@ def _loc(uri: str, line: int | None = None, column: int | None = None) -> dict:
 
 def sarif(results, diags) -> dict:
     """A SARIF 2.1.0 log (plain data) for the verdicts."""
-    from verifier.smt.solve import SOLVER
     rules, results_out, notes = [], [], []
     index: dict = {}
     for p in results:

@@ -15,9 +15,10 @@ import attrs
 from verifier.check.model import Pack, Rule
 from verifier.errors import Diagnostic, PackError
 from verifier.evidence import cexfile
-from verifier.evidence.story import (LOOSE, _count_leaves, _diff, _Doc, _find_pack, comparison_words, m,
-                                     require_fields)
+from verifier.evidence.story import LOOSE, Doc, count_leaves, diff_field, find_pack, require_fields
 from verifier.lang.source import read_regular_text
+from verifier.run.induct import plan_with_lemmas, replay_states
+from verifier.world.failure import comparison_words, failed_detail, m
 from verifier.world.scenario import snapshot_from_data, world_from_data
 
 PREFIX = "verifier-induction/"
@@ -44,14 +45,14 @@ def is_induction_file(path: Path) -> bool:
     return isinstance(doc, dict) and isinstance(doc.get("format"), str) and doc["format"].startswith(PREFIX)
 
 
-def read_file(path: Path) -> _Doc:
+def read_file(path: Path) -> Doc:
     shown = path.as_posix()
     try:
         text = read_regular_text(path, shown, "the file")
         doc = json.loads(text)
     except (OSError, json.JSONDecodeError) as exc:
         raise PackError([Diagnostic(shown, 1, 1, f"cannot read the file: {exc}")]) from None
-    d = _Doc(shown, text, doc)
+    d = Doc(shown, text, doc)
     if not isinstance(doc, dict) or doc.get("format") != cexfile.INDUCTION_FORMAT:
         raise d.error("format", f"{doc.get('format') if isinstance(doc, dict) else None!r} is not "
                                 f"read by this verifier (it reads {cexfile.INDUCTION_FORMAT!r})")
@@ -63,10 +64,9 @@ def read_file(path: Path) -> _Doc:
     return d
 
 
-def rebuild(pack: Pack, doc: dict, d: _Doc | None = None):
+def rebuild(pack: Pack, doc: dict, d: Doc | None = None):
     """The rule, the lemmas, the plan and the simulator's states of a recorded file; raises
     PackError (through ``d``) or ValueError when they cannot be had."""
-    from verifier.induct import plan_with_lemmas, replay_states
 
     def fail(field, message):
         if d is None:
@@ -99,7 +99,7 @@ def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | No
     d = read_file(path)
     doc = d.doc
     if pack is None:
-        pack = _find_pack(d, path, pack_path)
+        pack = find_pack(d, path, pack_path)
     rule, lemmas, plan, legs, rep = rebuild(pack, doc, d)
     if rep.problems:
         raise d.error("states", "the recorded path is no counterexample to induction: "
@@ -113,11 +113,11 @@ def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | No
         if key not in fresh:
             diffs.append((key, "is not a field of a counterexample to induction"))
         else:
-            _diff(key, doc.get(key), fresh[key], diffs)
+            diff_field(key, doc.get(key), fresh[key], diffs)
     if diffs:
         field, message = diffs[0]
         raise d.error(field, message + "; the file was edited or corrupted after it was written")
-    checked = _count_leaves({k: v for k, v in fresh.items() if k not in LOOSE})
+    checked = count_leaves({k: v for k, v in fresh.items() if k not in LOOSE})
     text = story_text(doc, pack, rule, lemmas, rep.views, legs, shown=path.as_posix(), checked=checked)
     return ExplainedInduction(path.as_posix(), doc, pack, rule, lemmas, rep.views, checked, text)
 
@@ -196,7 +196,7 @@ def story_text(doc, pack, rule, lemmas, views, legs, *, shown: str, checked: int
         add(f"State s{i}: {_state_words(v)}.")
         add(f"  Report: {_report_words(v)}.")
     last = views[-1]
-    f = cexfile.failed_detail(rule, last)
+    f = failed_detail(rule, last)
     add("")
     add("What failed")
     if f and "op" in f:

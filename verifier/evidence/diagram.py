@@ -18,20 +18,21 @@ from __future__ import annotations
 
 import math
 import re
-
-import attrs
 from fractions import Fraction
 from html import escape
 from pathlib import Path
 
+import attrs
+
 from verifier.check.model import Rule
 from verifier.errors import visible
 from verifier.evidence import cexfile
-from verifier.evidence.story import (_front_at_detection, comparison_words, interval_words, m,
-                                     whole_train_words)
+from verifier.evidence.story import front_at_detection, interval_words, whole_train_words
 from verifier.lang.ast import LENGTH
-from verifier.world.scenario import fmt
-from verifier.world.sim import State
+from verifier.world.failure import comparison_words, failed_detail, m
+from verifier.world.scenario import fmt, world_from_data
+from verifier.world.sim import State, World, advance, start
+from verifier.world.sim import known as passage_known
 
 F = Fraction
 WIDTH = 960
@@ -124,11 +125,10 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     w, g = st.world, st.get
     known = g("passage.seen").word != "unknown"
     # the stages: (title, detail lines, real front, orientation sign, est front or None)
-    f0, e0 = _front_at_detection(st)
+    f0, e0 = front_at_detection(st)
     o0 = _sign(w.direction) * (1 if w.running.word == "forward" else -1)
     relocated = w.g2 is not None and st.handover.accepted
     if relocated:      # the passage over G1, seen from G2 (DESIGN 4.8)
-        from verifier.world.sim import World, known as passage_known, start
         x2, s2 = _sign(w.g2.side) * w.g2.distance, st.handover.frame   # G2's frame (DESIGN 4.8)
         first = start(attrs.evolve(w, legs=(), g2=None) if isinstance(w, World) else w)
         f0, e0 = s2 * (first.front - x2), s2 * (_sign(w.direction) * first.est_front_passage - x2)
@@ -153,7 +153,6 @@ def render_induction(doc: dict, rule: Rule, views) -> str:
     """The SVG text for one counterexample to induction (``doc`` as cexfile.build_induction
     writes it; ``views`` the simulator's states s0 .. sk): the train at each state of the path,
     the last state's report."""
-    from verifier.world.sim import advance
     first = views[0]
     known = first.get("passage.seen").word != "unknown"
     n = first.snap.count
@@ -178,7 +177,6 @@ def render_induction(doc: dict, rule: Rule, views) -> str:
 
 
 def _cti_legs(doc: dict) -> list:
-    from verifier.world.scenario import world_from_data
     return list(world_from_data({"legs": doc["legs"]}).legs)
 
 
@@ -381,7 +379,7 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
     y = y_rep + 30 + 13 * deepest + 14
 
     # ---- the verdict in words
-    fd = cexfile.failed_detail(rule, st)
+    fd = failed_detail(rule, st)
     lines = list(notes)
     if placed:
         lines.append(interval_words(real, g("rbc.min_safe_front"), g("rbc.max_safe_front")))

@@ -32,9 +32,11 @@ import re
 from html import escape
 from pathlib import Path
 
-from verifier import CAUTION, __version__
+from verifier.about import CAUTION, __version__
 from verifier.errors import UsageError, VerifierError
-from verifier.evidence import cexfile, coverage
+from verifier.evidence import cexfile, ctistory, diagram, story
+from verifier.run import coverage
+from verifier.smt.solve import DEFAULT_RLIMIT, DEFAULT_TIMEOUT, SOLVER
 from verifier.world.scenario import fmt
 
 FORMAT = "verifier-report/1"
@@ -203,7 +205,6 @@ def _assumptions(pack) -> dict:
 
 def build(packs, results, diags, opts, *, explained: dict) -> tuple[dict, dict]:
     """The manifest and the timings (plain data)."""
-    from verifier.smt.solve import DEFAULT_RLIMIT, DEFAULT_TIMEOUT, SOLVER
     by_pack = {p.name: p for p in packs}
     budget = opts.rlimit if opts.rlimit is not None else DEFAULT_RLIMIT
     counts = dict.fromkeys(VERDICT_MARK, 0)
@@ -258,7 +259,6 @@ def build(packs, results, diags, opts, *, explained: dict) -> tuple[dict, dict]:
 
 def write_report(out: Path, packs, results, diags, opts) -> Path:
     """Write the report into ``out``; return the page's path."""
-    from verifier.evidence import diagram, story
     out = Path(out)
     prepare_dir(out)
     by_pack = {p.name: p for p in packs}
@@ -295,7 +295,6 @@ def write_report(out: Path, packs, results, diags, opts) -> Path:
 
 def _copy_induction(out: Path, pack, name: str, r, explained: dict, stories: dict) -> None:
     """Check a counterexample to induction by re-simulation, then copy it and its diagram."""
-    from verifier.evidence import ctistory, diagram
     key = (name, r.rule, "induction")
     src = Path(r.induction)
     try:

@@ -15,6 +15,7 @@ import json
 import re
 from fractions import Fraction
 from pathlib import Path
+from typing import Callable
 
 import attrs
 
@@ -23,9 +24,11 @@ from verifier.errors import Diagnostic, PackError, VerifierError, visible
 from verifier.evidence import cexfile
 from verifier.lang.ast import LENGTH
 from verifier.lang.source import read_regular_text
+from verifier.lang.vocab import Direction
+from verifier.run.loader import load_pack
+from verifier.world.failure import failed_detail, m, value_words
 from verifier.world.scenario import fmt, world_from_data
-from verifier.world.sim import State, applies, evaluate, scope_problems
-from verifier.world.vocab import Direction
+from verifier.world.sim import State, applies, evaluate, scope_problems, start
 
 FORMAT_PREFIX = "verifier-counterexample/"
 # fields that are compared loosely: the tool that wrote the file and the caution wording may be
@@ -118,7 +121,7 @@ def field_lines(text: str) -> dict:
     return out
 
 
-class _Doc:
+class Doc:
     """A parsed file with its text, for errors that point at a field."""
 
     def __init__(self, shown: str, text: str, doc):
@@ -139,7 +142,7 @@ class _Doc:
 
 # ---- reading and checking --------------------------------------------------------------------
 
-def read_file(path: Path) -> _Doc:
+def read_file(path: Path) -> Doc:
     """Parse a counterexample file and check its format field (not yet its values)."""
     shown = path.as_posix()
     try:
@@ -151,7 +154,7 @@ def read_file(path: Path) -> _Doc:
     except json.JSONDecodeError as exc:
         raise PackError([Diagnostic(shown, exc.lineno, exc.colno,
                                     f"not a counterexample file: not JSON ({exc.msg})")]) from None
-    d = _Doc(shown, text, doc)
+    d = Doc(shown, text, doc)
     if not isinstance(doc, dict) or "format" not in doc:
         raise PackError([Diagnostic(shown, 1, 1, "not a counterexample file: it has no field 'format'")])
     fmt_ = doc["format"]
@@ -177,7 +180,7 @@ def read_file(path: Path) -> _Doc:
     return d
 
 
-def require_fields(d: _Doc, fields) -> None:
+def require_fields(d: Doc, fields) -> None:
     """Each (field, type) must be in the file with that type; then the pack's name, path and
     sha256 and the rule's id must be strings."""
     doc = d.doc
@@ -194,10 +197,9 @@ def require_fields(d: _Doc, fields) -> None:
         raise d.error("rule.id", "missing or not a string")
 
 
-def _find_pack(d: _Doc, path: Path, pack_path: str | None) -> Pack:
+def find_pack(d: Doc, path: Path, pack_path: str | None) -> Pack:
     """The pack the counterexample was found with: --pack, else the recorded path relative to
     the working directory or to a folder above the file; its sha256 must match."""
-    from verifier.loader import load_pack
     recorded = d.doc["pack"]["path"]
     want = d.doc["pack"]["sha256"]
     if pack_path is not None:
@@ -225,7 +227,7 @@ def _find_pack(d: _Doc, path: Path, pack_path: str | None) -> Pack:
                                "directory and the folders above the file); give it with --pack")
 
 
-def _diff(path: str, recorded, fresh, out: list) -> None:
+def diff_field(path: str, recorded, fresh, out: list) -> None:
     if isinstance(fresh, dict) and isinstance(recorded, dict):
         for key in sorted(set(fresh) | set(recorded)):
             sub = f"{path}.{key}" if path else key
@@ -235,23 +237,27 @@ def _diff(path: str, recorded, fresh, out: list) -> None:
             elif key not in fresh:
                 out.append((sub, "is not a field of a counterexample file"))
             else:
-                _diff(sub, recorded[key], fresh[key], out)
+                diff_field(sub, recorded[key], fresh[key], out)
         return
     if isinstance(fresh, list) and isinstance(recorded, list):
         if len(fresh) != len(recorded):
             out.append((path, f"records {len(recorded)} entries; the fresh simulation has {len(fresh)}"))
             return
         for i, (r, f) in enumerate(zip(recorded, fresh), 1):
-            _diff(f"{path}[{i}]", r, f, out)
+            diff_field(f"{path}[{i}]", r, f, out)
         return
     if recorded != fresh or type(recorded) is not type(fresh):
         out.append((path, f"records {json.dumps(recorded)} but the recorded world, simulated "
                           f"afresh, gives {json.dumps(fresh)}"))
 
 
-def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | None = None) -> Explained:
+def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | None = None,
+                 recompute: Callable | None = None) -> Explained:
     """Read, check and explain one counterexample file. ``pack`` (already loaded, as by
-    ``check --report``) or ``pack_path`` (``show --pack``) name the pack; else it is found."""
+    ``check --report``) or ``pack_path`` (``show --pack``) name the pack; else it is found.
+    The file of an implementation's counterexample is rebuilt by ``recompute(pack, rule, doc)
+    -> (fresh document, state)``, which runs the implementation again
+    (``verifier.implcheck.replay.fresh_doc``, passed by the caller)."""
     path = Path(path)
     d = read_file(path)
     doc = d.doc
@@ -260,7 +266,7 @@ def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | No
     except ValueError as exc:
         raise d.error(_world_field(str(exc)), str(exc)) from None
     if pack is None:
-        pack = _find_pack(d, path, pack_path)
+        pack = find_pack(d, path, pack_path)
     elif pack.sha256 != doc["pack"]["sha256"]:
         raise d.error("pack.sha256", f"the pack {pack.path} has changed since this "
                                      "counterexample was written (its sha256 differs)")
@@ -274,8 +280,10 @@ def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | No
                                "must be at least that and at most 8)")
     try:
         if "implementation" in doc:     # a counterexample of a user's implementation
-            from verifier.implcheck.replay import fresh_doc
-            fresh, st = fresh_doc(pack, rule, doc)
+            if recompute is None:
+                raise VerifierError("this counterexample was found in an implementation, which "
+                                    "must run again to check it (verifier show does)")
+            fresh, st = recompute(pack, rule, doc)
         else:
             st = State(pack, world)
             fresh = cexfile.build(pack, rule, st, verdict="violated", bound=bound,
@@ -291,7 +299,7 @@ def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | No
         if key not in fresh:
             diffs.append((key, "is not a field of a counterexample file"))
         else:
-            _diff(key, doc.get(key), fresh[key], diffs)
+            diff_field(key, doc.get(key), fresh[key], diffs)
     if diffs:
         field, message = diffs[0]
         more = f" ({len(diffs) - 1} other field{'s' if len(diffs) > 2 else ''} differ too)" if len(diffs) > 1 else ""
@@ -303,7 +311,7 @@ def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | No
         raise d.error("world", "the recorded world does not satisfy the rule's given")
     if evaluate(rule.expect.node, st, {}):
         raise d.error("failed", "the recorded world satisfies the rule's expect: it is no counterexample")
-    checked = _count_leaves({k: v for k, v in fresh.items() if k not in LOOSE})
+    checked = count_leaves({k: v for k, v in fresh.items() if k not in LOOSE})
     text = story_text(doc, pack, rule, st, shown=path.as_posix(), checked=checked)
     return Explained(path.as_posix(), doc, pack, rule, st, checked, text)
 
@@ -313,34 +321,19 @@ def _world_field(message: str) -> str:
     return m.group(1).rstrip(".:") if m else "world"
 
 
-def _count_leaves(x) -> int:
+def count_leaves(x) -> int:
     if isinstance(x, dict):
-        return sum(_count_leaves(v) for v in x.values())
+        return sum(count_leaves(v) for v in x.values())
     if isinstance(x, list):
-        return sum(_count_leaves(v) for v in x) or 1
+        return sum(count_leaves(v) for v in x) or 1
     return 1
 
 
 # ---- the story -------------------------------------------------------------------------------
 
-def m(x) -> str:
-    """A length in metres, exact."""
-    return f"{fmt(Fraction(x))} m"
-
-
 def signed(x) -> str:
     x = Fraction(x)
     return ("+" if x > 0 else "") + m(x)
-
-
-def value_words(value, ty) -> str:
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if hasattr(value, "word"):
-        return value.word
-    if ty == LENGTH:
-        return m(value)
-    return fmt(Fraction(value))
 
 
 def unknown_code_words(st) -> str:
@@ -364,16 +357,6 @@ def unplaced_words(st) -> str:
         return unknown_code_words(st)
     unknown = [q.upper() for q in ("q_dlrbg", "q_dirlrbg", "q_dirtrain") if g(f"report.{q}").word == "unknown"]
     return f"{', '.join(unknown)} unknown" if unknown else "the report carries no position"
-
-
-def comparison_words(detail: dict) -> str:
-    """A failed comparison (``cexfile.failed_detail`` with an operator) in words: the comparison as
-    written, then the value of each side that is not a literal, with its unit. For example
-    "report.q_dirlrbg == nominal is false: report.q_dirlrbg is reverse"."""
-    (lt, lv, lty), (rt, rv, rty) = detail["left"], detail["right"]
-    values = [f"{t} is {value_words(v, ty)}" for t, v, ty in ((lt, lv, lty), (rt, rv, rty))
-              if t.strip() != value_words(v, ty)]
-    return f"{lt} {detail['op']} {rt} is false" + (": " + " and ".join(values) if values else "")
 
 
 def flip(d: Direction) -> Direction:
@@ -430,9 +413,8 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
     add(f"  The onboard sees the passage as {seen.word}, because {why}.")
     add(f"  Balise detection error {signed(w.detect_error)} (positive: the antenna was further "
         "along than the onboard believed).")
-    front0, est0 = _front_at_detection(st)
+    front0, est0 = front_at_detection(st)
     if two and st.handover.accepted:       # the current LRBG's passage is G2's: G1's from the start
-        from verifier.world.sim import start
         first = start(attrs.evolve(w, legs=(), g2=None))
         front0 = first.front
         est0 = (1 if seen is Direction.UNKNOWN else (1 if w.direction.word == "nominal" else -1)) * first.est_front_passage
@@ -459,9 +441,9 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
         if two and w.g2.found and i == w.g2.at:
             g2 = w.g2
             if st.handover.accepted and st.get("report.two_groups"):
-                add(f"  The antenna reaches G2, a single balise without linking, and G2 becomes the LRBG "
-                    f"in a position report based on two balise groups: from here on every position is "
-                    f"counted from G2's mark, "
+                add("  The antenna reaches G2, a single balise without linking, and G2 becomes the LRBG "
+                    "in a position report based on two balise groups: from here on every position is "
+                    "counted from G2's mark, "
                     + ("positive in the direction from G1 towards G2 (the previous LRBG G1 is the direction "
                        "reference)" if st.get("report.prv_lrbg") == 1 else
                        "with every direction unknown (the train runs towards G1, against the way it passed G1)")
@@ -513,7 +495,7 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
         add(f"  The report does not place the train, rbc.placed is false: {unplaced_words(st)}.")
     add("")
     add("What failed")
-    f = cexfile.failed_detail(rule, st)
+    f = failed_detail(rule, st)
     if f and "op" in f:
         (lt, lv, lty), (rt, rv, rty) = f["left"], f["right"]
         add(f"  The first false part of expect is `{f['text']}`.")
@@ -582,27 +564,8 @@ def _second_group_words(add, st: State) -> None:
         + f"; {'it becomes the LRBG' if st.get('g2.lrbg') else 'it does not become the LRBG'}.")
 
 
-def _front_at_detection(st: State) -> tuple:
+def front_at_detection(st: State) -> tuple:
     """Real and estimated front at the detection instant (DESIGN 4.2, 4.3)."""
     return st.get("passage.actual_front"), st.get("passage.est_front")
 
 
-def show(file: str, pack_path: str | None = None, svg: str | None = None) -> tuple[str, str | None]:
-    """``verifier show``: the checked story, and the diagram written to ``svg`` when asked
-    ("" = beside the file, "-" = returned instead of the story)."""
-    from verifier.evidence import ctistory, diagram
-    if ctistory.is_induction_file(Path(file)):
-        e = ctistory.explain_file(file, pack_path=pack_path)
-        if svg is None:
-            return visible(e.text, keep="\n\t"), None
-        text = diagram.render_induction(e.doc, e.rule, e.views)
-    else:
-        e = explain_file(file, pack_path=pack_path)
-        if svg is None:
-            return e.text, None
-        text = diagram.render(e.doc, e.rule, e.state)
-    if svg == "-":
-        return text, None
-    target = diagram.svg_path(Path(file)) if svg == "" else Path(svg)
-    cexfile.write_atomic(target, text)
-    return visible(e.text, keep="\n\t"), target.as_posix()

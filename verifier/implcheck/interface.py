@@ -41,10 +41,10 @@ from pathlib import Path
 
 import attrs
 
-from verifier.errors import UsageError
-from verifier.world.scope import Scope
+from verifier.errors import UsageError, suggest
+from verifier.lang.scope import Scope
+from verifier.lang.vocab import Direction
 from verifier.world.sim import World
-from verifier.world.vocab import Direction
 
 F = Fraction
 DEFAULT_CALL_TIMEOUT = 5.0      # seconds per call of an implementation
@@ -207,7 +207,6 @@ def load(spec: str, search: tuple = ()) -> Loaded:
         raise UsageError(f"cannot import {mod_name!r} for {spec}: {_raised(exc)}") from None
     if fn is None:
         names = [n for n in dir(module) if not n.startswith("_") and callable(getattr(module, n, None))]
-        from verifier.errors import suggest
         raise UsageError(f"module {mod_name} has no {fn_name!r}" + suggest(fn_name, names))
     if not callable(fn):
         raise UsageError(f"{spec} is not callable")
@@ -575,7 +574,6 @@ def _fields(out, cls, who: str) -> dict:
                     continue
             unknown.append(k)
         if unknown:
-            from verifier.errors import suggest
             first = min(unknown, key=lambda k: (not isinstance(k, str), k if isinstance(k, str) else ""))
             if isinstance(first, str):
                 return_msg = f"{who} returned an unknown field {_show(first)}" + suggest(first, allowed)

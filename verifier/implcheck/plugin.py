@@ -87,7 +87,7 @@ class _Pack:
 
     def _load(self, path: str, config):
         from verifier.implcheck import interface
-        from verifier.loader import load_pack
+        from verifier.run.loader import load_pack
         self.pack = load_pack(path)
         search = tuple(config.getoption("verifier_path")) + tuple(self.pack.implementation.get("path", ()))
         spec = config.getoption("verifier_impl") or self.pack.implementation.get("onboard")
@@ -172,7 +172,7 @@ class Oracle:
 
         from verifier.implcheck import interface
         from verifier.implcheck.runner import Session
-        from verifier.loader import load_pack
+        from verifier.run.loader import load_pack
         if not self.paths:
             raise pytest.UsageError("verifier_rules: name the packs with @pytest.mark.verifier_pack(...) "
                                     "or --verifier-pack")

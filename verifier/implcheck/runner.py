@@ -6,7 +6,7 @@ For each rule, worlds come from three sources, in this order:
    (:func:`verifier.smt.concrete.boundary_worlds`) and its witness or counterexample against the
    pack's own design (:func:`verifier.smt.solve.solve_rule`);
 2. archived counterexample files of the pack (``counterexamples/<pack>/``, recursively);
-3. Hypothesis (:func:`verifier.strategies.worlds`, which leans on the corners), with the
+3. Hypothesis (:func:`verifier.trust.strategies.worlds`, which leans on the corners), with the
    Hypothesis settings in force.
 
 In each world the implementation computes the report (and the placement), the simulator the
@@ -33,10 +33,28 @@ from pathlib import Path
 import attrs
 
 from verifier.check.model import Pack, Rule
-from verifier.evidence import coverage
-from verifier.implcheck.interface import (DEFAULT_CALL_TIMEOUT, Finding, Loaded, Output, call_checked,
-                                          observe, packet_of, validate_placement, validate_report)
+from verifier.errors import UsageError
+from verifier.evidence import cexfile, diagram
+from verifier.evidence.story import story_text
+from verifier.implcheck.interface import (
+    DEFAULT_CALL_TIMEOUT,
+    Finding,
+    Loaded,
+    Output,
+    call_checked,
+    observe,
+    packet_of,
+    validate_placement,
+    validate_report,
+)
 from verifier.implcheck.state import ImplState, NotReturned
+from verifier.lang.vocab import Direction, Running
+from verifier.run import coverage
+from verifier.run.parallel import solve_in_order
+from verifier.smt import concrete
+from verifier.world.bounds import errors_after, odometer_range
+from verifier.world.failure import describe_failure, failed_detail
+from verifier.world.scenario import world_from_data, world_from_flat, world_to_data
 from verifier.world.sim import World, applies, evaluate, holds, scope_problems
 
 F = Fraction
@@ -57,7 +75,7 @@ class ImplOptions:
     legs: int | None = None       # legs of generated worlds (default: the pack's bound; 6 for legs = "any")
     rules: tuple = ()
     settings: object = None       # a hypothesis.settings to use instead of the three above
-    cache: object = None          # a verifier.cache.Cache for the solver's witnesses, or None
+    cache: object = None          # a verifier.run.cache.Cache for the solver's witnesses, or None
 
 
 @attrs.frozen
@@ -192,9 +210,6 @@ def solver_worlds(pack: Pack, rules, bound: int, *, timeout: float = 10.0, cache
     """(world, source) from the solver for every rule: boundary worlds, then the witness or
     counterexample against the pack's own design (from the verdict cache when it has them);
     duplicates dropped, order fixed."""
-    from verifier.parallel import solve_in_order
-    from verifier.smt import concrete
-    from verifier.world.scenario import world_from_flat
     out, seen = [], set()
     solved_all = solve_in_order([(pack, r) for r in rules], timeout=timeout * 3, cache=cache,
                                 bounds=[bound] * len(rules))
@@ -220,7 +235,6 @@ def archived_worlds(pack: Pack, root: Path, bound: int) -> list:
     """(world, "archive") from the pack's counterexample files (not counterexamples to
     induction), in path order; files that do not parse, or whose world is outside today's
     scope, are passed over."""
-    from verifier.world.scenario import world_from_data
     out = []
     base = Path(root) / pack.name
     if not base.is_dir():
@@ -333,11 +347,10 @@ def shrink(world: World, fails, scope, bound: int) -> World:
             # bound allows (a failure that needs the error at its bound keeps it there)
             for keep in ("exact", "error", "ratio", "high", "low"):
                 def put(x, c, i=i, keep=keep):
-                    from verifier.strategies import _errors_after, _odometer_range
                     leg = x.legs[i]
                     if keep in ("high", "low"):
-                        over, under, measured = _errors_after(scope, x.legs[:i], x.detect_error)
-                        lo, hi = _odometer_range(scope, over, under, measured, c)
+                        over, under, measured = errors_after(scope, x.legs[:i], x.detect_error)
+                        lo, hi = odometer_range(scope, over, under, measured, c)
                         odo = hi if keep == "high" else lo
                     else:
                         odo = {"exact": c, "error": c + (leg.odometer - leg.distance),
@@ -356,7 +369,6 @@ def shrink(world: World, fails, scope, bound: int) -> World:
                 return attrs.evolve(x, **{field: c if getattr(x, field) >= 0 else -c})
             w = lengths(w, lambda x, field=field: abs(getattr(x, field)), put_e, F(0))
         # (4) Booleans false first, enums in declaration order
-        from verifier.world.vocab import Direction, Running
         for change in ({"linked": False}, {"direction": Direction.NOMINAL}, {"running": Running.FORWARD}):
             trial = attrs.evolve(w, **change)
             if trial != w and ok(trial):
@@ -439,8 +451,7 @@ class Session:
 
     def __init__(self, pack: Pack, onboard: Loaded, trackside: Loaded | None = None,
                  opts: ImplOptions = ImplOptions(), progress=None):
-        from verifier.errors import UsageError
-        from verifier.strategies import worlds as world_strategy
+        from verifier.trust.strategies import worlds as world_strategy
         if pack.scope.groups == 2:
             raise UsageError(f"pack {pack.name} has two groups: the implementation interface "
                              "(docs/implementations.md) observes one group only, so far")
@@ -505,7 +516,6 @@ class Session:
 
     def story(self, outcome: RuleOutcome) -> str:
         """The counterexample of a failed rule in words (as ``verifier show`` tells it)."""
-        from verifier.evidence.story import story_text
         rule = self.pack.rule(outcome.rule)
         st = self.chk.state(outcome.world)
         doc = build_doc(self.pack, rule, st, self.onboard, self.trackside,
@@ -604,8 +614,6 @@ def _check_rule(pack, rule, chk: Checker, seeds, opts, world_strategy) -> RuleOu
     w, src = failing
     legs_before = len(w.legs)
     w = shrink(w, lambda x: chk.outcome(rule, x) == "fail", pack.scope, max(bound, len(w.legs)))
-    from verifier.engine import describe_failure
-    from verifier.evidence.cexfile import failed_detail
     msg = describe_failure(failed_detail(rule, chk.state(w)))
     return RuleOutcome(status="failed", world=w, found_by=src, message=msg, legs_before=legs_before, **base)
 
@@ -628,7 +636,6 @@ def write_files(report: ImplReport, pack: Pack, chk: Checker, out: Path, shown: 
     """Counterexample files (the usual format, with the implementation) and contract findings,
     written under ``out`` and named in the report as under ``shown`` (the same folder as the
     user spelt it; default ``out``)."""
-    from verifier.evidence import cexfile, diagram
     folder = impl_dir(out, pack, report.onboard)
     named = impl_dir(shown if shown is not None else out, pack, report.onboard)
     rules = []
@@ -646,7 +653,6 @@ def write_files(report: ImplReport, pack: Pack, chk: Checker, out: Path, shown: 
         rules.append(attrs.evolve(r, counterexample=(named / target.name).as_posix()))
     findings = []
     for f in report.findings:
-        from verifier.world.scenario import world_to_data
         doc = {"format": "verifier-contract/1", "caution": cexfile.CAUTION,
                "pack": {"name": pack.name, "path": pack.path, "sha256": pack.sha256},
                "implementation": implementation_block(report.onboard, report.trackside),
@@ -661,7 +667,6 @@ def write_files(report: ImplReport, pack: Pack, chk: Checker, out: Path, shown: 
 def build_doc(pack, rule, st, onboard: Loaded, trackside: Loaded | None, *, bound: int) -> dict:
     """A counterexample file of an implementation: the usual contents (DESIGN 6) computed with
     the implementation in place, and which implementation it was."""
-    from verifier.evidence import cexfile
     doc = cexfile.build(pack, rule, st, verdict="violated", bound=bound,
                         solver="implementation check", minimal=True)
     doc["implementation"] = implementation_block(onboard, trackside)

@@ -13,8 +13,8 @@ from __future__ import annotations
 from fractions import Fraction
 
 from verifier.implcheck.interface import Placement, Report, direction_of_code
+from verifier.lang.vocab import MAX_CODE, Direction
 from verifier.world.sim import State
-from verifier.world.vocab import MAX_CODE, Direction
 
 STEP = {0: Fraction(1, 10), 1: Fraction(1), 2: Fraction(10)}   # Q_SCALE codes, SUBSET-026 7.5.1.129
 _UNROUNDED = {"est.d_lrbg": "d_lrbg_m", "est.l_doubtover": "l_doubtover_m",

@@ -16,11 +16,10 @@ from pathlib import Path
 import attrs
 
 from verifier.errors import Diagnostic, PackError, control_char, suggest
-from verifier.lang import ast
+from verifier.lang import ast, vocab
 from verifier.lang.parser import ExprSyntaxError, parse, parse_quantity
+from verifier.lang.scope import Bound, Scope
 from verifier.lang.source import SourceFile, read_regular
-from verifier.world import vocab
-from verifier.world.scope import Bound, Scope
 
 SLUG = re.compile(r"[a-z0-9][a-z0-9-]*")     # always fullmatch: "$" also matches before a final "\n"
 IDENT = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")

@@ -18,10 +18,11 @@ import attrs
 import z3
 
 from verifier.check.model import Pack
+from verifier.lang import ast
+from verifier.lang.vocab import GLOBAL, INFO_FIELDS, LEG, names_for
 from verifier.smt import solve
 from verifier.smt.encode import Encoding
-from verifier.smt.solve import _fraction
-from verifier.world.vocab import GLOBAL, INFO_FIELDS, LEG, names_for
+from verifier.smt.solve import COMPARED, read_world, to_fraction
 
 _DIR_WORD = {1: "nominal", -1: "reverse", 0: "unknown"}
 
@@ -45,14 +46,14 @@ class Concrete:
     ambiguous: tuple = ()     # names whose value the inputs do not determine
 
 
-def _plain(v, ty: str):
+def plain_value(v, ty: str):
     if ty == "Bool":
         return z3.is_true(v)
     if ty == "Running":
         return "forward" if z3.is_true(v) else "backward"
     if ty == "Direction":
         return _DIR_WORD[v.as_long()]
-    return _fraction(v)
+    return to_fraction(v)
 
 
 def _num(x) -> Fraction:
@@ -91,7 +92,7 @@ class Evaluator:
         self.solver.set("timeout", int(timeout * 1000))
         self.solver.add(*enc.constraints)
 
-    def _assumptions(self, world: dict) -> list:
+    def assumptions_for(self, world: dict) -> list:
         I, ctx = self.enc.inputs, self.ctx
         legs = world.get("legs", [])
         if len(legs) > self.bound:
@@ -133,7 +134,7 @@ class Evaluator:
         With ``unique``, a second check asks whether any compared value could differ with the
         same inputs (it must not: the encoding is a function of its inputs)."""
         s = self.solver
-        assumptions = self._assumptions(world)
+        assumptions = self.assumptions_for(world)
         s.push()
         try:
             return self._evaluate(world, assumptions, unique)
@@ -159,7 +160,7 @@ class Evaluator:
                 continue
             v = model.evaluate(term, model_completion=True)
             fixed.append((kind, key, term, v))
-            plain = _plain(v, ty)
+            plain = plain_value(v, ty)
             if kind == "name":
                 values[key] = plain
             elif kind == "leg":
@@ -188,7 +189,6 @@ def compared_values(evaluator: Evaluator, world: dict) -> dict | None:
     """The encoding's values of the names the engine compares with the simulator
     (:data:`verifier.smt.solve.COMPARED`) in ``world`` (flat form), as a solve would report
     them; None when the encoding rejects the world or cannot evaluate it."""
-    from verifier.smt.solve import COMPARED
     try:
         c = evaluator.evaluate(world)
     except (RuntimeError, ValueError, KeyError, z3.Z3Exception):
@@ -205,7 +205,7 @@ class Sample:
     """A world of a rule's given found by the solver, with the encoding's values of given and
     expect in it (plain data) and why it was asked for."""
 
-    world: dict           # flat inputs, as solve._read_world gives them
+    world: dict           # flat inputs, as solve.read_world gives them
     given: bool
     expect: bool
     why: str
@@ -213,7 +213,6 @@ class Sample:
 
 def _atoms(node, out: list) -> None:
     """Comparisons of the expression tree outside quantifiers, in text order."""
-    from verifier.lang import ast
     if isinstance(node, ast.Quant):
         return
     if isinstance(node, ast.Chain):
@@ -231,7 +230,6 @@ def boundary_worlds(pack: Pack, rule, bound: int, *, count: int = 4, timeout: fl
     beside it); then a world where the expect is false and one where it is true. Each world found
     is excluded from the later questions, so the worlds are distinct. A question the solver
     cannot answer within its budget is skipped (no world is invented)."""
-    from verifier.smt.solve import _read_world
     ctx = z3.Context()
     enc = Encoding(pack, bound, ctx)
     given, expect = enc.given(rule), enc.expect(rule)
@@ -264,7 +262,7 @@ def boundary_worlds(pack: Pack, rule, bound: int, *, count: int = 4, timeout: fl
         if r != z3.sat:
             continue
         m = s.model()
-        world = _read_world(m, enc)
+        world = read_world(m, enc)
         g = z3.is_true(m.evaluate(given, model_completion=True))
         e = z3.is_true(m.evaluate(expect, model_completion=True))
         out.append(Sample(world, g, e, why))
@@ -276,7 +274,7 @@ def violation_status(pack: Pack, rule, bound: int, *, rlimit: int = 20_000_000,
                      timeout: float = 5.0) -> str:
     """One solver question, without minimisation or replay: is there a world in scope where
     the rule's given holds and its expect does not? ``sat``, ``unsat`` or ``unknown``.
-    (For fuzzing the encoder cheaply; verdicts come from :mod:`verifier.engine`.)"""
+    (For fuzzing the encoder cheaply; verdicts come from :mod:`verifier.run.engine`.)"""
     ctx = z3.Context()
     enc = Encoding(pack, bound, ctx)
     given, expect = enc.given(rule), enc.expect(rule)

@@ -20,14 +20,14 @@ import z3
 from verifier.check.model import Pack, Rule
 from verifier.lang import ast
 from verifier.lang.ast import COUNT, ZERO
-from verifier.world.vocab import MAX_CODE, Q_SCALES, UNKNOWN_CODE, Direction, Running
+from verifier.lang.vocab import LEG, MAX_CODE, Q_SCALES, UNKNOWN_CODE, Direction, Running
 
 _DIR_CODE = {Direction.NOMINAL: 1, Direction.REVERSE: -1, Direction.UNKNOWN: 0}
 OVERRIDE = "$override"   # env key: sub-terms replaced by given terms (accumulator parameters)
 ITEM = "$item"           # env key: the information item an info_* formula is evaluated for
 
 
-class _Terms:
+class Terms:
     """Vocabulary names and typed expressions as z3 terms, over one state of the world.
 
     The bounded :class:`Encoding` is one of these (its state is the end of its legs); a proof
@@ -462,7 +462,6 @@ class _Terms:
         return self.expr(fam.body, {fam.var: fields, OVERRIDE: over})
 
     def _dummy(self, field):
-        from verifier.world.vocab import LEG
         ty = LEG[field].ty
         self._fresh += 1
         if ty == "Bool" or ty == "Running":
@@ -579,7 +578,7 @@ class _Terms:
         return self.expr(rule.expect.node, {})
 
 
-class Encoding(_Terms):
+class Encoding(Terms):
     """The world of one pack, up to ``bound`` legs, in one z3 context."""
 
     def __init__(self, pack: Pack, bound: int, ctx: z3.Context, prefix: str = ""):

@@ -23,6 +23,7 @@ from pathlib import Path
 
 import z3
 
+from verifier.about import __version__
 from verifier.check.model import Pack, Rule
 from verifier.errors import InternalError
 from verifier.smt import solve
@@ -75,11 +76,11 @@ def show(e) -> str:
     return "(" + " ".join(show(x) for x in e) + ")"
 
 
-def _portable(e):
+def portable_term(e):
     """Rewrite one-argument applications of left-associative operators to their argument."""
     if isinstance(e, str):
         return e
-    e = [_portable(x) for x in e]
+    e = [portable_term(x) for x in e]
     if e and isinstance(e[0], str) and e[0] in _ASSOC and len(e) <= 2:
         if len(e) == 2:
             return e[1]
@@ -127,9 +128,8 @@ STATUS = {"violated": ("sat", "sat"), "holds": ("unsat", "sat"), "vacuous": ("un
 
 def obligations(pack: Pack, rule: Rule, bound: int, verdict: str | None = None) -> dict[str, str]:
     """The two portable SMT-LIB texts of a rule: ``{"violation": ..., "given": ...}``."""
-    from verifier import __version__
     q = export_rule(pack, rule, bound)
-    body = [show(_portable(e)) for e in parse_sexprs(q.text)]
+    body = [show(portable_term(e)) for e in parse_sexprs(q.text)]
     status = STATUS.get(verdict or "")
     given_text = rule.given.text if rule.given else "true"
     if rule.premise_legs:

@@ -24,11 +24,12 @@ import z3
 
 from verifier.check.model import Pack, Rule
 from verifier.check.unbounded import STATIC, Plan
+from verifier.errors import InternalError
 from verifier.lang.ast import BOOL, COUNT, DIRECTION, RUNNING
-from verifier.smt import solve
-from verifier.smt.concrete import _plain as _plain_value
-from verifier.smt.encode import OVERRIDE, _Terms
-from verifier.world.vocab import LEG
+from verifier.lang.vocab import GLOBAL, LEG
+from verifier.smt import export, solve
+from verifier.smt.concrete import Evaluator, plain_value
+from verifier.smt.encode import OVERRIDE, Terms
 
 _SORT = {"all": "bool", "any": "bool", "count": "int"}
 
@@ -41,7 +42,7 @@ def _sort_of(ty: str) -> str:
     return "real"
 
 
-class View(_Terms):
+class View(Terms):
     """Names, designs and rules at one state of a path (a prefix of its own for every
     constant it defines); quantifiers read the state's accumulators."""
 
@@ -80,7 +81,7 @@ class View(_Terms):
         return self.st["frozen"][(i, field)]
 
 
-class Path(_Terms):
+class Path(Terms):
     """States s0 .. sk of one pack in one context: s0 arbitrary within the domain of DESIGN
     4.7 (or fixed by ``state0``), then ``depth`` legs, each in scope."""
 
@@ -222,7 +223,7 @@ def step(pack: Pack, rule: Rule, lemmas: tuple, plan: Plan, depth: int, *,
     """The induction step of ``rule`` at ``depth``, strengthened by ``lemmas`` (rules already
     proved for any number of legs), in a fresh context."""
     ctx = z3.Context()
-    budget = solve._Budget(timeout)
+    budget = solve.Budget(timeout)
     t0 = time.perf_counter()
     path = Path(pack, plan, depth, ctx)
     facts = [holds_at(v, rule) for v in path.views[:-1]]
@@ -232,7 +233,7 @@ def step(pack: Pack, rule: Rule, lemmas: tuple, plan: Plan, depth: int, *,
         mark = z3.Bool(f"lemma!{j}", ctx)
         marks.append(mark)
         facts.append(z3.Implies(mark, z3.And([holds_at(v, lemma) for v in path.views])))
-    ses = solve._Session(path, rlimit, budget)
+    ses = solve.SolverSession(path, rlimit, budget)
     ses.add(*facts)
     r = ses.check(*marks)
     if r == z3.unsat:
@@ -295,23 +296,23 @@ def _ladder(ses, path: Path) -> bool:
 
 def read_path(model, path: Path) -> dict:
     """A path's inputs as plain data: ``world`` (the static inputs, flat as
-    ``solve._read_world`` gives them, no legs), ``state`` (s0: every constant of
+    ``solve.read_world`` gives them, no legs), ``state`` (s0: every constant of
     :attr:`Path.state_vars` by name) and ``legs`` (the depth's legs, flat)."""
     ev = lambda t: model.evaluate(t, model_completion=True)  # noqa: E731
     I = path.inputs
     world = {
         "balises": ev(I["lrbg.balises"]).as_long(), "read": ev(I["lrbg.read"]).as_long(),
         "linked": z3.is_true(ev(I["lrbg.linked"])),
-        "locacc": solve._fraction(ev(I["lrbg.locacc"])), "offset": solve._fraction(ev(I["lrbg.offset"])),
-        "length": solve._fraction(ev(I["train.length"])), "antenna": solve._fraction(ev(I["train.antenna"])),
+        "locacc": solve.to_fraction(ev(I["lrbg.locacc"])), "offset": solve.to_fraction(ev(I["lrbg.offset"])),
+        "length": solve.to_fraction(ev(I["train.length"])), "antenna": solve.to_fraction(ev(I["train.antenna"])),
         "direction": "nominal" if ev(I["passage.direction"]).as_long() == 1 else "reverse",
         "running": "forward" if z3.is_true(ev(I["passage.running"])) else "backward",
-        "detect_error": solve._fraction(ev(I["passage.detect_error"])), "legs": [],
+        "detect_error": solve.to_fraction(ev(I["passage.detect_error"])), "legs": [],
     }
     state = {}
     for name, c in path.state_vars.items():
         v = ev(c)
-        state[name] = z3.is_true(v) if z3.is_bool(c) else solve._fraction(v)
+        state[name] = z3.is_true(v) if z3.is_bool(c) else solve.to_fraction(v)
     count = state["legs.count"]
     for name in [n for n in state if n.startswith("legs.") and n != "legs.count"]:
         if int(name.split(".")[1]) > count:   # a leg not run yet: its frozen copy means nothing
@@ -320,7 +321,7 @@ def read_path(model, path: Path) -> dict:
     for cab, fwd, dist, odo in path.leg_inputs:
         legs.append({"cab_change": z3.is_true(ev(cab)),
                      "running": "forward" if z3.is_true(ev(fwd)) else "backward",
-                     "distance": solve._fraction(ev(dist)), "odometer": solve._fraction(ev(odo))})
+                     "distance": solve.to_fraction(ev(dist)), "odometer": solve.to_fraction(ev(odo))})
     return {"world": world, "state": state, "legs": legs}
 
 
@@ -359,7 +360,6 @@ def evaluate_path(pack: Pack, plan: Plan, data: dict, names, rules=(), *, timeou
     sk) of {name: value} for ``names`` (vocabulary names), with ``rule:<id>:given`` and
     ``rule:<id>:expect`` for each rule of ``rules``, and every accumulator as
     ``acc:<n>:<j>``; None when the path is outside the domain or the scope."""
-    from verifier.world.vocab import GLOBAL
     ctx = z3.Context()
     path = Path(pack, plan, len(data["legs"]), ctx)
     wanted = []
@@ -384,7 +384,7 @@ def evaluate_path(pack: Pack, plan: Plan, data: dict, names, rules=(), *, timeou
     m = s.model()
     out = [dict() for _ in path.views]
     for i, key, ty, term in wanted:
-        out[i][key] = _plain_value(m.evaluate(term, model_completion=True), ty)
+        out[i][key] = plain_value(m.evaluate(term, model_completion=True), ty)
     return out
 
 
@@ -402,10 +402,9 @@ def bounded_accumulators(enc, plan: Plan) -> dict:
 
 
 def bounded_state(pack: Pack, plan: Plan, world: dict, *, timeout: float = 30.0) -> dict:
-    """The state after all the legs of one world (flat, as ``solve._read_world`` gives it),
+    """The state after all the legs of one world (flat, as ``solve.read_world`` gives it),
     computed by the *bounded* encoding with its own quantifiers over the legs, in the naming of
     :func:`read_path` (``state`` part). For comparing the step with the bounded encoding."""
-    from verifier.smt.concrete import Evaluator
     n = len(world["legs"])
     ev = Evaluator(pack, n, timeout)
     enc = ev.enc
@@ -424,14 +423,14 @@ def bounded_state(pack: Pack, plan: Plan, world: dict, *, timeout: float = 30.0)
     s = ev.solver
     s.push()
     try:
-        s.add(*ev._assumptions(world))
+        s.add(*ev.assumptions_for(world))
         if solve.check(s) != z3.sat:
             raise ValueError("the bounded encoding rejects the world")
         m = s.model()
         out = {}
         for k, t in wanted.items():
             v = m.evaluate(t, model_completion=True)
-            out[k] = z3.is_true(v) if z3.is_bool(t) else solve._fraction(v)
+            out[k] = z3.is_true(v) if z3.is_bool(t) else solve.to_fraction(v)
         return out
     finally:
         s.pop()
@@ -441,8 +440,6 @@ def step_obligation(pack: Pack, rule: Rule, lemmas: tuple, plan: Plan, depth: in
     """The induction step at ``depth`` as a portable SMT-LIB 2.6 script for another solver:
     ``unsat`` means the step is proved (the rule holds for any number of legs, given its base
     case), ``sat`` that a counterexample to induction exists. The lemmas are asserted."""
-    from verifier.errors import InternalError
-    from verifier.smt import export
     ctx = z3.Context()
     path = Path(pack, plan, depth, ctx)
     facts = [holds_at(v, rule) for v in path.views[:-1]]
@@ -450,7 +447,7 @@ def step_obligation(pack: Pack, rule: Rule, lemmas: tuple, plan: Plan, depth: in
     facts += [holds_at(v, lemma) for lemma in lemmas for v in path.views]
     s = z3.Solver(ctx=ctx)
     s.add(*path.constraints, *facts)
-    body = [export.show(export._portable(e)) for e in export.parse_sexprs(s.sexpr())]
+    body = [export.show(export.portable_term(e)) for e in export.parse_sexprs(s.sexpr())]
     head = [f"; verifier: induction step of depth {depth} of {rule.role} '{rule.id}' of pack "
             f"'{pack.name}' ({pack.path}), lemmas: {', '.join(x.id for x in lemmas) or 'none'}",
             "; unsat: no counterexample to induction (the step is proved)",

@@ -32,7 +32,7 @@ class Distinction:
     kind: str           # coverage or claim
     direction: str      # old-only or new-only: which side's formula is true there
     status: str         # none (no such world), found, unknown
-    world: dict | None = None     # flat world (as solve._read_world), minimal by the ladder
+    world: dict | None = None     # flat world (as solve.read_world), minimal by the ladder
     minimal: bool = True
     reason: str = ""
 
@@ -62,20 +62,20 @@ def relate(old_pack: Pack, old_rule: Rule, new_pack: Pack, new_rule: Rule, bound
              ("claim", "new-only"): z3.And(cn, z3.Not(co))}
     out = []
     for kind, direction in QUESTIONS:
-        budget = solve._Budget(timeout)
-        ses = solve._Session(both, rlimit, budget)
+        budget = solve.Budget(timeout)
+        ses = solve.SolverSession(both, rlimit, budget)
         ses.add(facts[(kind, direction)])
-        r, why = solve._check_whole_or_by_legs(ses)
+        r, why = solve.check_whole_or_by_legs(ses)
         if r == z3.unsat:
             out.append(Distinction(kind, direction, "none"))
             continue
         if r == z3.unknown:
             out.append(Distinction(kind, direction, "unknown", reason=why))
             continue
-        decided = solve._ladder(ses, both)
+        decided = solve.run_ladder(ses, both)
         if ses.check() != z3.sat:   # pragma: no cover - the ladder only adds satisfiable facts
             out.append(Distinction(kind, direction, "unknown", reason="minimisation lost the world"))
             continue
-        out.append(Distinction(kind, direction, "found", solve._read_world(ses.s.model(), both),
+        out.append(Distinction(kind, direction, "found", solve.read_world(ses.s.model(), both),
                                decided, "" if decided else "minimisation stopped by the budget"))
     return tuple(out)

@@ -11,7 +11,6 @@ what makes serial and parallel runs give identical results.
 
 from __future__ import annotations
 
-
 import attrs
 import z3
 
@@ -76,7 +75,7 @@ class _Parsed:
 def solve_query(q: Query, *, rlimit: int = solve.DEFAULT_RLIMIT,
                 timeout: float = solve.DEFAULT_TIMEOUT, witness: bool = True) -> solve.Solved:
     """Decide a query in a fresh context (any process): plain data in, plain data out."""
-    budget = solve._Budget(timeout)
+    budget = solve.Budget(timeout)
     p = _Parsed(q)
     return solve.decide(p, z3.Bool(GIVEN, p.ctx), z3.Bool(EXPECT, p.ctx), rlimit=rlimit,
                         budget=budget, witness=witness)

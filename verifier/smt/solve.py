@@ -15,6 +15,8 @@ import attrs
 import z3
 
 from verifier.check.model import Pack, Rule
+from verifier.lang import ast
+from verifier.lang.vocab import GLOBAL
 from verifier.smt.encode import Encoding
 
 DEFAULT_RLIMIT = 500_000_000     # per solver check; deterministic (about 20 s of z3 work)
@@ -58,7 +60,7 @@ def check(solver, *assumptions):
     return result
 
 
-class _Budget:
+class Budget:
     def __init__(self, timeout: float):
         self.deadline = time.monotonic() + timeout
 
@@ -69,7 +71,7 @@ class _Budget:
         return time.monotonic() >= self.deadline
 
 
-class _Session:
+class SolverSession:
     """Budgeted checks over one encoding.
 
     Every check runs in a new solver (same context) over the base constraints, the facts
@@ -79,7 +81,7 @@ class _Session:
     the history of earlier checks.
     """
 
-    def __init__(self, enc: Encoding, rlimit: int, budget: _Budget):
+    def __init__(self, enc: Encoding, rlimit: int, budget: Budget):
         self.enc = enc
         self.rlimit = rlimit
         self.budget = budget
@@ -114,7 +116,7 @@ class _Session:
         return self.used
 
 
-def _fraction(v) -> Fraction:
+def to_fraction(v) -> Fraction:
     if z3.is_int_value(v):
         return Fraction(v.as_long())
     if z3.is_rational_value(v):
@@ -133,7 +135,7 @@ class _Steps:
     incremental question; the answer (not the solver's model) decides the value, so the
     result is the lexicographically least grid point whatever model z3 returns."""
 
-    def __init__(self, ses: _Session):
+    def __init__(self, ses: SolverSession):
         self.s = ses
 
     def sat(self, *a) -> bool:
@@ -143,7 +145,7 @@ class _Steps:
         return r == z3.sat
 
     def value_of(self, term) -> Fraction:
-        return _fraction(self.s.s.model().evaluate(term, model_completion=True))
+        return to_fraction(self.s.s.model().evaluate(term, model_completion=True))
 
     def try_fix(self, c) -> bool:
         if self.sat(c):
@@ -201,12 +203,12 @@ class _Steps:
         self.s.add(x == num(self.value_of(x)))
 
 
-def _ladder(ses: _Session, enc: Encoding) -> bool:
+def run_ladder(ses: SolverSession, enc: Encoding) -> bool:
     """Fix every input by the fixed ladder of DESIGN 6. Returns whether every step was decided."""
     return ladder(ses, enc.inputs, enc.K, enc.terms["legs.count"], enc.terms["cab_changes"])
 
 
-def ladder(ses: _Session, I: dict, K: int, count, cab_changes, more=None) -> bool:
+def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None) -> bool:
     """The ladder of DESIGN 6 over the inputs ``I`` of up to ``K`` legs, with ``count`` and
     ``cab_changes`` the terms its first step minimises; ``more(steps)`` fixes further values
     (a state's, for a counterexample to induction) after the inputs and before the Booleans.
@@ -261,7 +263,7 @@ def ladder(ses: _Session, I: dict, K: int, count, cab_changes, more=None) -> boo
     return True
 
 
-def _check_whole_or_by_legs(ses: _Session) -> tuple:
+def check_whole_or_by_legs(ses: SolverSession) -> tuple:
     """The session's question as one check; if that is left undecided (budget), asked again for
     each number of legs, fewest first, as separate one-shot checks (the cases cover every world
     in scope, since 0 <= legs.count <= K is a world constraint). Returns ``(result, reason)``:
@@ -287,7 +289,7 @@ def _check_whole_or_by_legs(ses: _Session) -> tuple:
     return z3.unsat, ""
 
 
-def _read_world(model, enc: Encoding) -> dict:
+def read_world(model, enc: Encoding) -> dict:
     """The inputs of a model as plain data, legs beyond legs.count left out."""
     ev = lambda t: model.evaluate(t, model_completion=True)  # noqa: E731
     I = enc.inputs
@@ -296,31 +298,31 @@ def _read_world(model, enc: Encoding) -> dict:
         "balises": ev(I["lrbg.balises"]).as_long(),
         "read": ev(I["lrbg.read"]).as_long(),
         "linked": z3.is_true(ev(I["lrbg.linked"])),
-        "locacc": _fraction(ev(I["lrbg.locacc"])),
-        "offset": _fraction(ev(I["lrbg.offset"])),
-        "length": _fraction(ev(I["train.length"])),
-        "antenna": _fraction(ev(I["train.antenna"])),
+        "locacc": to_fraction(ev(I["lrbg.locacc"])),
+        "offset": to_fraction(ev(I["lrbg.offset"])),
+        "length": to_fraction(ev(I["train.length"])),
+        "antenna": to_fraction(ev(I["train.antenna"])),
         "direction": "nominal" if ev(I["passage.direction"]).as_long() == 1 else "reverse",
         "running": "forward" if z3.is_true(ev(I["passage.running"])) else "backward",
-        "detect_error": _fraction(ev(I["passage.detect_error"])),
+        "detect_error": to_fraction(ev(I["passage.detect_error"])),
         "legs": [],
     }
     if "g2.distance" in I:
         g = {k: ev(I[f"g2.{k}"]) for k in ("distance", "side", "orientation", "balises", "read",
                                            "linked", "locacc", "offset", "found", "at", "detect_error")}
         word = {1: "nominal", -1: "reverse"}
-        world["g2"] = {"distance": _fraction(g["distance"]), "side": word[g["side"].as_long()],
+        world["g2"] = {"distance": to_fraction(g["distance"]), "side": word[g["side"].as_long()],
                        "orientation": word[g["orientation"].as_long()], "balises": g["balises"].as_long(),
                        "read": g["read"].as_long(), "linked": z3.is_true(g["linked"]),
-                       "locacc": _fraction(g["locacc"]), "offset": _fraction(g["offset"]),
+                       "locacc": to_fraction(g["locacc"]), "offset": to_fraction(g["offset"]),
                        "found": z3.is_true(g["found"]), "at": g["at"].as_long(),
-                       "detect_error": _fraction(g["detect_error"])}
+                       "detect_error": to_fraction(g["detect_error"])}
     for i in range(1, count + 1):
         world["legs"].append({
             "cab_change": z3.is_true(ev(I[f"legs.{i}.cab_change"])),
             "running": "forward" if z3.is_true(ev(I[f"legs.{i}.running"])) else "backward",
-            "distance": _fraction(ev(I[f"legs.{i}.distance"])),
-            "odometer": _fraction(ev(I[f"legs.{i}.odometer"])),
+            "distance": to_fraction(ev(I[f"legs.{i}.distance"])),
+            "odometer": to_fraction(ev(I[f"legs.{i}.odometer"])),
         })
     return world
 
@@ -330,7 +332,6 @@ _DIR_WORD = {1: "nominal", -1: "reverse", 0: "unknown"}
 
 def read_values(model, enc: Encoding, names) -> dict:
     """The encoding's value of each vocabulary name in a model, as plain data."""
-    from verifier.world.vocab import GLOBAL
     out = {}
     for name in names:
         term = enc.name(name)
@@ -343,7 +344,7 @@ def read_values(model, enc: Encoding, names) -> dict:
         elif ty == "Direction":
             out[name] = _DIR_WORD[v.as_long()]
         else:
-            out[name] = _fraction(v)
+            out[name] = to_fraction(v)
     return out
 
 
@@ -362,7 +363,7 @@ def solve_rule(pack: Pack, rule: Rule, bound: int, *, rlimit: int = DEFAULT_RLIM
                timeout: float = DEFAULT_TIMEOUT, witness: bool = True) -> Solved:
     """Decide one rule up to ``bound`` legs in a fresh context."""
     ctx = z3.Context()
-    budget = _Budget(timeout)
+    budget = Budget(timeout)
     enc = Encoding(pack, bound, ctx)
     given = enc.given(rule)
     expect = enc.expect(rule)
@@ -371,17 +372,17 @@ def solve_rule(pack: Pack, rule: Rule, bound: int, *, rlimit: int = DEFAULT_RLIM
     return decide(enc, given, expect, rlimit=rlimit, budget=budget, witness=witness)
 
 
-def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: _Budget | None = None,
+def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: Budget | None = None,
            witness: bool = True) -> Solved:
     """The verdict, witness and minimal world of ``given and not expect`` over ``enc``.
 
     ``enc`` is an :class:`Encoding` or anything with its ``ctx``, ``K``, ``constraints``,
     ``inputs``, ``terms["legs.count"]``, ``terms["cab_changes"]`` and ``name()`` (for
     example a problem parsed back from SMT-LIB text, see :mod:`verifier.smt.smtlib`)."""
-    budget = budget or _Budget(DEFAULT_TIMEOUT)
+    budget = budget or Budget(DEFAULT_TIMEOUT)
     # Two solvers: the first asks for a violation in one non-incremental check (z3's fastest
     # mode here); the second decides vacuity and finds the witness.
-    ses = _Session(enc, rlimit, budget)
+    ses = SolverSession(enc, rlimit, budget)
     ses.add(given, z3.Not(expect))
     checks = rl = 0
     secs = 0.0
@@ -390,26 +391,26 @@ def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: _Budget 
         return Solved(verdict, world, values, minimal, reason, max(rl, last.rlimit_used()),
                       checks + last.checks, SOLVER, secs + last.seconds)
 
-    r, why = _check_whole_or_by_legs(ses)
+    r, why = check_whole_or_by_legs(ses)
     if r == z3.sat:
         # keep the first violating world: if the budget runs out while minimising, it is still
         # a counterexample (reported as not minimal, and replayed like any other)
         first = ses.s.model()
-        first_world, first_values = _read_world(first, enc), read_values(first, enc, COMPARED)
-        decided = _ladder(ses, enc)
+        first_world, first_values = read_world(first, enc), read_values(first, enc, COMPARED)
+        decided = run_ladder(ses, enc)
         if ses.check() != z3.sat:   # the budget ran out on the final question
             return finish("violated", world=first_world, values=first_values, minimal=False,
                           reason="minimisation stopped by the budget")
         model = ses.s.model()
-        return finish("violated", world=_read_world(model, enc),
+        return finish("violated", world=read_world(model, enc),
                       values=read_values(model, enc, COMPARED), minimal=decided,
                       reason="" if decided else "minimisation stopped by the budget")
     if r == z3.unknown:
         return finish("unknown", reason=why)
     checks, rl, secs = ses.checks, ses.rlimit_used(), ses.seconds
-    wit = _Session(enc, rlimit, budget)
+    wit = SolverSession(enc, rlimit, budget)
     wit.add(given)
-    r, why = _check_whole_or_by_legs(wit)
+    r, why = check_whole_or_by_legs(wit)
     if r == z3.unknown:
         return finish("unknown", reason=f"given: {why}", last=wit)
     if r == z3.unsat:
@@ -419,16 +420,15 @@ def decide(enc, given, expect, *, rlimit: int = DEFAULT_RLIMIT, budget: _Budget 
     wit.add(expect)
     if wit.check() != z3.sat:
         return finish("holds", reason="no witness found within the budget", last=wit)
-    decided = _ladder(wit, enc)
+    decided = run_ladder(wit, enc)
     if wit.check() != z3.sat:  # pragma: no cover
         return finish("holds", reason="witness lost", last=wit)
     model = wit.s.model()
-    return finish("holds", world=_read_world(model, enc), values=read_values(model, enc, COMPARED),
+    return finish("holds", world=read_world(model, enc), values=read_values(model, enc, COMPARED),
                   minimal=decided, last=wit)
 
 
 def _and_items(node) -> list:
-    from verifier.lang import ast
     if isinstance(node, ast.Binary) and node.op == "and":
         return _and_items(node.left) + _and_items(node.right)
     return [node]

@@ -9,10 +9,10 @@ from fractions import Fraction
 from pathlib import Path
 
 from verifier.errors import Diagnostic, PackError
+from verifier.lang.numbers import fmt  # noqa: F401 - re-exported: scenario.fmt is public
 from verifier.lang.source import read_regular_text
-from verifier.world.numbers import fmt  # noqa: F401 - re-exported: scenario.fmt is public
-from verifier.world.sim import Group2, Leg, World
-from verifier.world.vocab import Direction, Running
+from verifier.lang.vocab import LEG, Direction, Running
+from verifier.world.sim import Group2, Leg, Snapshot, World
 
 
 def parse_length(value, where: str) -> Fraction:
@@ -227,7 +227,6 @@ _STATE_LENGTHS = ("actual.front", "est.front_passage", "actual.travelled", "est.
 
 def _leg_value(field: str, v):
     """A frozen leg field from plain data (bool, number, word) to the simulator's value."""
-    from verifier.world.vocab import LEG
     ty = LEG[field].ty
     if ty == "Bool":
         return bool(v)
@@ -246,7 +245,6 @@ def snapshot_from_flat(world: dict, state: dict, plan):
     """The simulator's state from the solver's plain data (``verifier.smt.induction``):
     ``world`` flat as a counterexample's inputs, ``state`` keyed by the solver's names
     (``acc.N.J`` for accumulator family N, case J; ``legs.I.FIELD`` for frozen legs)."""
-    from verifier.world.sim import Snapshot
     accs = {}
     for n, fam in enumerate(plan.accumulators):
         accs[fam.key] = {}
@@ -301,7 +299,6 @@ _FIELD = {"actual.front": "front", "est.front_passage": "est_front_passage",
 
 def snapshot_from_data(data, world: World, plan, where: str = "state"):
     """A state from file data (``snapshot_to_data``); raise ValueError naming the field."""
-    from verifier.world.sim import Snapshot
     if not isinstance(data, dict):
         raise ValueError(f"{where} must be a table")
 

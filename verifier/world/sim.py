@@ -11,10 +11,11 @@ from fractions import Fraction
 import attrs
 
 from verifier.check.model import Formula, Pack
+from verifier.check.unbounded import STATIC
 from verifier.lang import ast
-from verifier.world.numbers import fmt
-from verifier.world.scope import Scope
-from verifier.world.vocab import MAX_CODE, Q_SCALES, UNKNOWN_CODE, Direction, Running
+from verifier.lang.numbers import fmt
+from verifier.lang.scope import Scope
+from verifier.lang.vocab import MAX_CODE, Q_SCALES, UNKNOWN_CODE, Direction, Running
 
 F = Fraction
 NOM, REV, UNK = Direction.NOMINAL, Direction.REVERSE, Direction.UNKNOWN
@@ -564,6 +565,11 @@ class _Values:
             self._memo[dep] = evaluate(self.pack.definition(dep).node, self, {})
         return self._memo[dep]
 
+    def forget(self, dep: tuple) -> None:
+        """Drop what ``formula(dep)`` left behind when it raised (a let naming a leg beyond the
+        world's legs), so that asking again raises again."""
+        self._memo.pop(dep, None)
+
     def quantify(self, node: ast.Quant, env: dict):
         raise NotImplementedError
 
@@ -705,7 +711,6 @@ class SnapView(_Values):
     accumulator's body is evaluated in)."""
 
     def __init__(self, pack: Pack, snap: Snapshot, plan, static_only: bool = False):
-        from verifier.check.unbounded import STATIC
         self.pack = pack
         self.snap = snap
         self.world = snap.world

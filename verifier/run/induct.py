@@ -15,8 +15,14 @@ import time
 
 import attrs
 
-from verifier.check.model import Pack, Rule
+from verifier.check.model import Formula, Pack, Rule
 from verifier.check.unbounded import Plan, plan_for, rule_formulas
+from verifier.lang.ast import BOOL, BoolLit
+from verifier.lang.pack import MAX_LEGS
+from verifier.run.cache import induction_key
+from verifier.smt import induction, solve
+from verifier.smt.solve import DEFAULT_RLIMIT
+from verifier.world.scenario import legs_from_flat, snapshot_from_flat
 from verifier.world.sim import SnapView, advance, applies, evaluate, holds, snapshot_problems
 
 DEFAULT_DEPTH = 4
@@ -38,7 +44,6 @@ def rule_rlimit(rlimit: int | None) -> int:
     """The deterministic budget of one solver check (``--rlimit``, or the default)."""
     if rlimit is not None:
         return rlimit
-    from verifier.smt.solve import DEFAULT_RLIMIT
     return DEFAULT_RLIMIT
 
 
@@ -56,8 +61,6 @@ def not_given(rule: Rule) -> Rule:
     """"The given never holds" as a rule of its own: the same given (with its implicit
     premise) and ``expect = false``. Proved for any number of legs, the rule is vacuous for any
     number of legs (DESIGN 4.7)."""
-    from verifier.check.model import Formula
-    from verifier.lang.ast import BOOL, BoolLit
     false = Formula(f"{rule.role} {rule.id} never given", "false", BoolLit(False, ty=BOOL),
                     rule.expect.key)
     return attrs.evolve(rule, expect=false)
@@ -75,7 +78,6 @@ def base_bound(pack: Pack, rule: Rule, legs, depth: int) -> int:
     depth - 1 (the base case of k-induction) and at least the highest legs[i] it names."""
     bound = pack.bound_for(rule, legs)
     if pack.unbounded_for(rule, legs):
-        from verifier.lang.pack import MAX_LEGS
         bound = min(MAX_LEGS, max(bound, depth - 1, rule.premise_legs))
     return bound
 
@@ -83,7 +85,6 @@ def base_bound(pack: Pack, rule: Rule, legs, depth: int) -> int:
 def replay(pack: Pack, rule: Rule, lemmas, plan: Plan, cti: dict) -> Replayed:
     """Run a counterexample to induction (solver data: world, state, legs) step by step in the
     simulator (see :func:`replay_states`)."""
-    from verifier.world.scenario import legs_from_flat, snapshot_from_flat
     try:
         snap = snapshot_from_flat(cti["world"], cti["state"], plan)
     except (KeyError, ValueError) as exc:
@@ -123,7 +124,6 @@ def replay_states(pack: Pack, rule: Rule, lemmas, plan: Plan, snap, legs) -> Rep
 
 def compare_values(pack: Pack, plan: Plan, cti: dict, views, rule: Rule) -> list[str]:
     """Names on which the encoding and the simulator disagree at some state of the path."""
-    from verifier.smt import induction, solve
     names = [n for n in solve.COMPARED]
     enc = induction.evaluate_path(pack, plan, cti, names, (rule,))
     if enc is None:
@@ -163,12 +163,11 @@ class Outcome:
 def prove(pack: Pack, rule: Rule, lemmas: tuple, bound: int, *, depth: int = DEFAULT_DEPTH,
           rlimit: int | None = None, timeout: float | None = None, cache=None) -> Outcome:
     """The induction step of a rule whose bounded check up to ``bound`` legs holds. With a
-    ``cache`` (:class:`verifier.cache.Cache`) a decided outcome is stored, and a stored one is
+    ``cache`` (:class:`verifier.run.cache.Cache`) a decided outcome is stored, and a stored one is
     used: its counterexample to induction is replayed in the simulator all the same."""
     t0 = time.monotonic()
     key = None
     if cache is not None:
-        from verifier.cache import induction_key
         key = induction_key(pack, rule, lemmas, bound, depth)
         hit = cache.get_data(key)
         if hit is not None:
@@ -201,7 +200,6 @@ def _confirm(pack, rule, lemmas, plan, hit: dict, t0: float):
 
 
 def _prove(pack, rule, lemmas, bound, depth, rlimit, timeout, t0) -> Outcome:
-    from verifier.smt import induction
     plan = plan_with_lemmas(pack, rule, lemmas)
     ids = [lemma.id for lemma in lemmas]
     base = {"kind": "bounded", "legs": bound}

@@ -24,6 +24,9 @@ from __future__ import annotations
 import attrs
 
 from verifier.errors import UsageError
+from verifier.run.induct import plan_with_lemmas
+from verifier.smt import export, induction, second
+from verifier.smt.concrete import boundary_worlds
 from verifier.world.scenario import world_from_flat
 from verifier.world.sim import State, applies, evaluate, scope_problems
 
@@ -81,7 +84,6 @@ class CrossReport:
 
 
 def _second(pack, rule, bound, verdict, timeout) -> tuple[dict, dict, dict, list]:
-    from verifier.smt import export, second
     texts = export.obligations(pack, rule, bound, verdict)
     want = dict(zip(("violation", "given"), export.STATUS[verdict]))
     got, how, problems = {}, {}, []
@@ -101,8 +103,6 @@ def _second(pack, rule, bound, verdict, timeout) -> tuple[dict, dict, dict, list
 
 def _second_step(pack, rule, proof: dict, timeout, got, want, how, problems) -> None:
     """(d): the induction step that proved a rule, re-solved by cvc5."""
-    from verifier.induct import plan_with_lemmas
-    from verifier.smt import induction, second
     lemmas = tuple(pack.rule(x) for x in proof.get("lemmas", ()))
     plan = plan_with_lemmas(pack, rule, lemmas)
     text = induction.step_obligation(pack, rule, lemmas, plan, proof["depth"])
@@ -116,7 +116,6 @@ def _second_step(pack, rule, proof: dict, timeout, got, want, how, problems) -> 
 
 
 def _boundary(pack, rule, bound, verdict, count, timeout) -> tuple[int, list]:
-    from verifier.smt.concrete import boundary_worlds
     samples = boundary_worlds(pack, rule, bound, count=count, timeout=timeout)
     problems = []
     for s in samples:
@@ -147,7 +146,6 @@ def _boundary(pack, rule, bound, verdict, count, timeout) -> tuple[int, list]:
 def crosscheck_results(packs, results, opts, *, boundary: int = 4, second_timeout: float | None = None):
     """Run the cross-checks on the results of ``check_packs``; return the results (a rule with
     a disagreement becomes ``error``, kind ``internal``) and a :class:`CrossReport`."""
-    from verifier.smt import second
     if not second.available():
         raise UsageError("--crosscheck needs cvc5: pip install 'verifier[crosscheck]'")
     timeout = second_timeout or (opts.timeout if opts.timeout else 60.0)

@@ -36,7 +36,13 @@ from pathlib import Path
 
 import attrs
 
-from verifier.world.vocab import GLOBAL, INFO_FIELDS, LEG, names_for
+from verifier.api import CheckOptions, check_packs
+from verifier.check import typer
+from verifier.errors import PackError
+from verifier.lang.pack import read_pack
+from verifier.lang.vocab import GLOBAL, INFO_FIELDS, LEG, names_for
+from verifier.run.loader import nothing_to_check
+from verifier.smt.concrete import violation_status
 
 KINDS = (("expr", 4), ("mistyped", 14), ("expr-mutated", 26), ("pack-mutated", 42), ("deep", 5),
          ("huge", 4), ("bytes", 5))
@@ -373,10 +379,6 @@ def run_one(inp: Input, sandbox: Path, limit: float = 30.0, solver_timeout: floa
     of the run), with a hard time limit. With ``full`` a loaded pack goes through the whole
     engine (verdict, minimisation, replay, counterexample files); otherwise each rule is
     encoded and asked the violation question once (cheap, still exercises the encoder)."""
-    from verifier.engine import CheckOptions, check_packs
-    from verifier.errors import PackError
-    from verifier.check.typer import check_pack
-    from verifier.lang.pack import read_pack
 
     for f in sandbox.iterdir():
         _remove(f)
@@ -393,9 +395,8 @@ def run_one(inp: Input, sandbox: Path, limit: float = 30.0, solver_timeout: floa
             # with its own: the input got past the parser only if there are none
             if not any(d.severity == "error" for d in getattr(raw, "diagnostics", ())):
                 stage = STAGES[1]
-            pack = check_pack(raw)
+            pack = typer.check_pack(raw)
             if not pack.rules and not pack.lemmas:     # as `verifier check`: an input error
-                from verifier.loader import nothing_to_check
                 raise PackError([nothing_to_check([path], pack.warnings), *pack.warnings])
         except PackError as exc:
             rendered = "\n".join(d.render() for d in exc.diagnostics)
@@ -405,7 +406,6 @@ def run_one(inp: Input, sandbox: Path, limit: float = 30.0, solver_timeout: floa
         else:
             stage = STAGES[2]
             if not full:
-                from verifier.smt.concrete import violation_status
                 # the first and the last rule, no legs: cheap, and still the whole encoder
                 todo = [pack.rules[0], pack.rules[-1]] if pack.rules else []
                 answers = {violation_status(pack, r, 0, rlimit=2_000_000, timeout=solver_timeout)

@@ -6,6 +6,9 @@ from fractions import Fraction
 
 import attrs
 
+from verifier.lang.ast import COUNT, LENGTH, NUMBER
+from verifier.lang.numbers import fmt as q
+
 F = Fraction
 
 
@@ -45,7 +48,6 @@ class Scope:
 
     def constants(self) -> dict:
         """The ``world.*`` names and their values, with their types."""
-        from verifier.lang.ast import COUNT, LENGTH, NUMBER
         out = {
             "world.balises.low": (COUNT, F(self.balises[0])),
             "world.balises.high": (COUNT, F(self.balises[1])),
@@ -68,7 +70,6 @@ class Scope:
 
     def as_json(self) -> dict:
         """The scope as plain data (for counterexample files and reports)."""
-        from verifier.world.numbers import fmt as q
         return {
             "balises": list(self.balises),
             "locacc": [q(x) for x in self.locacc],

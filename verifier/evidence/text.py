@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 from verifier.check.model import Pack
-from verifier.evidence.cexfile import failed_detail
 from verifier.evidence.story import unknown_code_words, unplaced_words
+from verifier.lang.vocab import Direction
+from verifier.world.failure import describe_failure, failed_detail
 from verifier.world.scenario import fmt
 from verifier.world.sim import State, World, applies, evaluate, known, scope_problems
-from verifier.world.vocab import Direction
 
 
 def _m(x) -> str:
@@ -71,7 +71,6 @@ def simulate_text(pack: Pack, world: World, legs: int | None = None) -> tuple[st
             out.append(f"  holds           {rule.id}")
             continue
         ok = False
-        from verifier.engine import describe_failure
         out.append(f"  VIOLATED        {rule.id}: {describe_failure(failed_detail(rule, st))}")
     return "\n".join(out), ok
 

@@ -42,10 +42,18 @@ from pathlib import Path
 
 import attrs
 
-from verifier import __version__
+from verifier.about import CAUTION as NOTE
+from verifier.about import __version__
+from verifier.api import CheckOptions, check_packs
 from verifier.check.model import Pack, Rule
 from verifier.errors import UsageError, suggest
 from verifier.evidence import cexfile
+from verifier.run.engine import proof_words
+from verifier.run.gitrev import load_side
+from verifier.run.induct import base_bound
+from verifier.smt import relate
+from verifier.smt.smtlib import solver_version
+from verifier.world.failure import implicit_premise
 from verifier.world.scenario import fmt, world_from_data, world_from_flat, world_to_data
 from verifier.world.sim import State, applies, evaluate, scope_problems
 
@@ -71,7 +79,7 @@ class DiffOptions:
     rlimit: int | None = None
     timeout: float | None = None
     jobs: int = 1
-    cache: object = None            # a verifier.cache.Cache, or None
+    cache: object = None            # a verifier.run.cache.Cache, or None
     out: Path | None = None         # where to write worlds and counterexamples (None: nowhere)
     rules: tuple = ()               # rule ids to compare (empty: every rule)
     progress: object = None         # called with a line of text before each slow step, or None
@@ -250,7 +258,6 @@ def _verdicts(items, opts: DiffOptions) -> list[SideVerdict]:
     """Each (pack, rule, side) decided exactly as by ``verifier check`` (``engine.check_packs``:
     the same bounds, the pack's lemmas first, induction and deepening for a rule checked for any
     number of legs), each side's rules of a pack in one call."""
-    from verifier.engine import CheckOptions, check_packs, proof_words
     copts = CheckOptions(legs=opts.legs, timeout=opts.timeout, rlimit=opts.rlimit, out=None,
                          jobs=opts.jobs, cache=opts.cache, induction_depth=opts.induction_depth,
                          max_legs=opts.max_legs)
@@ -281,7 +288,6 @@ def _verdicts(items, opts: DiffOptions) -> list[SideVerdict]:
 def check_bound(pack: Pack, rule: Rule, opts: DiffOptions) -> int:
     """The bound ``verifier check`` decides the rule at (the base case of a rule checked for any
     number of legs)."""
-    from verifier.induct import base_bound
     return base_bound(pack, rule, opts.legs, opts.induction_depth)
 
 
@@ -306,10 +312,9 @@ def distinction_doc(old_pack, old_rule, new_pack, new_rule, kind, direction, w, 
     def rule_part(pack, rule):
         return {"id": rule.id, "title": rule.title,
                 "given": rule.given.text if rule.given else None,
-                "implicit_premise": cexfile.implicit_premise(rule), "expect": rule.expect.text,
+                "implicit_premise": implicit_premise(rule), "expect": rule.expect.text,
                 "sha256": cexfile.rule_hashes(pack, rule)}
 
-    from verifier.smt.smtlib import solver_version
     return {
         "format": FORMAT, "caution": CAUTION, "kind": kind, "direction": direction,
         "meaning": MEANING[(kind, direction)], "bound": bound, "minimal": minimal,
@@ -356,7 +361,6 @@ def _seeded(kind, direction, seeds, old_pack, old_rule, new_pack, new_rule, boun
 
 
 def _relations(old_pack, old_rule, new_pack, new_rule, bound, opts, seeds=()) -> tuple:
-    from verifier.smt import relate
     kw = {}
     if opts.rlimit is not None:
         kw["rlimit"] = opts.rlimit
@@ -491,7 +495,6 @@ def _rule(pack: Pack | None, rid: str) -> Rule | None:
 
 
 def diff_specs(old: str, new: str, opts: DiffOptions = DiffOptions()) -> list[PackDiff]:
-    from verifier.gitrev import load_side
     old_packs, new_packs = load_side(old, "OLD"), load_side(new, "NEW")
     single = not Path(old).is_dir() and not Path(new).is_dir() and len(old_packs) == len(new_packs) == 1
     return diff_packs(old_packs, new_packs, opts, single=single)
@@ -535,7 +538,6 @@ def _world_line(doc: dict) -> str:
 
 
 def table(diffs: list[PackDiff], old: str, new: str) -> str:
-    from verifier import CAUTION as NOTE
     lines = [f"diff OLD {old} -> NEW {new}"]
     for d in diffs:
         where = f"OLD {d.old_path or '(absent)'}, NEW {d.new_path or '(absent)'}"

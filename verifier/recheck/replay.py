@@ -7,9 +7,13 @@ from pathlib import Path
 
 import attrs
 
-from verifier.errors import Diagnostic, PackError
-from verifier.evidence import cexfile
+from verifier.errors import Diagnostic, PackError, UsageError, VerifierError
+from verifier.evidence import cexfile, ctistory
+from verifier.implcheck.interface import Finding
+from verifier.implcheck.replay import load_recorded
+from verifier.implcheck.runner import Checker
 from verifier.lang.source import read_regular_text
+from verifier.run.loader import load_pack
 from verifier.world.scenario import world_from_data
 from verifier.world.sim import State, applies, evaluate, scope_problems
 
@@ -53,8 +57,6 @@ def replay_induction(path: Path) -> Outcome:
     recorded path still breaks the induction step (the rule holds at the first state and fails
     one leg later, every lemma holding), ``no longer breaks it`` otherwise, ``rule changed`` or
     ``rule gone``."""
-    from verifier.evidence import ctistory
-    from verifier.loader import load_pack
     shown = path.as_posix()
     doc = ctistory.read_file(path).doc
     recorded = Path(doc["pack"]["path"])
@@ -94,7 +96,6 @@ def replay_induction(path: Path) -> Outcome:
 def _with_todays_lemmas(shown: str, pack, doc: dict, rid: str, today: list, written: list) -> Outcome:
     """A counterexample to induction whose pack now has other lemmas: the recorded path judged
     with today's lemmas (every one of them, in file order; replay proves none: check does)."""
-    from verifier.evidence import ctistory
     added = [x for x in today if x not in written]
     removed = [x for x in written if x not in today]
     what = "; ".join(part for part in (
@@ -116,8 +117,6 @@ def _with_todays_lemmas(shown: str, pack, doc: dict, rid: str, today: list, writ
 
 
 def replay_file(path: Path, impl: str | None = None, search: tuple = ()) -> Outcome:
-    from verifier.evidence import ctistory
-    from verifier.loader import load_pack
     if ctistory.is_induction_file(path):
         return replay_induction(path)
     shown = path.as_posix()
@@ -126,7 +125,6 @@ def replay_file(path: Path, impl: str | None = None, search: tuple = ()) -> Outc
     except (OSError, PackError, json.JSONDecodeError):
         head = None
     if isinstance(head, dict) and (head.get("format") == "verifier-contract/1" or "implementation" in head):
-        from verifier.implcheck.replay import replay_impl_file
         pack_path = _find(path, Path(str(head.get("pack", {}).get("path", ""))))
         return replay_impl_file(path, head, pack_path, impl, search)
     doc = read_counterexample(path)
@@ -156,6 +154,50 @@ def replay_file(path: Path, impl: str | None = None, search: tuple = ()) -> Outc
     if still:
         return Outcome(shown, "still violated", f"rule {rid}")
     return Outcome(shown, "now holds", f"rule {rid} unchanged, but the recorded world no longer violates it (tool or model changed)")
+
+
+def replay_impl_file(path: Path, doc: dict, pack_path, impl: str | None, search: tuple) -> Outcome:
+    """A counterexample or contract finding of an implementation: the recorded world through
+    the implementation (``impl``, else the recorded one) again."""
+    shown = path.as_posix()
+    if pack_path is None:
+        return Outcome(shown, "rule gone", f"pack {doc.get('pack', {}).get('path')} not found")
+    pack = load_pack(pack_path, doc["pack"]["path"])
+    try:
+        onboard, trackside = load_recorded(doc, impl, search)
+    except UsageError as exc:
+        return Outcome(shown, "impl gone", str(exc))
+    recorded = (doc.get("implementation") or {}).get("onboard") or {}
+    if onboard.spec != recorded.get("spec"):
+        changed = f" (replayed with {onboard.spec}; the file records {recorded.get('spec')})"
+    elif onboard.module_sha256 != recorded.get("module_sha256"):
+        changed = f" ({onboard.module_file} changed since the file was written)"
+    else:
+        changed = ""
+    try:
+        world = world_from_data(doc["world"])
+    except (KeyError, ValueError) as exc:
+        raise VerifierError(f"{shown}: {exc}") from None
+    chk = Checker(pack, onboard, trackside)
+    st = chk.state(world)
+    if doc.get("format") == "verifier-contract/1":
+        if isinstance(st, Finding):
+            return Outcome(shown, "still breaks", f"{onboard.spec}: {st.message}{changed}")
+        return Outcome(shown, "now keeps it", f"{onboard.spec} returns a valid report in the recorded world{changed}")
+    rid = doc["rule"]["id"]
+    try:
+        rule = pack.rule(rid)
+    except KeyError:
+        return Outcome(shown, "rule gone", f"pack {pack.name} has no rule '{rid}' any more")
+    if isinstance(st, Finding):
+        return Outcome(shown, "still breaks", f"{onboard.spec} breaks the interface in the recorded world: {st.message}")
+    still = applies(rule, st) and not evaluate(rule.expect.node, st, {})
+    if cexfile.rule_hashes(pack, rule) != doc["rule"].get("sha256"):
+        return Outcome(shown, "rule changed", f"rule {rid} or a definition it uses was edited; "
+                       f"{onboard.spec} {'still fails' if still else 'passes'} in the recorded world{changed}")
+    if still:
+        return Outcome(shown, "still violated", f"rule {rid} with {onboard.spec}{changed}")
+    return Outcome(shown, "now holds", f"rule {rid}: {onboard.spec} passes in the recorded world{changed}")
 
 
 def replay_paths(paths, impl: str | None = None, search: tuple = ()) -> list[Outcome]:

@@ -50,9 +50,11 @@ from pathlib import Path
 
 import attrs
 
-from verifier import __version__
+from verifier.about import __version__
 from verifier.check.model import Formula, Pack, Rule
 from verifier.lang.pack import RawInfo
+from verifier.smt import smtlib
+from verifier.smt.solve import Solved
 
 FORMAT = "verifier-cache/3"   # 3: the key is the canonical obligation document (obligation())
 DATA_FORMAT = "verifier-cache-data/2"   # other decided answers (the induction step, DESIGN 4.7)
@@ -87,7 +89,6 @@ LEFT_OUT = {
 
 @functools.lru_cache(maxsize=1)
 def _versions() -> dict:
-    from verifier.smt import smtlib   # the only way into z3
     return {"tool": __version__, "solver": smtlib.solver_version(), "source": source_digest()}
 
 
@@ -199,7 +200,6 @@ _TYPES = {"verdict": str, "world": (dict, type(None)), "smt_values": (dict, type
 
 def _fields() -> dict:
     """The fields of ``Solved`` with the type each must have (plain scalars if not listed)."""
-    from verifier.smt.solve import Solved
     return {k: _TYPES.get(k, (int, float, str, bool, type(None))) for k in attrs.fields_dict(Solved)}
 
 
@@ -256,7 +256,6 @@ class Cache:
 
     def get(self, key: str):
         """The cached result for ``key``, or None (missing, corrupted or foreign)."""
-        from verifier.smt.solve import Solved
         got = self._read(key, FORMAT, "solved")
         if got is None:
             return None

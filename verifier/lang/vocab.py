@@ -296,7 +296,7 @@ def markdown() -> str:
     def readers(e):
         return ", ".join(sorted(e.readers)) if e.readers else "rules only (hidden)"
     lines = ["# Vocabulary", "",
-             "Generated from `verifier/world/vocab.py` by `python -m verifier.world.vocab`; do not edit.",
+             "Generated from `verifier/lang/vocab.py` by `python -m verifier.lang.vocab`; do not edit.",
              "Every name may be read by rules (`given`, `expect`, `[let]`). *Readers* says which",
              "design formulas may read it too (`[onboard]`, `[trackside]`); the others carry",
              "truth that equipment cannot know.", "",

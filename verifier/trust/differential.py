@@ -14,9 +14,12 @@ from pathlib import Path
 
 import attrs
 
-from verifier.world.scenario import fmt
+from verifier.errors import PackError
+from verifier.lang.vocab import INFO_FIELDS, LEG, names_for
+from verifier.run.loader import discover, load_pack
+from verifier.smt.concrete import Evaluator
+from verifier.world.scenario import fmt, world_to_data
 from verifier.world.sim import State, World, applies, evaluate, scope_problems
-from verifier.world.vocab import INFO_FIELDS, LEG, names_for
 
 
 @attrs.frozen
@@ -125,8 +128,6 @@ def in_scope(pack, world: World, bound: int) -> list[str]:
 def catalogue(paths=("rules", "tests/packs")) -> list[str]:
     """Every pack file under ``paths`` that loads without errors (shipped and test catalogues;
     packs that are meant to fail loading are simply left out)."""
-    from verifier.errors import PackError
-    from verifier.loader import discover, load_pack
     out = []
     for root in paths:
         p = Path(root)
@@ -167,10 +168,7 @@ def _worker(job: tuple) -> DiffReport:
     from hypothesis import HealthCheck, given, settings
     from hypothesis import seed as hseed
 
-    from verifier.loader import load_pack
-    from verifier.smt.concrete import Evaluator
-    from verifier.strategies import CornerTally, corners, largest_bound, pack_worlds
-    from verifier.world.scenario import world_to_data
+    from verifier.trust.strategies import CornerTally, corners, largest_bound, pack_worlds
 
     t0 = time.monotonic()
     packs = [load_pack(p) for p in paths]

@@ -25,8 +25,13 @@ import time
 import attrs
 
 from verifier.check.model import Pack
-from verifier.errors import PackError
+from verifier.check.typer import check_pack
+from verifier.errors import Diagnostic, PackError
 from verifier.lang import ast
+from verifier.lang.pack import RawExpr, parse_pack_text
+from verifier.lang.parser import ExprSyntaxError, parse
+from verifier.lang.vocab import GLOBAL
+from verifier.smt.concrete import same_formula, same_outputs, violation_status
 
 # Names swapped by the "swap" mutations, both ways; each pair is readable by the same side.
 SWAPS = [("est.bound_over", "est.bound_under", "swap over and under"),
@@ -210,9 +215,6 @@ def mutants(pack: Pack) -> list[Mutant]:
 
 def build(pack: Pack, m: Mutant) -> Pack:
     """The mutant as a checked pack (raises PackError when it does not load)."""
-    from verifier.check.typer import check_pack
-    from verifier.lang.pack import RawExpr, parse_pack_text
-    from verifier.lang.parser import ExprSyntaxError, parse
     raw = parse_pack_text(pack.text, pack.path)
     if m.target == "onboard rounding":
         return check_pack(attrs.evolve(raw, rounding=m.mutated))
@@ -226,7 +228,6 @@ def build(pack: Pack, m: Mutant) -> Pack:
     try:
         node = parse(m.mutated)
     except ExprSyntaxError as exc:
-        from verifier.errors import Diagnostic
         raise PackError([Diagnostic(pack.path, 1, 1, f"mutant does not parse: {exc.message}")]) from None
     table[name] = RawExpr(m.mutated, node, table[name].key, False)
     return check_pack(attrs.evolve(raw, **{kind: table}))
@@ -248,7 +249,6 @@ def _relevant(rule, m: Mutant) -> bool:
 def observable_names(pack: Pack | None = None) -> list[str]:
     """The design outputs and the wire (in every pack), and each information item's onboard
     decisions (DESIGN 4.9)."""
-    from verifier.world.vocab import GLOBAL
     out = [n for n, e in GLOBAL.items() if e.kind in ("onboard-output", "wire", "trackside-output")]
     for item in (pack.infos if pack is not None else ()):
         out += [f"info.{item.id}.accepted", f"info.{item.id}.position"]
@@ -257,7 +257,6 @@ def observable_names(pack: Pack | None = None) -> list[str]:
 
 def baseline(pack: Pack, timeout: float) -> dict:
     """The original pack's answer to each rule's violation question (sat = violated)."""
-    from verifier.smt.concrete import violation_status
     return {r.id: violation_status(pack, r, pack.bound_for(r), rlimit=200_000_000, timeout=timeout)
             for r in pack.rules}
 
@@ -293,7 +292,6 @@ def run_mutants(pack: Pack, *, timeout: float = 20.0, limit: int | None = None,
 
 def _decide_all(pack: Pack, todo, base: dict, timeout: float, killed_elsewhere, progress=None) -> list:
     """The verdict of each mutant of ``todo`` (killed, equivalent, survived, invalid, undecided)."""
-    from verifier.smt.concrete import same_formula, same_outputs, violation_status
     names = observable_names(pack)
     results = []
     kills: dict = {}          # rule id -> kills so far (rules that kill often are asked first)

@@ -13,7 +13,7 @@ from __future__ import annotations
 import textwrap
 
 from verifier.check.model import Pack
-from verifier.world.vocab import DEFAULT_INFO_ONE, DEFAULT_INFO_TWO
+from verifier.lang.vocab import DEFAULT_INFO_ONE, DEFAULT_INFO_TWO
 
 WIDTH = 98
 

@@ -14,7 +14,7 @@ from verifier.check.model import Pack
 from verifier.check.typer import check_pack
 from verifier.errors import Diagnostic, PackError, UsageError
 from verifier.lang.pack import parse_pack_text
-from verifier.loader import discover, load_pack, display_path
+from verifier.run.loader import discover, display_path, load_pack
 
 
 def _git(args: list[str]) -> subprocess.CompletedProcess:

@@ -14,8 +14,11 @@ from typing import Callable
 import attrs
 
 from verifier.check.model import Pack, Rule
-from verifier.errors import UsageError, suggest
-from verifier.evidence import cexfile, coverage, diagram
+from verifier.errors import UsageError, WriteError, suggest
+from verifier.run import coverage, induct
+from verifier.run.parallel import solve_in_order
+from verifier.smt import solve
+from verifier.world.failure import describe_failure, failed_detail, implicit_premise
 from verifier.world.scenario import fmt, world_from_flat, world_to_data
 from verifier.world.sim import State, applies, evaluate, scope_problems
 
@@ -30,8 +33,8 @@ class CheckOptions:
     rlimit: int | None = None          # deterministic budget per solver check
     out: Path | None = Path("counterexamples")   # None: write no files
     witness: bool = True
-    jobs: int = 1                      # --jobs: worker processes (see verifier.parallel)
-    cache: object = None               # a verifier.cache.Cache, or None: solve everything
+    jobs: int = 1                      # --jobs: worker processes (see verifier.run.parallel)
+    cache: object = None               # a verifier.run.cache.Cache, or None: solve everything
     induction_depth: int = 4           # --induction-depth: deepest step of k-induction tried
     max_legs: int = 12                 # --max-legs: deepest base case tried before "bounded"
 
@@ -118,10 +121,21 @@ def _compare(solved_values: dict, st: State) -> list[str]:
     return out
 
 
-def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None,
-               bound: int | None = None) -> RuleResult:
-    from verifier.smt import solve  # the only way into z3
+def _writer(opts: CheckOptions, files):
+    """The evidence writer to use: the caller's, which must be given when ``opts.out`` asks for
+    files (the run stage writes no file itself: ``verifier.api`` passes one)."""
+    if opts.out is not None and files is None:
+        raise ValueError("CheckOptions.out is set but no evidence writer was given: call "
+                         "verifier.check_packs, or pass files=verifier.evidence.files.Files(out)")
+    return files if opts.out is not None else None
 
+
+def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None,
+               bound: int | None = None, files=None) -> RuleResult:
+    """One rule: solve (or take ``presolved``), replay the world in the simulator, compare.
+    ``files`` writes a counterexample (``verifier.evidence.files.Files``: the JSON file and its
+    diagram) and says where; it raises ``WriteError`` when it cannot."""
+    files = _writer(opts, files)
     if bound is None:
         bound = pack.bound_for(rule, opts.legs)
     t0 = time.monotonic()
@@ -132,12 +146,12 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None,
         kwargs["rlimit"] = opts.rlimit
     if presolved is None:
         solved = solve.solve_rule(pack, rule, bound, witness=opts.witness, **kwargs)
-    else:   # solved from SMT-LIB text or taken from the cache (verifier.parallel)
+    else:   # solved from SMT-LIB text or taken from the cache (verifier.run.parallel)
         solved, t0 = presolved.solved, t0 - presolved.seconds
     base = dict(pack=pack.name, rule=rule.id, title=rule.title, line=rule.line, bound=bound,
                 rlimit=solved.rlimit, checks=solved.checks, solver=solved.solver,
                 solver_seconds=solved.solver_seconds,
-                premise=cexfile.implicit_premise(rule), minimal=solved.minimal,
+                premise=implicit_premise(rule), minimal=solved.minimal,
                 cached=bool(getattr(presolved, "cached", False)), role=rule.role,
                 proof={"kind": "bounded", "legs": bound})
 
@@ -175,17 +189,13 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None,
     if solved.verdict == "holds":
         return result("holds", witness=world_to_data(world), message=solved.reason)
     path, unwritten = None, ""
-    if opts.out is not None:
-        doc = cexfile.build(pack, rule, st, verdict="violated", bound=bound, solver=solved.solver,
-                            minimal=solved.minimal)
-        target = cexfile.cex_path(opts.out, pack, rule)
+    if files is not None:
         try:    # the file and its diagram, both or neither; a failure does not lose the verdict
-            cexfile.write_files(opts.out, [(target, cexfile.dumps(doc)),
-                                           (diagram.svg_path(target), diagram.render(doc, rule, st))])
-            path = target.as_posix()
-        except cexfile.WriteError as exc:
+            path = files.counterexample(pack, rule, st, bound=bound, solver=solved.solver,
+                                        minimal=solved.minimal)
+        except WriteError as exc:
             unwritten = str(exc)
-    msg = describe_failure(cexfile.failed_detail(rule, st))
+    msg = describe_failure(failed_detail(rule, st))
     if not solved.minimal:
         msg += " (not fully minimised: " + solved.reason + ")"
     return result("violated", counterexample=path, message=msg, write_error=unwritten,
@@ -195,7 +205,6 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None,
 def _vacuity_message(pack: Pack, rule: Rule, bound: int, reason: str, within: str = "") -> str:
     """Say which parts of the given cannot hold (an unsat core over its top-level items, found
     up to ``bound`` legs); ``within`` says how far that is known (default: up to the bound)."""
-    from verifier.smt import solve
     within = within or f"up to {bound} leg{'s' if bound != 1 else ''}"
     core = solve.vacuity_core(pack, rule, bound)
     if not core:
@@ -206,17 +215,6 @@ def _vacuity_message(pack: Pack, rule: Rule, bound: int, reason: str, within: st
             + f" cannot hold together within the scope ({within})")
 
 
-def describe_failure(detail: dict | None) -> str:
-    """One line on the part of expect that failed (``cexfile.failed_detail``): the comparison
-    as written and the value of each side that is not a literal, with its unit."""
-    from verifier.evidence.story import comparison_words
-    if not detail:
-        return ""
-    if "op" not in detail:
-        return f"{detail['text']} is false"
-    return comparison_words(detail)
-
-
 def select_rules(pack: Pack, wanted: tuple) -> list[Rule]:
     """The rules (and lemmas) named by --rule, in file order; all rules when none is named."""
     if not wanted:
@@ -225,33 +223,32 @@ def select_rules(pack: Pack, wanted: tuple) -> list[Rule]:
 
 
 def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
-                progress: Callable | None = None) -> list[PackResult]:
-    """Check every selected rule of every pack, in file order."""
+                progress: Callable | None = None, files=None) -> list[PackResult]:
+    """Check every selected rule of every pack, in file order (``files``: see check_rule)."""
+    files = _writer(opts, files)
     if opts.rules:
         known = {r.id for p in packs for r in p.rules + p.lemmas}
         missing = [r for r in opts.rules if r not in known]
         if missing:
             raise UsageError(f"no rule with id '{missing[0]}' in the packs given"
                              + suggest(missing[0], known))
-    from verifier.induct import base_bound
     todo = []
     for p in packs:
         chosen = select_rules(p, opts.rules)
         if chosen:   # lemmas first: a rule for any number of legs may need them
             todo += [(p, r) for r in p.lemmas if r not in chosen] + [(p, r) for r in chosen]
-    bounds = [base_bound(p, r, opts.legs, opts.induction_depth) for p, r in todo]
+    bounds = [induct.base_bound(p, r, opts.legs, opts.induction_depth) for p, r in todo]
     results: dict = {id(p): [] for p in packs}   # by identity: two packs may share a name
     lemmas: dict = {id(p): [] for p in packs}    # proved for any number of legs, in file order
-    from verifier.parallel import solve_in_order
     presolved = solve_in_order(todo, legs=opts.legs, timeout=opts.timeout, rlimit=opts.rlimit,
                                witness=opts.witness, jobs=opts.jobs, cache=opts.cache,
                                bounds=bounds)
     for n, ((pack, rule), bound) in enumerate(zip(todo, bounds), 1):
         if progress:
             progress(n, len(todo), pack, rule, None)
-        res = check_rule(pack, rule, opts, next(presolved), bound)
+        res = check_rule(pack, rule, opts, next(presolved), bound, files)
         if res.verdict in ("holds", "vacuous") and pack.unbounded_for(rule, opts.legs):
-            res = _any_number(pack, rule, res, tuple(lemmas[id(pack)]), bound, opts)
+            res = _any_number(pack, rule, res, tuple(lemmas[id(pack)]), bound, opts, files)
         if rule.role == "lemma" and res.unbounded:
             lemmas[id(pack)].append(rule)
         results[id(pack)].append(res)
@@ -264,15 +261,13 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
 
 
 def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: int,
-                opts: CheckOptions) -> RuleResult:
+                opts: CheckOptions, files) -> RuleResult:
     """After a base case up to ``bound`` legs that holds or is vacuous (DESIGN 4.7): the
     induction step of the rule, or for a vacuous one the step of "the given never holds";
     when that is not proved, the base case deepened (``bound`` + 1, + 2, ... up to
     ``--max-legs``, within the budget, fewest legs first) before the answer is ``bounded``. A
     counterexample found on the way makes the rule ``violated`` at that many legs, solved,
     minimised, replayed and written exactly as by a bounded check at that bound."""
-    from verifier import induct
-    from verifier.smt.solve import DEFAULT_TIMEOUT
     t0 = time.monotonic() - base.seconds
 
     def prove(r, b):
@@ -303,7 +298,7 @@ def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: 
             return attrs.evolve(base, proof=out.proof, seconds=time.monotonic() - t0, cached=cached)
 
     # deepening: the rule holds (or its given never does) up to `last` legs
-    timeout = opts.timeout if opts.timeout is not None else DEFAULT_TIMEOUT
+    timeout = opts.timeout if opts.timeout is not None else solve.DEFAULT_TIMEOUT
     budget, spent, last, stop, witness = induct.deepening_budget(opts.rlimit), 0, bound, "", base.witness
     for n in range(bound + 1, opts.max_legs + 1):
         left = timeout - (time.monotonic() - t0)
@@ -312,7 +307,7 @@ def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: 
             break
         first = out is None            # the given not yet satisfiable: a witness if it now is
         res, pre = _deepened(pack, rule, opts, n, min(induct.rule_rlimit(opts.rlimit), budget - spent),
-                             left, first and opts.witness)
+                             left, first and opts.witness, files)
         solved = pre.solved
         spent += solved.rlimit
         cached = cached and pre.cached
@@ -323,7 +318,7 @@ def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: 
             stop = f"the check at {n} legs ran out of the deepening budget"
             break
         if res.verdict == "violated" and not res.minimal and budget - spent < induct.rule_rlimit(opts.rlimit):
-            res, _ = _deepened(pack, rule, opts, n, induct.rule_rlimit(opts.rlimit), left, False)
+            res, _ = _deepened(pack, rule, opts, n, induct.rule_rlimit(opts.rlimit), left, False, files)
         if res.verdict == "violated":
             proof = {"kind": "bounded", "legs": n, "deepened_from": bound}
             step = (out or never).proof.get("induction")
@@ -346,24 +341,23 @@ def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: 
     else:
         stop = f"--max-legs {opts.max_legs}" if opts.max_legs > bound else ""
     return _bounded(pack, rule, base, lemmas, bound, last, stop, out, never, witness,
-                    time.monotonic() - t0, cached, opts)
+                    time.monotonic() - t0, cached, opts, files)
 
 
 def _deepened(pack: Pack, rule: Rule, opts: CheckOptions, n: int, rlimit: int, timeout: float,
-              witness: bool):
+              witness: bool, files):
     """The bounded check of ``rule`` up to ``n`` legs, through the cache as any other: the
     engine's result (None when the solver's answer is vacuous or unknown) and the answer."""
-    from verifier.parallel import solve_in_order
     pre = next(solve_in_order([(pack, rule)], timeout=timeout, rlimit=rlimit, witness=witness,
                               cache=opts.cache, bounds=[n]))
     if pre.solved.verdict in ("vacuous", "unknown"):
         return None, pre
     deep = attrs.evolve(opts, witness=witness, rlimit=rlimit, timeout=timeout)
-    return check_rule(pack, rule, deep, pre, n), pre
+    return check_rule(pack, rule, deep, pre, n, files), pre
 
 
 def _bounded(pack, rule, base, lemmas, bound, last, stop, out, never, witness, seconds, cached,
-             opts) -> RuleResult:
+             opts, files) -> RuleResult:
     """The verdict ``bounded`` after deepening: it holds up to ``last`` legs, with the
     counterexample to induction of the rule's own step written beside the counterexamples."""
     notes = [f"the base case deepened from {bound} legs"] if last > bound else []
@@ -388,10 +382,10 @@ def _bounded(pack, rule, base, lemmas, bound, last, stop, out, never, witness, s
         proof["deepened_from"] = bound
     path = None
     unwritten = ""
-    if out.cti is not None and opts.out is not None:
+    if out.cti is not None and files is not None:
         try:
-            path = cexfile.write_induction(opts.out, pack, rule, lemmas, out, last, base.solver)
-        except cexfile.WriteError as exc:
+            path = files.induction(pack, rule, lemmas, out, last, base.solver)
+        except WriteError as exc:
             unwritten = str(exc)
     message = out.message + f"; holds up to {last} legs{within}"
     return attrs.evolve(base, verdict="bounded", bound=last, proof=proof, seconds=seconds,

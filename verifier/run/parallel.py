@@ -22,6 +22,9 @@ from concurrent.futures.process import BrokenProcessPool
 import attrs
 
 from verifier.errors import InternalError, UsageError
+from verifier.run.cache import rule_key
+from verifier.smt import smtlib
+from verifier.smt.concrete import Evaluator, compared_values
 
 MAX_JOBS = 64
 
@@ -37,7 +40,6 @@ class Presolved:
 
 def _work(query, limits: dict):
     """The worker: SMT-LIB text in, plain data out."""
-    from verifier.smt import smtlib
     t0 = time.monotonic()
     solved = smtlib.solve_query(query, **limits)
     return solved, time.monotonic() - t0
@@ -86,7 +88,6 @@ def _stop(pool) -> None:
 def _today(hit, pack, bound, evaluators: dict):
     """A cached result with its compared values computed again by today's encoding in its
     world (they depend on designs the cache key leaves out); None if that fails."""
-    from verifier.smt.concrete import Evaluator, compared_values
     k = (id(pack), bound)
     if k not in evaluators:
         evaluators[k] = Evaluator(pack, bound)
@@ -104,11 +105,9 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
                    cache=None, bounds=None):
     """Yield a :class:`Presolved` for each (pack, rule) of ``todo``, in order.
 
-    ``cache`` is a :class:`verifier.cache.Cache` or None. ``bounds`` gives each rule's bound
+    ``cache`` is a :class:`verifier.run.cache.Cache` or None. ``bounds`` gives each rule's bound
     (default: the pack's ``bound_for``). With ``jobs == 1`` each rule is solved when its result
     is asked for (so progress reports stay live)."""
-    from verifier.cache import rule_key
-    from verifier.smt import smtlib
     check_jobs(jobs)
     limits = {"witness": witness}
     if timeout is not None:

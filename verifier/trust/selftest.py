@@ -18,7 +18,13 @@ from pathlib import Path
 
 import attrs
 
-from verifier import CAUTION, __version__
+from verifier.about import CAUTION, __version__
+from verifier.api import CheckOptions, check_packs
+from verifier.run.loader import load_pack
+from verifier.trust.crosscheck import crosscheck_results
+from verifier.trust.differential import catalogue, run_differential
+from verifier.trust.fuzz import run_fuzz
+from verifier.trust.mutate import run_catalogue
 
 
 def versions() -> dict:
@@ -55,8 +61,7 @@ class Plan:
 
 
 def default_plan(root: Path = Path("."), profile_name: str | None = None) -> Plan:
-    from verifier.differential import catalogue
-    from verifier.strategies import profile
+    from verifier.trust.strategies import profile
     prof = profile(profile_name)
     paths = tuple(catalogue((root / "rules", root / "tests" / "packs")))
     shipped = tuple(p for p in catalogue((root / "rules",)) if "/demo/" not in p)
@@ -66,12 +71,6 @@ def default_plan(root: Path = Path("."), profile_name: str | None = None) -> Pla
 
 def run(plan: Plan, out_dir: Path, progress=print) -> dict:
     """Run every part of the plan and write the dossier; return its data."""
-    from verifier.crosscheck import crosscheck_results
-    from verifier.differential import run_differential
-    from verifier.engine import CheckOptions, check_packs
-    from verifier.fuzz import run_fuzz
-    from verifier.loader import load_pack
-    from verifier.mutate import run_catalogue
     t0 = time.monotonic()
     data: dict = {"versions": versions(), "plan": attrs.asdict(plan)}
 

@@ -3,8 +3,8 @@
 Reusable by users who want to test their own code against the simulator::
 
     from hypothesis import given
-    from verifier.strategies import worlds
-    from verifier.loader import load_pack
+    from verifier.trust.strategies import worlds
+    from verifier.run.loader import load_pack
 
     pack = load_pack("rules/position-report.toml")
 
@@ -36,9 +36,10 @@ from fractions import Fraction
 import attrs
 from hypothesis import strategies as st
 
-from verifier.world.scope import Scope
-from verifier.world.sim import Leg, State, World, scope_problems
-from verifier.world.vocab import MAX_CODE, Direction, Running
+from verifier.lang.scope import Scope
+from verifier.lang.vocab import MAX_CODE, Direction, Running
+from verifier.world.bounds import distance_range, errors_after, odometer_range
+from verifier.world.sim import Group2, Leg, State, World, advance, scope_problems, sign, start
 
 F = Fraction
 STEPS = (F(1, 10), F(1), F(10))      # Q_SCALE steps (SUBSET-026 7.5.1.129)
@@ -121,45 +122,6 @@ def between(draw, lo: Fraction, hi: Fraction) -> Fraction:
     return draw_between(draw, lo, hi)
 
 
-def _odometer_range(scope: Scope, over: F, under: F, measured: F, dist: F) -> tuple[F, F]:
-    """The odometer readings of a leg of real length ``dist`` that keep the reading error bound
-    (DESIGN 4.1) after this leg, given the errors and the measure ``measured`` so far."""
-    ob, ub = scope.odometry_over, scope.odometry_under
-    if scope.odometry_basis == "measured":
-        hi = (ob.fixed + ob.rate * measured - over + dist) / (1 - ob.rate)
-        lo = (under + dist - ub.fixed - ub.rate * measured) / (1 + ub.rate)
-    else:
-        hi = dist + ob.fixed + ob.rate * (measured + dist) - over
-        lo = dist - (ub.fixed + ub.rate * (measured + dist) - under)
-    return max(F(0), lo), hi
-
-
-def _distance_range(scope: Scope, over: F, under: F, measured: F, odo: F) -> tuple[F, F]:
-    """The real distances compatible with an odometer reading ``odo`` (the converse)."""
-    ob, ub = scope.odometry_over, scope.odometry_under
-    if scope.odometry_basis == "measured":
-        e = measured + odo
-        lo = odo - (ob.fixed + ob.rate * e - over)
-        hi = odo + (ub.fixed + ub.rate * e - under)
-    else:
-        lo = (odo + over - ob.fixed - ob.rate * measured) / (1 + ob.rate)
-        hi = (ub.fixed + ub.rate * measured - under + odo) / (1 - ub.rate)
-    return max(lo, scope.leg_distance[0]), min(hi, scope.leg_distance[1])
-
-
-def _errors_after(scope: Scope, world_legs, detect: F) -> tuple[F, F, F]:
-    # the errors the odometry bound carries: with the detection error on top of it (the
-    # default, DESIGN 4.1) the legs' errors alone
-    over, under, measured = max(F(0), -detect), max(F(0), detect), F(0)
-    if not scope.detection_in_odometry:
-        over, under = F(0), F(0)
-    for leg in world_legs:
-        over += max(F(0), leg.odometer - leg.distance)
-        under += max(F(0), leg.distance - leg.odometer)
-        measured += leg.odometer if scope.odometry_basis == "measured" else leg.distance
-    return over, under, measured
-
-
 # ---- worlds ----------------------------------------------------------------------------------
 
 def _bool(draw) -> bool:
@@ -180,7 +142,7 @@ def _draw_legs(draw, scope: Scope, bound: int, detect: F) -> tuple:
     dlo, dhi = scope.leg_distance
     near = min(dhi, max(dlo, F(50)))
     for _ in range(n):
-        over, under, measured = _errors_after(scope, legs, detect)
+        over, under, measured = errors_after(scope, legs, detect)
         k = _int(draw, 0, 2)
         if k == 0:
             dist = _choice(draw, [dlo, dhi])
@@ -188,7 +150,7 @@ def _draw_legs(draw, scope: Scope, bound: int, detect: F) -> tuple:
             dist = draw_between(draw, dlo, near)
         else:
             dist = draw_between(draw, dlo, dhi)
-        olo, ohi = _odometer_range(scope, over, under, measured, dist)
+        olo, ohi = odometer_range(scope, over, under, measured, dist)
         how = _int(draw, 0, 3)
         if how == 0 and olo <= dist <= ohi:
             odo = dist              # no error in this leg
@@ -242,7 +204,7 @@ def _aim(draw, scope: Scope, world: World) -> World:
         a = (_int(draw, n0, max(n0, math.floor(hi / step))) + F(1, 2)) * step
         return attrs.evolve(world, antenna=a) if lo <= a <= hi else world
     *first, last = world.legs
-    over, under, measured = _errors_after(scope, first, world.detect_error)
+    over, under, measured = errors_after(scope, first, world.detect_error)
     if _int(draw, 0, 2):
         # the estimate: |est.front| = target
         target = _target(draw, scope)
@@ -267,7 +229,7 @@ def _aim(draw, scope: Scope, world: World) -> World:
         running = last.running
     if odo < 0:
         return world
-    dlo, dhi = _distance_range(scope, over, under, measured, odo)
+    dlo, dhi = distance_range(scope, over, under, measured, odo)
     if dlo > dhi:
         return world
     dist = _choice(draw, [dlo, dhi, min(max(odo, dlo), dhi)])
@@ -314,7 +276,6 @@ def _second_group(draw, scope: Scope, world: World) -> World:
     leg: that leg is redrawn so that the antenna ends on G2's mark (with the detection error);
     a world that this puts outside the scope (the reading errors after G2 are bounded afresh)
     keeps G2 unfound."""
-    from verifier.world.sim import Group2, advance, sign, start
     dlo, dhi = scope.g2_distance
     distance = _one_of_or(draw, [dlo, dhi], dlo, dhi)
     sides = {"nominal": [Direction.NOMINAL], "reverse": [Direction.REVERSE],
@@ -342,8 +303,8 @@ def _second_group(draw, scope: Scope, world: World) -> World:
         dist = m * (mark - antenna) + det      # the antenna ends at mark + m * det
         if not scope.leg_distance[0] <= dist <= scope.leg_distance[1] or not dist > max(F(0), det):
             continue
-        over, under, measured = _errors_after(scope, world.legs[:k - 1], world.detect_error)
-        olo, ohi = _odometer_range(scope, over, under, measured, dist)
+        over, under, measured = errors_after(scope, world.legs[:k - 1], world.detect_error)
+        olo, ohi = odometer_range(scope, over, under, measured, dist)
         odo = _choice(draw, [dist, olo, ohi]) if olo <= dist <= ohi else _choice(draw, [olo, ohi])
         new = attrs.evolve(leg, running=running, distance=dist, odometer=odo)
         # the legs after the detection as drawn, else none (their reading errors may exceed
