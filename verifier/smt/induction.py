@@ -252,14 +252,14 @@ def step(pack: Pack, rule: Rule, lemmas: tuple, plan: Plan, depth: int, *,
         return Step(depth, "unknown", reason=ses.s.reason_unknown() or "budget exhausted",
                     seconds=time.perf_counter() - t0, checks=ses.checks)
     ses.add(*marks)
-    first = read_path(ses.s.model(), path)
+    first = read_path(ses.model, path)
     if not minimise:
         return Step(depth, "failed", first, False, seconds=time.perf_counter() - t0, checks=ses.checks)
     decided = _ladder(ses, path)
-    if ses.check() != z3.sat:
+    if ses.settle() != z3.sat:
         return Step(depth, "failed", first, False, "minimisation stopped by the budget",
                     time.perf_counter() - t0, ses.checks)
-    return Step(depth, "failed", read_path(ses.s.model(), path), decided,
+    return Step(depth, "failed", read_path(ses.model, path), decided,
                 "" if decided else "minimisation stopped by the budget",
                 time.perf_counter() - t0, ses.checks)
 

@@ -73,9 +73,9 @@ def relate(old_pack: Pack, old_rule: Rule, new_pack: Pack, new_rule: Rule, bound
             out.append(Distinction(kind, direction, "unknown", reason=why))
             continue
         decided = solve.run_ladder(ses, both)
-        if ses.check() != z3.sat:   # pragma: no cover - the ladder only adds satisfiable facts
+        if ses.settle() != z3.sat:   # pragma: no cover - the ladder only adds satisfiable facts
             out.append(Distinction(kind, direction, "unknown", reason="minimisation lost the world"))
             continue
-        out.append(Distinction(kind, direction, "found", solve.read_world(ses.s.model(), both),
+        out.append(Distinction(kind, direction, "found", solve.read_world(ses.model, both),
                                decided, "" if decided else "minimisation stopped by the budget"))
     return tuple(out)
