@@ -191,6 +191,15 @@ class _Steps:
             return True
         return False
 
+    def try_fix_all(self, cs: list) -> list:
+        """``[try_fix(c) for c in cs]``, asked first as one question: if every ``c`` can hold
+        together, each one in turn can (the others only add facts that hold in that world), so
+        the answers are the same and one check replaces ``len(cs)``."""
+        if len(cs) > 1 and self.sat(z3.And(*cs)):
+            self.s.add(*cs)
+            return [True] * len(cs)
+        return [self.try_fix(c) for c in cs]
+
     def least_index(self, pred, lo: int, hi: int, seen=None) -> int:
         """The least i in lo..hi with pred(i) satisfiable, given that pred(hi) is (monotone).
 
@@ -274,7 +283,7 @@ def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None) -
             I[f"legs.{i}.odometer"] - I[f"legs.{i}.distance"] for i in range(1, K + 1)]
         if two:
             errors += [I["g2.offset"], I["g2.detect_error"]]
-        zeroed = [L.try_fix(e == 0) for e in errors]
+        zeroed = L.try_fix_all([e == 0 for e in errors])
         # (3) every other input to its least feasible value, in this documented order
         L.least_int(I["lrbg.read"], 1)
         L.least_int(I["lrbg.locacc"], 0)
@@ -293,18 +302,15 @@ def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None) -
         if more is not None:
             more(L)
         # (4) Booleans false first, enums in declaration order
-        L.try_fix(z3.Not(I["lrbg.linked"]))
+        first = [z3.Not(I["lrbg.linked"])]
         if two:
-            L.try_fix(z3.Not(I["g2.linked"]))
-            L.try_fix(z3.Not(I["g2.found"]))
-            L.try_fix(I["g2.side"] == 1)
-            L.try_fix(I["g2.orientation"] == 1)
-        for i in range(1, K + 1):
-            L.try_fix(z3.Not(I[f"legs.{i}.cab_change"]))
-        L.try_fix(I["passage.direction"] == 1)          # nominal before reverse
-        L.try_fix(I["passage.running"])                  # forward before backward
-        for i in range(1, K + 1):
-            L.try_fix(I[f"legs.{i}.running"])
+            first += [z3.Not(I["g2.linked"]), z3.Not(I["g2.found"]), I["g2.side"] == 1,
+                      I["g2.orientation"] == 1]
+        first += [z3.Not(I[f"legs.{i}.cab_change"]) for i in range(1, K + 1)]
+        first += [I["passage.direction"] == 1,          # nominal before reverse
+                  I["passage.running"]]                  # forward before backward
+        first += [I[f"legs.{i}.running"] for i in range(1, K + 1)]
+        L.try_fix_all(first)
     except _Unknown:
         return False
     return True
