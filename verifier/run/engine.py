@@ -238,26 +238,51 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
         if chosen:   # lemmas first: a rule for any number of legs may need them
             todo += [(p, r) for r in p.lemmas if r not in chosen] + [(p, r) for r in chosen]
     bounds = [induct.base_bound(p, r, opts.legs, opts.induction_depth) for p, r in todo]
-    results: dict = {id(p): [] for p in packs}   # by identity: two packs may share a name
+    done: list = [None] * len(todo)
     lemmas: dict = {id(p): [] for p in packs}    # proved for any number of legs, in file order
-    presolved = solve_in_order(todo, legs=opts.legs, timeout=opts.timeout, rlimit=opts.rlimit,
-                               witness=opts.witness, jobs=opts.jobs, cache=opts.cache,
-                               bounds=bounds)
-    for n, ((pack, rule), bound) in enumerate(zip(todo, bounds), 1):
-        if progress:
-            progress(n, len(todo), pack, rule, None)
-        res = check_rule(pack, rule, opts, next(presolved), bound, files)
-        if res.verdict in ("holds", "vacuous") and pack.unbounded_for(rule, opts.legs):
-            res = _any_number(pack, rule, res, tuple(lemmas[id(pack)]), bound, opts, files)
-        if rule.role == "lemma" and res.unbounded:
-            lemmas[id(pack)].append(rule)
+    proved: dict = {id(p): [] for p in packs}    # every lemma's result, for the rules' checks
+    n = 0
+    # Two phases: the lemmas first, then the rules, each of which assumes the lemmas of its pack
+    # proved over all the worlds it covers (solve.lemma_facts: the same answers, less work).
+    for phase in (True, False):
+        idx = [i for i, (_, r) in enumerate(todo) if (r.role == "lemma") == phase]
+        if not idx:
+            continue
+        assume = [() if phase else usable_lemmas(proved[id(todo[i][0])], bounds[i]) for i in idx]
+        presolved = solve_in_order([todo[i] for i in idx], legs=opts.legs, timeout=opts.timeout,
+                                   rlimit=opts.rlimit, witness=opts.witness, jobs=opts.jobs,
+                                   cache=opts.cache, bounds=[bounds[i] for i in idx], assume=assume)
+        for i in idx:
+            (pack, rule), bound = todo[i], bounds[i]
+            n += 1
+            if progress:
+                progress(n, len(todo), pack, rule, None)
+            res = check_rule(pack, rule, opts, next(presolved), bound, files)
+            if res.verdict in ("holds", "vacuous") and pack.unbounded_for(rule, opts.legs):
+                res = _any_number(pack, rule, res, tuple(lemmas[id(pack)]), bound, opts, files)
+            if phase:
+                proved[id(pack)].append((rule, res))
+                if res.unbounded:
+                    lemmas[id(pack)].append(rule)
+            done[i] = res
+            if progress:
+                progress(n, len(todo), pack, rule, res)
+    results: dict = {id(p): [] for p in packs}   # by identity: two packs may share a name
+    for (pack, _), res in zip(todo, done):
         results[id(pack)].append(res)
-        if progress:
-            progress(n, len(todo), pack, rule, res)
     return [PackResult(p.name, p.path, tuple(results[id(p)]),
                        coverage.summary(p, opts.legs, opts.induction_depth,
                                         [r for q, r in todo if q is p], max_legs=opts.max_legs))
             for p in packs]
+
+
+def usable_lemmas(proved, bound: int) -> tuple:
+    """The lemmas of ``proved`` ((lemma, result) pairs) that hold in every world up to
+    ``bound`` legs: proved for any number of legs, or holding (or vacuous: their given never
+    holds) up to at least ``bound`` legs. Only these may be assumed by a bounded check."""
+    return tuple(lemma for lemma, res in proved
+                 if res.verdict in ("holds", "vacuous", "bounded")
+                 and (res.unbounded or res.bound >= bound))
 
 
 def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: int,
@@ -307,7 +332,7 @@ def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: 
             break
         first = out is None            # the given not yet satisfiable: a witness if it now is
         res, pre = _deepened(pack, rule, opts, n, min(induct.rule_rlimit(opts.rlimit), budget - spent),
-                             left, first and opts.witness, files)
+                             left, first and opts.witness, files, lemmas)
         solved = pre.solved
         spent += solved.rlimit
         cached = cached and pre.cached
@@ -318,7 +343,8 @@ def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: 
             stop = f"the check at {n} legs ran out of the deepening budget"
             break
         if res.verdict == "violated" and not res.minimal and budget - spent < induct.rule_rlimit(opts.rlimit):
-            res, _ = _deepened(pack, rule, opts, n, induct.rule_rlimit(opts.rlimit), left, False, files)
+            res, _ = _deepened(pack, rule, opts, n, induct.rule_rlimit(opts.rlimit), left, False, files,
+                               lemmas)
         if res.verdict == "violated":
             proof = {"kind": "bounded", "legs": n, "deepened_from": bound}
             step = (out or never).proof.get("induction")
@@ -345,11 +371,12 @@ def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: 
 
 
 def _deepened(pack: Pack, rule: Rule, opts: CheckOptions, n: int, rlimit: int, timeout: float,
-              witness: bool, files):
-    """The bounded check of ``rule`` up to ``n`` legs, through the cache as any other: the
-    engine's result (None when the solver's answer is vacuous or unknown) and the answer."""
+              witness: bool, files, lemmas: tuple):
+    """The bounded check of ``rule`` up to ``n`` legs, through the cache as any other (assuming
+    ``lemmas``, proved for any number of legs): the engine's result (None when the solver's
+    answer is vacuous or unknown) and the answer."""
     pre = next(solve_in_order([(pack, rule)], timeout=timeout, rlimit=rlimit, witness=witness,
-                              cache=opts.cache, bounds=[n]))
+                              cache=opts.cache, bounds=[n], assume=[lemmas]))
     if pre.solved.verdict in ("vacuous", "unknown"):
         return None, pre
     deep = attrs.evolve(opts, witness=witness, rlimit=rlimit, timeout=timeout)

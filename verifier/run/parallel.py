@@ -102,12 +102,14 @@ def check_jobs(jobs: int) -> int:
 
 
 def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, jobs=1,
-                   cache=None, bounds=None):
+                   cache=None, bounds=None, assume=None):
     """Yield a :class:`Presolved` for each (pack, rule) of ``todo``, in order.
 
     ``cache`` is a :class:`verifier.run.cache.Cache` or None. ``bounds`` gives each rule's bound
-    (default: the pack's ``bound_for``). With ``jobs == 1`` each rule is solved when its result
-    is asked for (so progress reports stay live)."""
+    (default: the pack's ``bound_for``); ``assume`` each rule's proved lemmas (default none,
+    see :func:`verifier.smt.solve.lemma_facts`: they change the work, never the answer, so the
+    cache key leaves them out). With ``jobs == 1`` each rule is solved when its result is asked
+    for (so progress reports stay live)."""
     check_jobs(jobs)
     limits = {"witness": witness}
     if timeout is not None:
@@ -124,7 +126,7 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
             hit = _today(hit, pack, bound, evaluators)
             if hit is None:
                 cache.count_as_miss()
-        plan.append((pack, rule, bound, key, hit))
+        plan.append((pack, rule, bound, key, hit, assume[n] if assume is not None else ()))
 
     def done(key, solved, seconds) -> Presolved:
         if cache is not None:
@@ -132,12 +134,12 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
         return Presolved(solved, seconds)
 
     if jobs == 1 or sum(1 for p in plan if p[4] is None) <= 1:
-        for pack, rule, bound, key, hit in plan:
+        for pack, rule, bound, key, hit, lemmas in plan:
             if hit is not None:
                 yield Presolved(hit, 0.0, True)
                 continue
             t0 = time.monotonic()
-            query = smtlib.export_rule(pack, rule, bound)
+            query = smtlib.export_rule(pack, rule, bound, lemmas)
             solved, _ = _work(query, limits)
             yield done(key, solved, time.monotonic() - t0)
         return
@@ -147,12 +149,12 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
                              initargs=(os.getpid(),)) as pool:
         futures = {}
         try:
-            for i, (pack, rule, bound, key, hit) in enumerate(plan):
+            for i, (pack, rule, bound, key, hit, lemmas) in enumerate(plan):
                 if hit is None:
                     t0 = time.monotonic()
-                    query = smtlib.export_rule(pack, rule, bound)
+                    query = smtlib.export_rule(pack, rule, bound, lemmas)
                     futures[i] = (pool.submit(_work, query, limits), time.monotonic() - t0)
-            for i, (pack, rule, bound, key, hit) in enumerate(plan):
+            for i, (pack, rule, bound, key, hit, _) in enumerate(plan):
                 if hit is not None:
                     yield Presolved(hit, 0.0, True)
                     continue

@@ -38,12 +38,18 @@ def _sort(c) -> str:
     return "int" if z3.is_int(c) else "real"
 
 
-def export_rule(pack: Pack, rule: Rule, bound: int) -> Query:
-    """Encode ``rule`` of ``pack`` up to ``bound`` legs and print it as SMT-LIB text."""
+def export_rule(pack: Pack, rule: Rule, bound: int, assume: tuple = ()) -> Query:
+    """Encode ``rule`` of ``pack`` up to ``bound`` legs and print it as SMT-LIB text.
+
+    ``assume``: lemmas already proved over every world this query covers (for any number of
+    legs, or up to at least ``bound``); each adds ``given implies expect`` as a fact. Such a
+    fact removes no world in scope, so every answer (verdict, minimal world, witness) is the
+    one without it; only the solver's work changes (see :func:`solve.lemma_facts`)."""
     ctx = z3.Context()
     enc = Encoding(pack, bound, ctx)
     given, expect = enc.given(rule), enc.expect(rule)
     facts = [z3.Bool(GIVEN, ctx) == given, z3.Bool(EXPECT, ctx) == expect]
+    facts += solve.lemma_facts(enc, assume)
     values = []
     for name in solve.COMPARED:
         t = enc.name(name)

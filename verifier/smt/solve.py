@@ -412,9 +412,24 @@ COMPARED = ("passage.seen", "passage.actual_front", "passage.est_front", "cab_ch
             "rbc.min_safe_rear")
 
 
+def lemma_facts(enc: Encoding, lemmas) -> list:
+    """``given implies expect`` of each lemma over ``enc``: facts to add to a bounded question
+    when the lemmas are already proved over every world it covers.
+
+    A proved lemma is true in every world in scope, so the facts remove none of them: the
+    violating worlds, the worlds of the given, and so the verdict, the minimal counterexample
+    and the witness are exactly those of the question without them. What changes is z3's
+    work: the envelope rules of confidence-interval at 3 legs took 1.2 to 3.9 s each without
+    the reading-error lemma and 0.07 to 0.21 s with it. Only the engine decides which lemmas
+    are proved (``verifier.run.engine``); a lemma that is not must never come here."""
+    return [z3.Implies(enc.given(lemma), enc.expect(lemma)) for lemma in lemmas]
+
+
 def solve_rule(pack: Pack, rule: Rule, bound: int, *, rlimit: int = DEFAULT_RLIMIT,
-               timeout: float = DEFAULT_TIMEOUT, witness: bool = True) -> Solved:
-    """Decide one rule up to ``bound`` legs in a fresh context."""
+               timeout: float = DEFAULT_TIMEOUT, witness: bool = True,
+               assume: tuple = ()) -> Solved:
+    """Decide one rule up to ``bound`` legs in a fresh context (``assume``: proved lemmas, see
+    :func:`lemma_facts`)."""
     ctx = z3.Context()
     budget = Budget(timeout)
     enc = Encoding(pack, bound, ctx)
@@ -422,6 +437,7 @@ def solve_rule(pack: Pack, rule: Rule, bound: int, *, rlimit: int = DEFAULT_RLIM
     expect = enc.expect(rule)
     for name in COMPARED:
         enc.name(name)
+    enc.constraints.extend(lemma_facts(enc, assume))
     return decide(enc, given, expect, rlimit=rlimit, budget=budget, witness=witness)
 
 
