@@ -117,3 +117,22 @@ def test_each_ladder_step_is_minimal(rid, tmp_path):
     full += [I["lrbg.offset"] == _num(ctx, w["lrbg"]["offset"]),
              I["passage.detect_error"] == _num(ctx, w["passage"]["detect_error"])]
     assert sat(*full)
+
+
+def test_the_ladder_starts_at_the_scope_bounds_the_constraints_state():
+    # kestrel-quay's [world] (rules/demo/kestrel-quay.toml): train_length 40..220 m, antenna
+    # 2..12 m. Its encoding states them as top-level bounds, and so does the same problem
+    # printed as SMT-LIB text and read back (the path of `verifier check`).
+    from verifier.smt import smtlib, solve
+    pack = load_pack(DEMO)
+    enc = Encoding(pack, 1, z3.Context())
+    lows = solve.lower_bounds(enc.constraints, enc.inputs)
+    assert lows["train.length"] == 40 and lows["train.antenna"] == 2
+    assert lows["lrbg.locacc"] == 1 and lows["legs.count"] == 0     # locacc 1..5 m
+    q = smtlib.export_rule(pack, pack.rules[0], 1)
+    ctx = z3.Context()
+    parsed = list(z3.parse_smt2_string(q.text, ctx=ctx))
+    inputs = {k: {"int": z3.Int, "real": z3.Real, "bool": z3.Bool}[srt](name, ctx)
+              for k, name, srt in q.inputs}
+    again = solve.lower_bounds(parsed, inputs)
+    assert again["train.length"] == 40 and again["train.antenna"] == 2

@@ -259,6 +259,33 @@ class _Steps:
         self.s.add(x == num(self.value_of(x)))
 
 
+def lower_bounds(constraints, terms: dict) -> dict:
+    """The constant lower bounds that top-level constraints (or conjunctions of them) put on
+    the terms of ``terms`` (a name -> term map): ``x >= c`` and ``c <= x``, by name. These hold
+    in every model, so a ladder step may start its search there: the answer is the same and
+    the questions below the bound, each a certain ``unsat``, are not asked."""
+    by_id = {t.get_id(): name for name, t in terms.items() if z3.is_const(t)}
+    lows: dict = {}
+    todo = list(constraints)
+    while todo:
+        c = todo.pop()
+        if z3.is_and(c):
+            todo.extend(c.children())
+            continue
+        if z3.is_ge(c):
+            x, k = c.arg(0), c.arg(1)
+        elif z3.is_le(c):
+            k, x = c.arg(0), c.arg(1)
+        else:
+            continue
+        name = by_id.get(x.get_id())
+        if name is None or not (z3.is_int_value(k) or z3.is_rational_value(k)):
+            continue
+        v = to_fraction(k)
+        lows[name] = max(lows.get(name, v), v)
+    return lows
+
+
 def run_ladder(ses: SolverSession, enc: Encoding) -> bool:
     """Fix every input by the fixed ladder of DESIGN 6. Returns whether every step was decided."""
     return ladder(ses, enc.inputs, enc.K, enc.terms["legs.count"], enc.terms["cab_changes"])
@@ -270,14 +297,20 @@ def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None) -
     (a state's, for a counterexample to induction) after the inputs and before the Booleans.
     Returns whether every step was decided."""
     L = _Steps(ses)
+    lows = lower_bounds(ses.enc.constraints, I)
+
+    def low(name: str, least):
+        """Where the search for ``name`` may start: ``least``, or the scope's bound above it."""
+        return max(least, lows.get(name, least))
+
     try:
         # (1) fewest legs, then fewest cab changes, then fewest balises
         L.least_int(count, 0)
         L.least_int(cab_changes, 0)
-        L.least_int(I["lrbg.balises"], 1)
+        L.least_int(I["lrbg.balises"], math.ceil(low("lrbg.balises", 1)))
         two = "g2.distance" in I            # a second group (DESIGN 4.8): its inputs likewise
         if two:
-            L.least_int(I["g2.balises"], 1)
+            L.least_int(I["g2.balises"], math.ceil(low("g2.balises", 1)))
         # (2) each error to 0 where possible
         errors = [I["lrbg.offset"], I["passage.detect_error"]] + [
             I[f"legs.{i}.odometer"] - I[f"legs.{i}.distance"] for i in range(1, K + 1)]
@@ -285,17 +318,18 @@ def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None) -
             errors += [I["g2.offset"], I["g2.detect_error"]]
         zeroed = L.try_fix_all([e == 0 for e in errors])
         # (3) every other input to its least feasible value, in this documented order
-        L.least_int(I["lrbg.read"], 1)
-        L.least_int(I["lrbg.locacc"], 0)
-        L.least_on_grid(I["train.length"], Fraction(0))
-        L.least_on_grid(I["train.antenna"], Fraction(0))
+        L.least_int(I["lrbg.read"], math.ceil(low("lrbg.read", 1)))
+        L.least_int(I["lrbg.locacc"], math.ceil(low("lrbg.locacc", 0)))
+        L.least_on_grid(I["train.length"], low("train.length", Fraction(0)))
+        L.least_on_grid(I["train.antenna"], low("train.antenna", Fraction(0)))
         if two:
-            L.least_int(I["g2.read"], 1)
-            L.least_int(I["g2.locacc"], 0)
-            L.least_on_grid(I["g2.distance"], Fraction(0))
-            L.least_int(I["g2.at"], 0)
+            L.least_int(I["g2.read"], math.ceil(low("g2.read", 1)))
+            L.least_int(I["g2.locacc"], math.ceil(low("g2.locacc", 0)))
+            L.least_on_grid(I["g2.distance"], low("g2.distance", Fraction(0)))
+            L.least_int(I["g2.at"], math.ceil(low("g2.at", 0)))
         for i in range(1, K + 1):
-            L.least_on_grid(I[f"legs.{i}.distance"], Fraction(0))
+            name = f"legs.{i}.distance"
+            L.least_on_grid(I[name], low(name, Fraction(0)))
         for e, z in zip(errors, zeroed):
             if not z:
                 L.least_magnitude(e)
