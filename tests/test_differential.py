@@ -43,7 +43,10 @@ def test_catalogue_has_the_test_packs():
             "diff-designs.toml"} <= names
 
 
+@pytest.mark.thorough
 def test_simulator_and_encoding_agree_on_generated_worlds(record_property):
+    # the validation profile's sweep (ci: 20,000 worlds, every corner hit): .ci/run runs it
+    # after the README's test command (pytest -m thorough)
     prof = profile()
     paths = catalogue((ROOT / "rules", PACKS))
     report = run_differential(paths, prof["worlds"], seed=prof["seed"], workers=prof["workers"])
@@ -58,6 +61,19 @@ def test_simulator_and_encoding_agree_on_generated_worlds(record_property):
     assert report.unique_checks >= prof["worlds"] // 50
     missed = [c for c in CORNERS if not report.corners.get(c)]
     assert not missed, f"corners never hit: {missed}"
+
+
+QUICK_WORLDS = 2_000
+
+
+def test_simulator_and_encoding_agree_on_a_quick_sample():
+    # every run of the suite: a tenth of the ci profile's worlds over the same packs, the same
+    # comparison (the corners are required by the thorough sweep above, not here)
+    paths = catalogue((ROOT / "rules", PACKS))
+    report = run_differential(paths, QUICK_WORLDS, seed=profile()["seed"] or 1, workers=1)
+    assert not report.failures, report.failures
+    assert report.worlds >= QUICK_WORLDS
+    assert report.unique_checks >= QUICK_WORLDS // 50
 
 
 # ---- the comparison itself can fail ------------------------------------------------------------

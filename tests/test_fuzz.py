@@ -29,17 +29,32 @@ def _known(detail: str) -> bool:
     return any(all(part in detail for part in k.split("|")) for k in KNOWN)
 
 
+@pytest.mark.thorough
 def test_fuzzed_inputs_end_in_a_clean_error_or_a_verdict(record_property):
+    # the validation profile's sweep (ci: 10,000 inputs): .ci/run runs it after the README's
+    # test command (pytest -m thorough); the quick sample below runs in every suite
+    fuzz_and_judge(record_property, quick=False)
+
+
+def test_a_quick_sample_of_fuzzed_inputs_ends_in_a_clean_error_or_a_verdict(record_property):
+    fuzz_and_judge(record_property, quick=True)
+
+
+QUICK_INPUTS = 1_000
+
+
+def fuzz_and_judge(record_property, quick: bool):
     prof = profile()
     seed = prof["seed"] if prof["seed"] is not None else random.SystemRandom().randrange(2**32)
     paths = catalogue((ROOT / "rules", ROOT / "tests" / "packs"))
-    report = run_fuzz(prof["fuzz"], seed, paths, workers=prof["workers"], limit=LIMIT)
+    n = QUICK_INPUTS if quick else prof["fuzz"]
+    report = run_fuzz(n, seed, paths, workers=1 if quick else prof["workers"], limit=LIMIT)
     shares = {s: f"{100 * report.share(s):.1f} %" for s in report.stages}
     text = (f"fuzz: {report.inputs} inputs (seed {seed}), reached {shares}, results {report.results}, "
             f"slowest {report.slowest:.2f} s, total {report.seconds:.1f} s")
     print(text)
     record_property("fuzz", text)
-    assert report.inputs >= prof["fuzz"]
+    assert report.inputs >= n
     unexpected = [f for f in report.failures if not _known(f[3])]
     assert not unexpected, unexpected[:5]
     assert report.share("type-checker") >= 0.30
