@@ -1,12 +1,16 @@
 from __future__ import annotations
 
+import os
 import textwrap
 from pathlib import Path
 
 import pytest
 
 ROOT = Path(__file__).resolve().parent.parent
-pytest_plugins = ["pytester"]   # the pytest plugin of verifier is tested in subprocesses
+pytest_plugins = ["pytester"]
+# `verifier check` starts one worker per core by default; the suite runs its many small checks
+# serially (pytest-xdist already has a worker per core). Tests of --jobs name it or set this.
+os.environ.setdefault("VERIFIER_JOBS", "1")   # the pytest plugin of verifier is tested in subprocesses
 
 
 def pack_text(rules: str, *, name: str = "t", legs: int = 2, world: str = "", onboard: str = "",

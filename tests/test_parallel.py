@@ -55,3 +55,39 @@ def test_text_path_solves_like_the_direct_path():
 def test_jobs_range(bad):
     with pytest.raises(UsageError):
         check_jobs(bad)
+
+
+def test_lemmas_then_rules_share_one_pool_and_match_a_serial_run():
+    # position-report has lemmas and rules: the two phases of a check (lemmas first, then the
+    # rules that assume them) run in one pool of two workers, and give the serial results
+    pack = load_pack(ROOT / "rules" / "position-report.toml")
+    opts = dict(out=None, legs=1)
+    serial = check_packs([pack], CheckOptions(**opts))
+    par = check_packs([pack], CheckOptions(**opts, jobs=2))
+    assert _results(serial) == _results(par)
+    assert any(r.role == "lemma" for r in par[0].results)
+
+
+def test_jobs_default_is_one_worker_per_core_unless_the_environment_says(monkeypatch):
+    from verifier.run import parallel
+    monkeypatch.delenv("VERIFIER_JOBS", raising=False)
+    assert parallel.resolve_jobs(None) == parallel.auto_jobs()
+    assert 1 <= parallel.auto_jobs() <= parallel.AUTO_JOBS_MAX
+    monkeypatch.setattr(parallel.os, "sched_getaffinity", lambda pid: set(range(32)))
+    assert parallel.auto_jobs() == parallel.AUTO_JOBS_MAX          # at most 8 on a big machine
+    monkeypatch.setenv("VERIFIER_JOBS", "3")
+    assert parallel.resolve_jobs(None) == 3
+    assert parallel.resolve_jobs(2) == 2                           # --jobs wins over the variable
+    monkeypatch.setenv("VERIFIER_JOBS", "auto")
+    assert parallel.resolve_jobs(None) == parallel.AUTO_JOBS_MAX
+    for bad in ("many", "0", "65"):
+        monkeypatch.setenv("VERIFIER_JOBS", bad)
+        with pytest.raises(UsageError, match="VERIFIER_JOBS|--jobs"):
+            parallel.resolve_jobs(None)
+
+
+def test_check_takes_jobs_auto_on_the_command_line(tmp_path, capsys):
+    from verifier.cli import main
+    code = main(["check", str(DEMO), "--jobs", "auto", "--no-cache", "--json", "--out", str(tmp_path)])
+    assert code == 1                 # the demo is refuted on purpose
+    assert '"violated"' in capsys.readouterr().out

@@ -31,7 +31,7 @@ from verifier.run import coverage
 from verifier.run.cache import Cache
 from verifier.run.engine import VERDICTS, exit_code, proof_detail, proof_words
 from verifier.run.loader import load_all, load_pack
-from verifier.run.parallel import MAX_JOBS, check_jobs
+from verifier.run.parallel import MAX_JOBS, check_jobs, resolve_jobs
 from verifier.smt.export import write_for_results
 from verifier.trust import selftest
 from verifier.trust.crosscheck import crosscheck_results
@@ -143,7 +143,7 @@ def _with_jobs_and_cache(opts, args):
     import attrs
 
     cache = None if args.no_cache else Cache(warn=lambda w: print(f"verifier: warning: {w}", file=sys.stderr))
-    return attrs.evolve(opts, jobs=check_jobs(args.jobs), cache=cache)
+    return attrs.evolve(opts, jobs=resolve_jobs(args.jobs), cache=cache)
 
 
 def cmd_check(args) -> int:
@@ -436,6 +436,11 @@ def _jobs_arg(text: str) -> int:
     return _whole(text, 1, MAX_JOBS, "worker processes")
 
 
+def _jobs_or_auto(text: str):
+    """--jobs of check: a number of worker processes, or 'auto' (one per core, at most 8)."""
+    return "auto" if text == "auto" else _jobs_arg(text)
+
+
 def _legs_arg(text: str):
     """--legs of check: a whole number 0..8, or 'any'."""
     if text == "any":
@@ -478,7 +483,10 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--rlimit", type=_rlimit_arg, metavar="N", help="deterministic solver budget per check (default 500000000)")
     c.add_argument("--out", default="counterexamples", metavar="DIR", help="where counterexample files go (default: counterexamples/ in the current folder)")
     c.add_argument("--no-files", action="store_true", help="write no counterexample files")
-    c.add_argument("--jobs", type=_jobs_arg, default=1, metavar="N", help="solve rules in N worker processes (same results and files as 1, the default)")
+    c.add_argument("--jobs", type=_jobs_or_auto, default=None, metavar="N",
+                   help="solve rules in N worker processes, or 'auto': one per core, at most 8 "
+                        "(the default, or $VERIFIER_JOBS); the results and files are the same "
+                        "for any N")
     c.add_argument("--no-cache", action="store_true", help="solve every rule again; neither read nor write the cache (.verifier-cache/ in the current folder)")
     c.add_argument("--format", choices=("table", "json", "junit", "sarif"), default="table",
                    help="output on stdout: table (default), json (as --json), junit (XML, one test "

@@ -7,6 +7,7 @@ the rule ``error`` (kind ``internal``) with both values shown.
 
 from __future__ import annotations
 
+import contextlib
 import time
 from pathlib import Path
 from typing import Callable
@@ -16,7 +17,7 @@ import attrs
 from verifier.check.model import Pack, Rule
 from verifier.errors import UsageError, WriteError, suggest
 from verifier.run import coverage, induct
-from verifier.run.parallel import solve_in_order
+from verifier.run.parallel import SharedPool, solve_in_order
 from verifier.smt import solve
 from verifier.world.failure import describe_failure, failed_detail, implicit_premise
 from verifier.world.scenario import fmt, world_from_flat, world_to_data
@@ -239,11 +240,26 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
             todo += [(p, r) for r in p.lemmas if r not in chosen] + [(p, r) for r in chosen]
     bounds = [induct.base_bound(p, r, opts.legs, opts.induction_depth) for p, r in todo]
     done: list = [None] * len(todo)
+    # one pool of workers for both phases, started only if one of them has two rules to solve
+    with SharedPool(opts.jobs) if opts.jobs > 1 else contextlib.nullcontext() as pool:
+        for i, res in _in_phases(packs, todo, bounds, opts, files, progress, pool):
+            done[i] = res
+    results: dict = {id(p): [] for p in packs}   # by identity: two packs may share a name
+    for (pack, _), res in zip(todo, done):
+        results[id(pack)].append(res)
+    return [PackResult(p.name, p.path, tuple(results[id(p)]),
+                       coverage.summary(p, opts.legs, opts.induction_depth,
+                                        [r for q, r in todo if q is p], max_legs=opts.max_legs))
+            for p in packs]
+
+
+def _in_phases(packs, todo, bounds, opts: CheckOptions, files, progress, pool):
+    """Yield ``(index in todo, result)``: the lemmas first, then the rules, each of which
+    assumes the lemmas of its pack proved over all the worlds it covers (solve.lemma_facts:
+    the same answers, less work)."""
     lemmas: dict = {id(p): [] for p in packs}    # proved for any number of legs, in file order
     proved: dict = {id(p): [] for p in packs}    # every lemma's result, for the rules' checks
     n = 0
-    # Two phases: the lemmas first, then the rules, each of which assumes the lemmas of its pack
-    # proved over all the worlds it covers (solve.lemma_facts: the same answers, less work).
     for phase in (True, False):
         idx = [i for i, (_, r) in enumerate(todo) if (r.role == "lemma") == phase]
         if not idx:
@@ -251,7 +267,8 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
         assume = [() if phase else usable_lemmas(proved[id(todo[i][0])], bounds[i]) for i in idx]
         presolved = solve_in_order([todo[i] for i in idx], legs=opts.legs, timeout=opts.timeout,
                                    rlimit=opts.rlimit, witness=opts.witness, jobs=opts.jobs,
-                                   cache=opts.cache, bounds=[bounds[i] for i in idx], assume=assume)
+                                   cache=opts.cache, bounds=[bounds[i] for i in idx],
+                                   assume=assume, pool=pool)
         for i in idx:
             (pack, rule), bound = todo[i], bounds[i]
             n += 1
@@ -264,16 +281,9 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
                 proved[id(pack)].append((rule, res))
                 if res.unbounded:
                     lemmas[id(pack)].append(rule)
-            done[i] = res
+            yield i, res
             if progress:
                 progress(n, len(todo), pack, rule, res)
-    results: dict = {id(p): [] for p in packs}   # by identity: two packs may share a name
-    for (pack, _), res in zip(todo, done):
-        results[id(pack)].append(res)
-    return [PackResult(p.name, p.path, tuple(results[id(p)]),
-                       coverage.summary(p, opts.legs, opts.induction_depth,
-                                        [r for q, r in todo if q is p], max_legs=opts.max_legs))
-            for p in packs]
 
 
 def usable_lemmas(proved, bound: int) -> tuple:

@@ -27,6 +27,8 @@ from verifier.smt import smtlib
 from verifier.smt.concrete import Evaluator, compared_values
 
 MAX_JOBS = 64
+AUTO_JOBS_MAX = 8       # "auto" never starts more workers than this
+JOBS_ENV = "VERIFIER_JOBS"
 
 
 @attrs.frozen
@@ -101,15 +103,50 @@ def check_jobs(jobs: int) -> int:
     return jobs
 
 
+def auto_jobs() -> int:
+    """Worker processes for ``--jobs auto``: one per core this process may run on, at most
+    :data:`AUTO_JOBS_MAX` (each worker holds a z3 context of its own)."""
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):       # pragma: no cover - not Linux
+        cores = os.cpu_count() or 1
+    return max(1, min(cores, AUTO_JOBS_MAX))
+
+
+def resolve_jobs(jobs) -> int:
+    """``--jobs``: a number, ``"auto"``, or None for the default, which is ``$VERIFIER_JOBS``
+    (a number or ``auto``) or else ``auto``. The results and files never depend on it."""
+    if jobs is None:
+        jobs = os.environ.get(JOBS_ENV, "auto").strip() or "auto"
+        if jobs != "auto":
+            try:
+                jobs = int(jobs)
+            except ValueError:
+                raise UsageError(f"{JOBS_ENV} must be a number of worker processes 1..{MAX_JOBS} "
+                                 f"or 'auto', got {jobs!r}") from None
+    if jobs == "auto":
+        return auto_jobs()
+    return check_jobs(jobs)
+
+
+def open_pool(jobs: int):
+    """A pool of ``jobs`` worker processes for :func:`solve_in_order` (``pool=``), to be used
+    as a context manager; several calls may share it (one start-up for a whole check)."""
+    ctx = multiprocessing.get_context("spawn")   # no z3 state inherited from this process
+    return ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_worker_init,
+                               initargs=(os.getpid(),))
+
+
 def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, jobs=1,
-                   cache=None, bounds=None, assume=None):
+                   cache=None, bounds=None, assume=None, pool=None):
     """Yield a :class:`Presolved` for each (pack, rule) of ``todo``, in order.
 
     ``cache`` is a :class:`verifier.run.cache.Cache` or None. ``bounds`` gives each rule's bound
     (default: the pack's ``bound_for``); ``assume`` each rule's proved lemmas (default none,
     see :func:`verifier.smt.solve.lemma_facts`: they change the work, never the answer, so the
     cache key leaves them out). With ``jobs == 1`` each rule is solved when its result is asked
-    for (so progress reports stay live)."""
+    for (so progress reports stay live). ``pool`` (a :class:`SharedPool`) is used instead of a
+    pool of its own, and left open."""
     check_jobs(jobs)
     limits = {"witness": witness}
     if timeout is not None:
@@ -144,27 +181,67 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
             yield done(key, solved, time.monotonic() - t0)
         return
 
-    ctx = multiprocessing.get_context("spawn")   # no z3 state inherited from this process
-    with ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_worker_init,
-                             initargs=(os.getpid(),)) as pool:
-        futures = {}
-        try:
-            for i, (pack, rule, bound, key, hit, lemmas) in enumerate(plan):
-                if hit is None:
-                    t0 = time.monotonic()
-                    query = smtlib.export_rule(pack, rule, bound, lemmas)
-                    futures[i] = (pool.submit(_work, query, limits), time.monotonic() - t0)
-            for i, (pack, rule, bound, key, hit, _) in enumerate(plan):
-                if hit is not None:
-                    yield Presolved(hit, 0.0, True)
-                    continue
-                future, export_seconds = futures[i]
-                try:
-                    solved, seconds = future.result()
-                except BrokenProcessPool as exc:
-                    raise InternalError(f"a worker process died while solving "
-                                        f"{pack.name}/{rule.id}: {exc}") from None
-                yield done(key, solved, export_seconds + seconds)
-        except BaseException:     # Ctrl-C, or the caller gave up: nothing more is solved
+    if pool is None:
+        with open_pool(jobs) as own:
+            yield from _in_pool(own, plan, limits, done)
+        return
+    yield from _in_pool(pool.get(), plan, limits, done, shared=True)
+
+
+class SharedPool:
+    """One pool of worker processes for several :func:`solve_in_order` calls (a check's lemmas,
+    then its rules), started when the first of them needs it; a context manager that ends the
+    workers on leaving (at once if an exception is leaving)."""
+
+    def __init__(self, jobs: int):
+        self.jobs = check_jobs(jobs)
+        self.pool = None
+
+    def get(self):
+        if self.pool is None:
+            self.pool = open_pool(self.jobs)
+        return self.pool
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, kind, exc, tb):
+        if self.pool is not None:
+            if kind is None:
+                self.pool.shutdown(wait=True)
+            else:
+                _stop(self.pool)
+        return False
+
+
+def _in_pool(pool, plan, limits, done, shared: bool = False):
+    """Submit every query the cache did not answer to ``pool``; yield the results in order.
+    A caller that stops asking (the generator closed) cancels what is left; a shared pool
+    stays open for the next caller, unless it is an interrupt or an error."""
+    futures = {}
+    try:
+        for i, (pack, rule, bound, key, hit, lemmas) in enumerate(plan):
+            if hit is None:
+                t0 = time.monotonic()
+                query = smtlib.export_rule(pack, rule, bound, lemmas)
+                futures[i] = (pool.submit(_work, query, limits), time.monotonic() - t0)
+        for i, (pack, rule, bound, key, hit, _) in enumerate(plan):
+            if hit is not None:
+                yield Presolved(hit, 0.0, True)
+                continue
+            future, export_seconds = futures[i]
+            try:
+                solved, seconds = future.result()
+            except BrokenProcessPool as exc:
+                raise InternalError(f"a worker process died while solving "
+                                    f"{pack.name}/{rule.id}: {exc}") from None
+            yield done(key, solved, export_seconds + seconds)
+    except GeneratorExit:
+        if not shared:
             _stop(pool)
-            raise
+        for future, _ in futures.values():
+            future.cancel()
+        raise
+    except BaseException:     # Ctrl-C, or the caller gave up: nothing more is solved
+        _stop(pool)
+        raise
