@@ -161,8 +161,11 @@ class _CDP:
         self.from_r, from_w = os.pipe()
 
         def fds():
-            os.dup2(to_r, 3)
-            os.dup2(from_w, 4)
+            for src, dst in ((to_r, 3), (from_w, 4)):
+                if src == dst:      # a pipe's own fds are close-on-exec; dup2 onto itself keeps that
+                    os.set_inheritable(dst, True)
+                else:
+                    os.dup2(src, dst)
         self.proc = subprocess.Popen(
             [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
              "--no-first-run", "--disable-background-networking", "--disable-component-update",
