@@ -448,7 +448,11 @@ def test_ci_formats_and_report_say_what_kind_of_proof(few_cti, capsys):
     few = {r["id"]: r for r in manifest["packs"][0]["rules"]}["few"]
     assert few["counterexample_to_induction"]["file"] == "counterexamples/t/few.induction.json"
     assert Path("rep/counterexamples/t/few.induction.svg").is_file()
-    assert "Counterexamples to induction" in Path("rep/index.html").read_text()
+    page = Path("rep/index.html").read_text()
+    section = page[page.index('id="rule-t/few"'):]
+    section = section[:section.index("\n</section>")]
+    assert "<h4>Counterexample to induction</h4>" in section and 'id="d-t-few-induction"' in section
+    assert 'href="counterexamples/t/few.induction.json"' in section
 
 
 def test_the_induction_step_is_cached_and_replayed(write_pack, tmp_path):
