@@ -147,3 +147,38 @@ def test_stale_compared_values_from_the_cache_would_be_caught(tmp_path, monkeypa
     res = check_packs([edited], CheckOptions(out=None, cache=Cache(tmp_path / "cache")))
     bad = {r.rule: r.message for p in res for r in p.results if r.verdict == "error"}
     assert bad and all("simulator and solver disagree" in m for m in bad.values())
+
+
+def test_a_cached_verdict_carries_the_seconds_of_its_original_solve(tmp_path):
+    """Each entry records what its solve took; a verdict taken from the cache carries this
+    run's replay time plus that record (the report shows it as the time of the original
+    solve), and a verdict solved afresh has no such figure."""
+    pack = _pack()
+    todo = [(pack, r) for r in pack.rules[:3]]
+    fresh = list(solve_in_order(todo, cache=Cache(tmp_path)))
+    recorded = [json.loads(Cache(tmp_path)._file(rule_key(pack, r, 0)).read_text())["solved"]["seconds"]
+                for _, r in todo]
+    assert [round(x, 9) for x in recorded] == [round(p.seconds, 9) for p in fresh]
+    assert all(x > 0 for x in recorded)
+    again = list(solve_in_order(todo, cache=Cache(tmp_path)))
+    assert [(p.cached, p.seconds, p.recorded) for p in again] == [(True, 0.0, x) for x in recorded]
+
+    cold = check_packs([pack], CheckOptions(out=None, rules=("r00", "r01")))
+    assert [r.original_seconds for p in cold for r in p.results] == [None, None]
+    warm = check_packs([pack], CheckOptions(out=None, rules=("r00", "r01"), cache=Cache(tmp_path)))
+    for r, x in zip(warm[0].results, recorded):
+        assert r.cached and abs(r.original_seconds - (r.seconds + x)) < 1e-9
+
+
+def test_an_entry_without_its_seconds_is_not_trusted(tmp_path):
+    pack = _pack()
+    todo = [(pack, pack.rules[0])]
+    list(solve_in_order(todo, cache=Cache(tmp_path)))
+    f = Cache(tmp_path)._file(rule_key(pack, pack.rules[0], 0))
+    doc = json.loads(f.read_text())
+    del doc["solved"]["seconds"]
+    doc["sha256"] = __import__("hashlib").sha256(json.dumps(doc["solved"], sort_keys=True).encode()).hexdigest()
+    f.write_text(json.dumps(doc))
+    seen = []
+    assert [p.cached for p in solve_in_order(todo, cache=Cache(tmp_path, warn=seen.append))] == [False]
+    assert len(seen) == 1 and "malformed" in seen[0]

@@ -448,7 +448,11 @@ def test_ci_formats_and_report_say_what_kind_of_proof(few_cti, capsys):
     few = {r["id"]: r for r in manifest["packs"][0]["rules"]}["few"]
     assert few["counterexample_to_induction"]["file"] == "counterexamples/t/few.induction.json"
     assert Path("rep/counterexamples/t/few.induction.svg").is_file()
-    assert "Counterexamples to induction" in Path("rep/index.html").read_text()
+    page = Path("rep/index.html").read_text()
+    section = page[page.index('id="rule-t/few"'):]
+    section = section[:section.index("\n</section>")]
+    assert "<h4>Counterexample to induction</h4>" in section and 'id="d-t-few-induction"' in section
+    assert 'href="counterexamples/t/few.induction.json"' in section
 
 
 def test_the_induction_step_is_cached_and_replayed(write_pack, tmp_path):
@@ -462,6 +466,11 @@ def test_the_induction_step_is_cached_and_replayed(write_pack, tmp_path):
     stored = cache.stored
     again = run(p, out=tmp_path / "b", cache=Cache(tmp_path / "cache"))
     assert all(r.cached for r in again.values())
+    # each cached verdict carries the time of its original solve, base case and step (the
+    # replay of this run is far quicker than the solve it stands for)
+    assert all(r.original_seconds is None for r in first.values())
+    for k, r in again.items():
+        assert r.original_seconds > r.seconds and r.original_seconds >= 0.5 * first[k].seconds
     assert {k: (r.verdict, r.proof) for k, r in again.items()} == {k: (r.verdict, r.proof) for k, r in first.items()}
     assert (tmp_path / "a" / "t" / "few.induction.json").read_bytes() == \
         (tmp_path / "b" / "t" / "few.induction.json").read_bytes()

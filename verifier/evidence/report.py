@@ -7,8 +7,14 @@ Files in DIR:
   the packs, the options and the tool versions, except the one field ``generated`` (UTC time of
   the run; ``SOURCE_DATE_EPOCH`` fixes it), so a re-run on an unchanged pack gives the same
   manifest but for that field. Timings are not in it.
-- ``timings.json``: seconds per rule (they vary from run to run).
-- ``index.html``: the page; it shows the timings too.
+- ``timings.json``: seconds per rule (they vary from run to run); for a verdict whose solver
+  answers came from the cache, ``original_seconds``: what it took when they were solved.
+- ``index.html``: the page; it shows the timings too. It is laid out for reading and printing:
+  a first screen that says what holds under what (per pack its counts and scope, the overall
+  counts, the caution), a compact verdict table, one section per rule (its text, verdict and
+  proof, failure detail, counterexample or counterexample to induction drawn inline with its
+  story, links to the files), the traceability of clauses to rules, the assumptions, the packs.
+  Its print style sheet starts each rule's section on a new page.
 - ``counterexamples/<pack>/<rule>.json`` and ``.svg``: copies of the counterexample files and
   their diagrams, each checked by re-simulation (verifier show) before it is copied; likewise
   ``<rule>.induction.json`` and ``.induction.svg`` for counterexamples to induction.
@@ -33,9 +39,10 @@ from html import escape
 from pathlib import Path
 
 from verifier.about import CAUTION, __version__
-from verifier.errors import UsageError, VerifierError
+from verifier.errors import UsageError, VerifierError, visible
 from verifier.evidence import cexfile, ctistory, diagram, story
 from verifier.run import coverage
+from verifier.run.engine import proof_detail, proof_words
 from verifier.smt.solve import DEFAULT_RLIMIT, DEFAULT_TIMEOUT, SOLVER
 from verifier.world.scenario import fmt
 
@@ -228,14 +235,17 @@ def build(packs, results, diags, opts, *, explained: dict) -> tuple[dict, dict]:
                 "id": r.rule, "title": r.title, "line": r.line,
                 "given": rule.given.text if rule.given else None,
                 "implicit_premise": r.premise, "expect": rule.expect.text,
-                "refs": list(rule.refs), "bound": r.bound, "verdict": r.verdict,
+                "refs": list(rule.refs), "note": rule.note or None, "bound": r.bound, "verdict": r.verdict,
+                "proved_for": proof_words(r), "proof_detail": proof_detail(r) or None,
                 "error_kind": r.kind or None, "message": r.message, "minimal": r.minimal,
                 "solver": r.solver or SOLVER, "rlimit_budget": budget, "rlimit_used": r.rlimit,
                 "solver_checks": r.checks, "counterexample": cex, "witness": r.witness,
                 "role": r.role, "proof": r.proof, "counterexample_to_induction": cti,
             })
-            timings.append({"pack": pr.name, "rule": r.rule, "seconds": round(r.seconds, 3),
-                            "cached": r.cached})
+            t = {"pack": pr.name, "rule": r.rule, "seconds": round(r.seconds, 3), "cached": r.cached}
+            if r.original_seconds is not None:
+                t["original_seconds"] = round(r.original_seconds, 3)
+            timings.append(t)
         out_packs.append({"name": pack.name, "title": pack.title, "path": pack.path,
                           "sha256": pack.sha256, "assumptions": _assumptions(pack),
                           "scope": pr.scope, "rules": rules})
@@ -254,7 +264,9 @@ def build(packs, results, diags, opts, *, explained: dict) -> tuple[dict, dict]:
         "files": {"page": "index.html", "timings": "timings.json"},
     }
     total = round(sum(t["seconds"] for t in timings), 3)
-    return manifest, {"format": FORMAT, "rules": timings, "total_seconds": total}
+    original = round(sum(t.get("original_seconds", t["seconds"]) for t in timings), 3)
+    return manifest, {"format": FORMAT, "rules": timings, "total_seconds": total,
+                      "original_total_seconds": original}
 
 
 def write_report(out: Path, packs, results, diags, opts) -> Path:
@@ -313,15 +325,11 @@ def _copy_induction(out: Path, pack, name: str, r, explained: dict, stories: dic
 
 
 def proof_cell(r: dict) -> str:
-    """The kind of proof of a manifest rule, in words."""
+    """The kind of proof of a manifest rule, in the words of the table ("up to 2 legs", "any
+    number of legs", "at 7 legs"), with why an any-number proof was not made."""
     p = r.get("proof") or {}
-    if p.get("kind") == "induction":
-        lemmas = p.get("lemmas") or []
-        return (f"any number of legs (k-induction, depth {p['depth']}, base case {p['base_legs']} "
-                f"legs" + (f"; lemmas {', '.join(lemmas)}" if lemmas else "") + ")")
-    n = r["bound"]
-    out = f"{n} leg{'s' if n != 1 else ''}"
-    if p.get("induction"):
+    out = r.get("proved_for") or ""
+    if p.get("induction") and p.get("kind") != "induction":
         out += f"; not for any number ({p['induction']})"
     return out
 
@@ -329,54 +337,281 @@ def proof_cell(r: dict) -> str:
 # ---- the page --------------------------------------------------------------------------------
 
 CSS = """
+*{box-sizing:border-box}
+html{-webkit-text-size-adjust:100%}
 body{font-family:"DejaVu Sans",Verdana,Arial,sans-serif;font-size:14px;line-height:1.45;color:#1a1a1a;
- margin:0 auto;max-width:1180px;padding:16px 24px 48px;background:#fff}
-h1{font-size:24px;margin:8px 0 4px}h2{font-size:19px;margin:28px 0 8px;border-bottom:2px solid #1a1a1a;
- padding-bottom:2px}h3{font-size:16px;margin:22px 0 6px}
+ margin:0 auto;max-width:1180px;padding:16px 24px 48px;background:#fff;overflow-wrap:break-word}
+h1{font-size:24px;margin:8px 0 4px}
+h2{font-size:19px;margin:30px 0 8px;border-bottom:2px solid #1a1a1a;padding-bottom:2px}
+h3{font-size:16px;margin:0 0 6px}h4{font-size:14px;margin:14px 0 4px}
+a{color:#0b4f8a}
 table{border-collapse:collapse;width:100%;margin:6px 0 12px}
-th,td{border:1px solid #9a9a9a;padding:4px 6px;text-align:left;vertical-align:top}
-th{background:#ececec}code,pre{font-family:"DejaVu Sans Mono",Consolas,monospace;font-size:12.5px}
-pre{background:#f6f6f6;border:1px solid #cfcfcf;padding:8px 10px;white-space:pre-wrap}
+th,td{border:1px solid #9a9a9a;padding:4px 6px;text-align:left;vertical-align:top;overflow-wrap:anywhere}
+th{background:#ececec}thead{display:table-header-group}
+code,pre{font-family:"DejaVu Sans Mono",Consolas,monospace;font-size:12.5px}
+pre{background:#f6f6f6;border:1px solid #cfcfcf;padding:4px 10px;margin:0 0 6px;white-space:pre-wrap;
+ overflow-wrap:anywhere}
 .caution{border:3px double #1a1a1a;padding:10px 14px;background:#fffbe6;margin:12px 0}
 .verdict{font-weight:bold;white-space:nowrap}
 .v-holds{background:#e7f4ea}.v-violated,.v-vacuous{background:#fbe4e6}.v-unknown,.v-bounded{background:#fff3d6}
 .v-error{background:#efe3f7}
 .mark{display:inline-block;min-width:3.6em;border:1px solid #1a1a1a;padding:0 4px;margin-right:4px;
- text-align:center;font-size:11px;background:#fff}
-.muted{color:#555}.num{text-align:right;white-space:nowrap}
-.diagram{overflow-x:auto;border:1px solid #cfcfcf;margin:8px 0}
-dl.kv{display:grid;grid-template-columns:max-content 1fr;gap:2px 14px}dl.kv dt{font-weight:bold}
-dl.kv dd{margin:0}
+ text-align:center;font-size:11px;background:#fff;font-weight:bold}
+.muted{color:#555}.small{font-size:12.5px}.num{text-align:right;white-space:nowrap}
+.num div{white-space:normal}
+table.packs td.counts{white-space:nowrap}
+#rule-table{table-layout:fixed}
+#rule-table col.c-rule{width:52%}#rule-table col.c-verdict{width:14%}#rule-table col.c-proof{width:22%}
+#rule-table col.c-time{width:12%}
+#rule-table tr.pack-row th{background:#dcdcdc;font-size:13.5px}
+#rule-table .title{display:block}
+section.rule{border:1px solid #9a9a9a;border-left-width:6px;padding:10px 14px 6px;margin:14px 0}
+section.rule.v-holds{border-left-color:#2e7d32}section.rule.v-violated,section.rule.v-vacuous{border-left-color:#b71c1c}
+section.rule.v-bounded,section.rule.v-unknown{border-left-color:#a86b00}section.rule.v-error{border-left-color:#6a1b9a}
+section.rule,section.rule.v-holds,section.rule.v-violated,section.rule.v-vacuous,section.rule.v-bounded,
+section.rule.v-unknown,section.rule.v-error{background:#fff}
+.rule-head{display:flex;flex-wrap:wrap;gap:4px 12px;align-items:baseline}
+.back{margin-left:auto;font-size:12.5px}
+dl.kv{display:grid;grid-template-columns:max-content minmax(0,1fr);gap:2px 14px;margin:6px 0}
+dl.kv dt{font-weight:bold}dl.kv dd{margin:0;min-width:0}
+.diagram{border:1px solid #cfcfcf;margin:8px 0;max-width:100%}
+.diagram svg{display:block;max-width:100%;height:auto}
+details{margin:4px 0}
+ul.cites{list-style:none;margin:0;padding:0}ul.cites li{margin:1px 0}
+@media print{
+ @page{size:A4;margin:14mm 12mm}
+ body{max-width:none;padding:0;font-size:11pt}
+ *{-webkit-print-color-adjust:exact;print-color-adjust:exact}
+ a{color:inherit;text-decoration:none}
+ h2{break-after:avoid}h3,h4{break-after:avoid}
+ tr,.caution,dl.kv,pre,.diagram{break-inside:avoid}
+ section.rule{break-before:page;border:none;padding:0;margin:0}
+ .back,.no-print{display:none}
+ details>pre{white-space:pre-wrap}
+}
 """
+
+_SURROGATE = re.compile("[\ud800-\udfff]")
 
 
 def _e(x) -> str:
-    return escape("" if x is None else str(x))
+    """Text for the page: escaped, control characters and stray surrogates (a file name read
+    from bytes that are not UTF-8) written as visible escapes."""
+    text = "" if x is None else str(x)
+    text = _SURROGATE.sub(lambda m: f"\\u{ord(m.group()):04x}", visible(text, keep="\n\t"))
+    return escape(text)
 
 
-def _evidence(a, kind: str, p: dict, r: dict, story, c: dict | None, missing: str) -> None:
-    """One explained evidence file on the page: a counterexample (kind cex) or a counterexample
-    to induction (cti), its diagram and its story; or why there is none."""
-    a(f'<section class="{kind}" id="{kind}-{_e(p["name"])}-{_e(r["id"])}">')
-    a(f'<h3>{_e(p["name"])} / {_e(r["id"])}</h3>')
+def _plural(n: int, word: str) -> str:
+    return f"{n} {word}{'' if n == 1 else 's'}"
+
+
+def _anchors(manifest: dict) -> dict:
+    """A unique element id for each rule's section, keyed by (pack index, rule id); two packs
+    may share a name."""
+    out, seen = {}, set()
+    for i, p in enumerate(manifest["packs"]):
+        for r in p["rules"]:
+            base = f"rule-{p['name']}/{r['id']}"
+            anchor, n = base, 1
+            while anchor in seen:
+                n += 1
+                anchor = f"{base}~{n}"
+            seen.add(anchor)
+            out[(i, r["id"])] = anchor
+    return out
+
+
+def _counts(rules, verdicts=VERDICT_MARK) -> str:
+    n = {v: 0 for v in verdicts}
+    for r in rules:
+        n[r["verdict"]] += 1
+    return ", ".join(f"{c} {v}" for v, c in n.items() if c) or "none checked"
+
+
+def _pack_counts(rules) -> str:
+    own = [r for r in rules if r["role"] != "lemma"]
+    lemmas = [r for r in rules if r["role"] == "lemma"]
+    out = f"{_plural(len(own), 'rule')}: {_counts(own)}"
+    if lemmas:
+        out += f"; {_plural(len(lemmas), 'lemma')}: {_counts(lemmas)}"
+    return out
+
+
+def _time(t: dict | None, inline: bool = False) -> str:
+    """A rule's time cell: this run's seconds, and where the answers came from the cache the
+    seconds of the original solve."""
+    if t is None:
+        return ""
+    out = f'{t["seconds"]:.3f} s'
+    if "original_seconds" in t:
+        how = "from the cache" if t.get("cached") else "partly from the cache"
+        tag = "span" if inline else "div"
+        out += (f'{"; " if inline else ""}<{tag} class="muted small">{how}; solved in '
+                f'{t["original_seconds"]:.3f} s</{tag}>')
+    return out
+
+
+def _evidence(a, kind: str, r: dict, story, c: dict | None, missing: str, pack: str) -> None:
+    """One explained evidence file in a rule's section: a counterexample (kind cex) or a
+    counterexample to induction (cti), its diagram and its story; or why there is none."""
+    what = "Counterexample" if kind == "cex" else "Counterexample to induction"
+    a(f'<section class="{kind}" id="{kind}-{_e(pack)}/{_e(r["id"])}"><h4>{what}</h4>')
+    if kind == "cti":
+        a('<p class="muted small">A state in which the rule holds and, one leg later, one in which '
+          "it does not; the first state need not be reachable. It is not a counterexample: the "
+          "rule holds up to its bound and was not proved for any number of legs.</p>")
     if story is None:
         a(f'<p class="muted">{_e(missing)}</p></section>')
         return
     status, text, svg = story
     if status != "ok":
-        a(f'<p><strong>The {"counterexample " if kind == "cex" else ""}file failed its check and is '
-          f'not explained:</strong></p><pre>{_e(text)}</pre></section>')
+        a(f'<p><strong>The file failed its check and is not explained:</strong></p>'
+          f'<pre>{_e(text)}</pre></section>')
         return
-    a(f'<p>File <a href="{_e(c["file"])}">{_e(c["file"])}</a> (sha256 <code>{_e(c["sha256"])}</code>), '
-      f'diagram <a href="{_e(c["diagram"])}">{_e(c["diagram"])}</a>; {c["checked_values"]} recorded '
-      "values re-checked by simulation.</p>")
+    a(f'<p class="small">File <a href="{_e(c["file"])}">{_e(c["file"])}</a>, diagram '
+      f'<a href="{_e(c["diagram"])}">{_e(c["diagram"])}</a>; {c["checked_values"]} recorded values '
+      f're-checked by simulation. <span class="muted">sha256 <code>{_e(c["sha256"])}</code></span></p>')
     a(f'<div class="diagram">{svg}</div>')
-    a(f"<pre class=\"story\">{_e(text)}</pre></section>")
+    a(f'<pre class="story">{_e(text)}</pre></section>')
+
+
+def _first_screen(a, manifest: dict, timings: dict, anchors: dict) -> None:
+    """What holds, under what: the caution, the overall counts and the time, and per pack one
+    line with its counts and its scope."""
+    a(f'<div class="caution" id="caution"><strong>Caution.</strong> {_e(manifest["caution"])} '
+      'The verdicts below hold for the stated model and scope only (see '
+      '<a href="#assumptions">Assumptions</a>).</div>')
+    a('<h2 id="summary">What holds, under what</h2>')
+    rules = [r for p in manifest["packs"] for r in p["rules"]]
+    line = f"{_plural(sum(r['role'] != 'lemma' for r in rules), 'rule')}: {_counts([r for r in rules if r['role'] != 'lemma'])}"
+    lemmas = [r for r in rules if r["role"] == "lemma"]
+    if lemmas:
+        line += f"; {_plural(len(lemmas), 'lemma')}: {_counts(lemmas)}"
+    errors = len(manifest["input_errors"])
+    if errors:
+        line += f'; <a href="#input-errors">{_plural(errors, "input error")}</a> (those packs were not checked)'
+    a(f'<p id="overall"><strong>Overall.</strong> {line}.</p>')
+    rows = timings["rules"]
+    cached = sum(1 for t in rows if t.get("cached"))
+    partly = sum(1 for t in rows if "original_seconds" in t and not t.get("cached"))
+    words = f"<strong>Time.</strong> {timings['total_seconds']:.3f} s for the {_plural(len(rows), 'verdict')} in this run"
+    if cached or partly:
+        words += (f"; {cached} of them came from the cache"
+                  + (f" and {partly} in part" if partly else "")
+                  + " (the cached answers replayed in the simulator). Solving them took "
+                  f"{timings['original_total_seconds']:.3f} s when they were first solved")
+    a(f'<p id="time">{words}.</p>')
+    a('<table class="packs" id="pack-summary"><colgroup><col style="width:16%"><col style="width:15%">'
+      '<col style="width:21%"><col style="width:29%"><col style="width:19%"></colgroup>'
+      '<thead><tr><th>Pack</th><th>Verdicts</th>'
+      "<th>Legs and groups</th><th>World and odometry</th><th>Designs</th></tr></thead><tbody>")
+    for i, p in enumerate(manifest["packs"]):
+        parts = dict(coverage.parts(p["scope"])) if p.get("scope") else {}
+        name = f'<a href="#assumptions-{_e(p["name"])}">{_e(p["name"])}</a>'
+        legs = parts.get("scope", "")
+        if parts.get("own bound"):
+            legs += f"; own bounds: {parts['own bound']}"
+        world = "; ".join(x for x in (parts.get("world"), parts.get("odometry")) if x)
+        a(f'<tr class="pack" data-pack="{_e(p["name"])}"><td>{name}<div class="muted small">{_e(p["title"])}</div></td>'
+          f'<td>{_e(_pack_counts(p["rules"]))}</td><td>{_e(legs)}</td>'
+          f'<td class="small">{_e(world)}</td><td class="small">{_e(parts.get("designs", ""))}</td></tr>')
+    a("</tbody></table>")
+    o = manifest["options"]
+    a(f'<p class="muted small">Options: bound override {_e(o["legs"] if o["legs"] is not None else "none")}, '
+      f'rules {_e(", ".join(o["rules"]) or "all")}, resource budget (z3 rlimit) {o["rlimit_per_check"]} '
+      f'per solver check, wall-clock guard {_e(o["timeout_per_rule"])} s per rule. Contents: '
+      '<a href="#rule-table">verdicts</a>, <a href="#rules">rules in detail</a>, '
+      '<a href="#traceability">traceability</a>, <a href="#assumptions">assumptions</a>, '
+      '<a href="#packs">packs</a>.</p>')
+
+
+def _verdict(r: dict) -> str:
+    words = r["verdict"] + (f" ({r['error_kind']})" if r["error_kind"] else "")
+    return f'<span class="mark">{VERDICT_MARK[r["verdict"]]}</span>{_e(words)}'
+
+
+def _proof_small(r: dict) -> str:
+    """The proof column's second line: how, or why not for any number of legs."""
+    p = r.get("proof") or {}
+    if p.get("kind") == "induction":
+        lemmas = p.get("lemmas") or []
+        return f"k-induction, depth {p['depth']}" + (f", {_plural(len(lemmas), 'lemma')}" if lemmas else "")
+    if p.get("induction"):
+        return f"not for any number: {p['induction']}"
+    if p.get("deepened_from") is not None:
+        return f"base case deepened from {p['deepened_from']}"
+    return ""
+
+
+def _verdict_table(a, manifest: dict, secs: dict, anchors: dict) -> None:
+    a('<h2 id="verdicts">Verdicts</h2>')
+    a('<table id="rule-table"><colgroup><col class="c-rule"><col class="c-verdict"><col class="c-proof">'
+      '<col class="c-time"></colgroup><thead><tr><th>Rule</th><th>Verdict</th><th>Proof and bound</th>'
+      "<th>Time</th></tr></thead><tbody>")
+    for i, p in enumerate(manifest["packs"]):
+        a(f'<tr class="pack-row"><th colspan="4">{_e(p["name"])} <span class="muted">({_e(p["path"])}; '
+          f'{_e(_pack_counts(p["rules"]))})</span></th></tr>')
+        for r in p["rules"]:
+            anchor = anchors[(i, r["id"])]
+            small = _proof_small(r)
+            a(f'<tr class="rule v-{_e(r["verdict"])}" data-pack="{_e(p["name"])}" data-rule="{_e(r["id"])}" '
+              f'data-verdict="{_e(r["verdict"])}">'
+              f'<td>{"lemma " if r["role"] == "lemma" else ""}<a href="#{_e(anchor)}"><code>{_e(r["id"])}</code></a>'
+              f'<span class="title">{_e(r["title"])}</span></td>'
+              f'<td class="verdict">{_verdict(r)}</td>'
+              f'<td>{_e(r.get("proved_for"))}'
+              + (f'<div class="muted small">{_e(small)}</div>' if small else "") + "</td>"
+              f'<td class="num">{_time(secs.get((p["name"], r["id"])))}</td></tr>')
+    a("</tbody></table>")
+
+
+def _rule_section(a, p: dict, r: dict, anchor: str, t: dict | None, stories: dict) -> None:
+    role = "Lemma" if r["role"] == "lemma" else "Rule"
+    a(f'<section class="rule v-{_e(r["verdict"])}" id="{_e(anchor)}" data-pack="{_e(p["name"])}" '
+      f'data-rule="{_e(r["id"])}">')
+    a(f'<div class="rule-head"><h3>{_e(r["title"])}</h3><a class="back" href="#rule-table">back to the verdicts</a></div>')
+    a(f'<p class="small">{role} <code>{_e(r["id"])}</code> of pack {_e(p["name"])}, '
+      f'<code>{_e(p["path"])}:{r["line"]}</code></p>')
+    a('<dl class="kv">')
+    a(f'<dt>given</dt><dd><pre class="given">{_e(r["given"] or "(always)")}</pre></dd>')
+    if r["implicit_premise"]:
+        a(f'<dt>implicit premise</dt><dd><pre class="premise">{_e(r["implicit_premise"])}</pre></dd>')
+    a(f'<dt>expect</dt><dd><pre class="expect">{_e(r["expect"])}</pre></dd>')
+    a(f'<dt>refs</dt><dd>{"<br>".join(_e(x) for x in r["refs"]) or "<span class=muted>cites no clause</span>"}</dd>')
+    if r.get("note"):
+        a(f'<dt>note</dt><dd>{_e(r["note"])}</dd>')
+    a(f'<dt>verdict</dt><dd class="verdict">{_verdict(r)}</dd>')
+    proof = _e(proof_cell(r))
+    if r.get("proof_detail"):
+        proof += f'<div class="small">{_e(r["proof_detail"])}</div>'
+    elif (r.get("proof") or {}).get("deepened_from") is not None:
+        proof += f'<div class="small">base case deepened from {_e(r["proof"]["deepened_from"])} legs</div>'
+    a(f'<dt>{"proved for" if r["verdict"] == "holds" else "checked"}</dt><dd>{proof}</dd>')
+    if r["message"] and r["verdict"] != "holds":
+        label = {"violated": "failure", "vacuous": "why vacuous", "bounded": "why not proved",
+                 "unknown": "why undecided", "error": "error"}.get(r["verdict"], "detail")
+        a(f'<dt>{label}</dt><dd><pre class="detail">{_e(r["message"])}</pre></dd>')
+    a(f'<dt>time</dt><dd>{_time(t, inline=True)}</dd>')
+    a(f'<dt>solver</dt><dd>{_e(r["solver"])}; rlimit {r["rlimit_used"]} of {r["rlimit_budget"]} a check; '
+      f'{_plural(r["solver_checks"], "check")}</dd>')
+    a("</dl>")
+    if r["verdict"] == "violated":
+        _evidence(a, "cex", r, stories.get((p["name"], r["id"])), r["counterexample"],
+                  "No counterexample file was written (check ran with --no-files).", p["name"])
+    if r["verdict"] == "bounded":
+        _evidence(a, "cti", r, stories.get((p["name"], r["id"], "induction")),
+                  r["counterexample_to_induction"],
+                  "No counterexample to induction file was written.", p["name"])
+    a("</section>")
 
 
 def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
-    secs = {(t["pack"], t["rule"]): t["seconds"] for t in timings["rules"]}
-    cached = {(t["pack"], t["rule"]) for t in timings["rules"] if t.get("cached")}
+    secs = {(t["pack"], t["rule"]): t for t in timings["rules"]}
+    anchors = _anchors(manifest)
+    by_name = {}
+    for (i, rid), anchor in anchors.items():
+        by_name.setdefault((manifest["packs"][i]["name"], rid), anchor)
     tool = manifest["tool"]
     h: list[str] = []
     a = h.append
@@ -387,116 +622,50 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
     a("<title>verifier evidence report</title>")
     a(f"<style>{CSS}</style></head><body>")
     a("<h1>Evidence report</h1>")
-    a(f'<p class="muted">Generated {_e(manifest["generated"])} by verifier {_e(tool["verifier"])} '
+    a(f'<p class="muted small">Generated {_e(manifest["generated"])} by verifier {_e(tool["verifier"])} '
       f'with {_e(tool["solver"])} on Python {_e(tool["python"])} ({_e(tool["python_implementation"])}). '
       'Manifest: <a href="manifest.json">manifest.json</a>; timings: <a href="timings.json">timings.json</a>.</p>')
-    a(f'<div class="caution" id="caution"><strong>Caution.</strong> {_e(manifest["caution"])} '
-      "The verdicts below hold for the stated model and scope only: see Assumptions.</div>")
-    s = manifest["summary"]
-    a('<h2 id="summary">Summary</h2><p>' + ", ".join(f"{s[k]} {k}" for k in VERDICT_MARK)
-      + f"; {len(manifest['input_errors'])} input error(s). Total solver time "
-        f"{timings['total_seconds']} s.</p>")
-    o = manifest["options"]
-    a(f'<p class="muted">Options: bound override {_e(o["legs"] if o["legs"] is not None else "none")}, '
-      f'rules {_e(", ".join(o["rules"]) or "all")}, resource budget (z3 rlimit) {o["rlimit_per_check"]} '
-      f'per solver check, wall-clock guard {_e(o["timeout_per_rule"])} s per rule.</p>')
+    _first_screen(a, manifest, timings, anchors)
+    _verdict_table(a, manifest, secs, anchors)
 
-    # what each pack's verdicts cover
-    a('<h2 id="scope">Scope of the verdicts</h2>')
-    a('<p class="muted">Every verdict of a pack rests on this scope: the bound of movement legs '
-      "(or any number, with the base case and depth of the induction), the world's ranges and "
-      "error bounds, and the designs assessed (details under Assumptions).</p>")
-    for p in manifest["packs"]:
-        if not p.get("scope"):
-            continue
-        a(f'<h3 id="scope-{_e(p["name"])}">{_e(p["name"])}</h3><dl class="kv scope">')
-        for label, text in coverage.parts(p["scope"]):
-            a(f"<dt>{_e(label)}</dt><dd>{_e(text)}</dd>")
-        a("</dl>")
-
-    # rules
-    a('<h2 id="rules">Rules</h2>')
-    a('<table id="rule-table"><thead><tr><th>Pack</th><th>Rule</th><th>Verdict</th><th>Proved for</th>'
-      '<th>Time</th><th>Solver</th><th>rlimit used / budget</th><th>Checks</th><th>Cites</th></tr></thead><tbody>')
-    for p in manifest["packs"]:
+    a('<h2 id="rules">Rules in detail</h2>')
+    for i, p in enumerate(manifest["packs"]):
         for r in p["rules"]:
-            anchor = f"rule-{p['name']}-{r['id']}"
-            verdict = r["verdict"] + (f" ({r['error_kind']})" if r["error_kind"] else "")
-            text = "".join([
-                f'<div><strong>{_e(r["title"])}</strong></div>',
-                f'<div><span class="muted">given</span> <code>{_e(r["given"] or "(always)")}</code></div>',
-                (f'<div><span class="muted">implicit premise</span> <code>{_e(r["implicit_premise"])}</code></div>'
-                 if r["implicit_premise"] else ""),
-                f'<div><span class="muted">expect</span> <code>{_e(r["expect"])}</code></div>',
-                (f'<div class="muted">{_e(r["message"])}</div>' if r["message"] and r["verdict"] != "holds" else ""),
-                (f'<div><a href="#cex-{_e(p["name"])}-{_e(r["id"])}">counterexample</a></div>'
-                 if r["counterexample"] else ""),
-                (f'<div><a href="#cti-{_e(p["name"])}-{_e(r["id"])}">counterexample to induction</a></div>'
-                 if r["counterexample_to_induction"] else ""),
-            ])
-            a(f'<tr class="rule v-{_e(r["verdict"])}" id="{_e(anchor)}" data-pack="{_e(p["name"])}" '
-              f'data-rule="{_e(r["id"])}" data-verdict="{_e(r["verdict"])}">'
-              f'<td>{_e(p["name"])}<div class="muted">{_e(p["path"])}:{r["line"]}</div></td>'
-              f'<td>{"lemma " if r["role"] == "lemma" else ""}<code>{_e(r["id"])}</code>{text}</td>'
-              f'<td class="verdict"><span class="mark">{VERDICT_MARK[r["verdict"]]}</span>{_e(verdict)}</td>'
-              f'<td>{_e(proof_cell(r))}</td>'
-              f'<td class="num">{secs.get((p["name"], r["id"]), 0):.3f} s'
-              f'{" (cached verdict, replayed)" if (p["name"], r["id"]) in cached else ""}</td>'
-              f'<td>{_e(r["solver"])}</td>'
-              f'<td class="num">{r["rlimit_used"]} / {r["rlimit_budget"]}</td>'
-              f'<td class="num">{r["solver_checks"]}</td>'
-              f'<td>{"<br>".join(_e(x) for x in r["refs"]) or "<span class=muted>none</span>"}</td></tr>')
-    a("</tbody></table>")
+            _rule_section(a, p, r, anchors[(i, r["id"])], secs.get((p["name"], r["id"])), stories)
 
     # traceability
     a('<h2 id="traceability">Traceability</h2>')
     a('<p class="muted">Each clause cited by a rule (the refs of the pack, as written), the rules '
-      "citing it and their verdicts.</p>")
-    a('<table id="trace-table"><thead><tr><th>Clause</th><th>Rules citing it</th><th>Verdicts</th></tr></thead><tbody>')
+      "citing it and their verdicts; the last row holds the rules that cite no clause.</p>")
+    a('<table id="trace-table"><colgroup><col style="width:28%"><col></colgroup><thead><tr><th>Clause</th>'
+      "<th>Rules citing it, with their verdicts</th></tr></thead><tbody>")
     for row in manifest["traceability"]:
-        rules = "<br>".join(f'<a href="#rule-{_e(x["pack"])}-{_e(x["rule"])}">{_e(x["pack"])}/{_e(x["rule"])}</a>'
-                            for x in row["rules"])
-        verdicts = "<br>".join(f'<span class="mark">{VERDICT_MARK[x["verdict"]]}</span>{_e(x["verdict"])}'
-                               for x in row["rules"])
-        a(f'<tr class="clause"><td>{_e(row["clause"])}</td><td>{rules}</td><td>{verdicts}</td></tr>')
+        rules = "".join(f'<li><span class="mark">{VERDICT_MARK[x["verdict"]]}</span>{_e(x["verdict"])} '
+                        f'<a href="#{_e(by_name[(x["pack"], x["rule"])])}">{_e(x["pack"])}/{_e(x["rule"])}</a></li>'
+                        for x in row["rules"])
+        none = row["clause"] == "(no clause cited)"
+        a(f'<tr class="clause{" no-clause" if none else ""}"><td>'
+          + ("<em>no clause cited</em>" if none else _e(row["clause"]))
+          + f'</td><td><ul class="cites">{rules}</ul></td></tr>')
     a("</tbody></table>")
-
-    # counterexamples
-    a('<h2 id="counterexamples">Counterexamples</h2>')
-    any_cex = False
-    for p in manifest["packs"]:
-        for r in p["rules"]:
-            key = (p["name"], r["id"])
-            if r["verdict"] != "violated":
-                continue
-            any_cex = True
-            _evidence(a, "cex", p, r, stories.get(key), r["counterexample"],
-                      "No counterexample file was written (check ran with --no-files).")
-    if not any_cex:
-        a("<p>No rule was violated.</p>")
-
-    # counterexamples to induction
-    ctis = [(p, r) for p in manifest["packs"] for r in p["rules"] if r["verdict"] == "bounded"]
-    if ctis:
-        a('<h2 id="induction">Counterexamples to induction</h2>')
-        a('<p class="muted">Rules that hold up to their bound but were not proved for any number of '
-          "legs. Each file shows a state in which the rule holds and, one leg later, one in which it "
-          "does not; the first state need not be reachable. They are not counterexamples.</p>")
-    for p, r in ctis:
-        _evidence(a, "cti", p, r, stories.get((p["name"], r["id"], "induction")),
-                  r["counterexample_to_induction"], r["message"])
 
     # assumptions
     a('<h2 id="assumptions">Assumptions of the model</h2>')
-    a("<p>The verdicts quantify over the worlds of the model of the design contract (one balise group, "
-      "relative positioning in the LRBG frame, odometry with split over- and under-reading bounds, "
+    a("<p>The verdicts quantify over the worlds of the model of the design contract (one or two balise "
+      "groups, relative positioning in the LRBG frame, odometry with split over- and under-reading bounds, "
       "exact arithmetic) inside each pack's scope, up to each rule's bound of movement legs, or for any "
       "number of legs where the table says so (k-induction over the legs, DESIGN 4.7). These are "
       "the scope and error bounds actually used, and the onboard and trackside formulas assessed.</p>")
     for p in manifest["packs"]:
         asm = p["assumptions"]
         w = asm["world"]
-        a(f'<h3 id="assumptions-{_e(p["name"])}">{_e(p["name"])}: {_e(p["title"])}</h3><dl class="kv">')
+        a(f'<h3 id="assumptions-{_e(p["name"])}">{_e(p["name"])}: {_e(p["title"])}</h3>')
+        if p.get("scope"):    # what the verdicts cover, as in the first screen
+            a(f'<dl class="kv scope" id="scope-{_e(p["name"])}">')
+            for label, text in coverage.parts(p["scope"]):
+                a(f"<dt>{_e(label)}</dt><dd>{_e(text)}</dd>")
+            a("</dl>")
+        a('<dl class="kv">')
         rows = [("balises", f"{w['balises'][0]}..{w['balises'][1]}"),
                 ("location accuracy (Q_LOCACC)", f"{w['locacc'][0]} m .. {w['locacc'][1]} m"),
                 ("train length", f"{w['train_length'][0]} m .. {w['train_length'][1]} m"),
@@ -513,7 +682,8 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
         for k, v in asm["params"].items():
             a(f"<dt>params.{_e(k)}</dt><dd>{_e(v)}</dd>")
         a("</dl>")
-        a('<table class="formulas"><thead><tr><th>Output</th><th>Formula</th><th>From</th></tr></thead><tbody>')
+        a('<table class="formulas"><colgroup><col style="width:22%"><col><col style="width:9%"></colgroup>'
+          '<thead><tr><th>Output</th><th>Formula</th><th>From</th></tr></thead><tbody>')
         for side in ("onboard", "trackside"):
             for k, f in asm[side].items():
                 a(f'<tr><td><code>{"est" if side == "onboard" else "rbc"}.{_e(k)}</code></td>'
@@ -521,12 +691,13 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
         a("</tbody></table>")
 
     # packs
-    a('<h2 id="packs">Packs</h2><table id="pack-table"><thead><tr><th>Name</th><th>Path</th><th>sha256</th></tr></thead><tbody>')
+    a('<h2 id="packs">Packs</h2><table id="pack-table"><colgroup><col style="width:18%"><col style="width:34%">'
+      '<col></colgroup><thead><tr><th>Name</th><th>Path</th><th>sha256</th></tr></thead><tbody>')
     for p in manifest["packs"]:
         a(f'<tr><td>{_e(p["name"])}</td><td>{_e(p["path"])}</td><td><code>{_e(p["sha256"])}</code></td></tr>')
     a("</tbody></table>")
     for pack in packs:
-        a(f'<details><summary>Source of {_e(pack.path)}</summary><pre>{_e(pack.text)}</pre></details>')
+        a(f'<details class="no-print"><summary>Source of {_e(pack.path)}</summary><pre>{_e(pack.text)}</pre></details>')
     if manifest["input_errors"]:
         a('<h2 id="input-errors">Input errors (these packs were not checked)</h2><ul>')
         for d in manifest["input_errors"]:

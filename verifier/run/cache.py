@@ -32,7 +32,10 @@ and a world today's encoding cannot evaluate makes the hit a miss.
 Only fully decided results are stored (holds, violated, vacuous, minimised to the end):
 ``unknown`` and anything cut short by a budget are never cached, because another run with more
 time could decide them. What is cached is the solver's answer, not the verdict: a cached world
-is replayed in the simulator and the files are written exactly as after a fresh solve.
+is replayed in the simulator and the files are written exactly as after a fresh solve. Each
+entry also records how many seconds the original solve took (encoding and solving), so that a
+report built from the cache can say what the work cost when it was done, beside the replay's
+own time (``RuleResult.original_seconds``).
 
 The directory is safe to delete. A file that does not parse, has a foreign format, names another
 key or fails its own checksum is ignored with a warning (and overwritten by the next store).
@@ -56,8 +59,10 @@ from verifier.lang.pack import RawInfo
 from verifier.smt import smtlib
 from verifier.smt.solve import Solved
 
-FORMAT = "verifier-cache/3"   # 3: the key is the canonical obligation document (obligation())
-DATA_FORMAT = "verifier-cache-data/2"   # other decided answers (the induction step, DESIGN 4.7)
+FORMAT = "verifier-cache/4"   # 3: the key is the canonical obligation document (obligation());
+                              # 4: an entry records the seconds its original solve took
+DATA_FORMAT = "verifier-cache-data/3"   # other decided answers (the induction step, DESIGN 4.7);
+                                        # 3: with the seconds of the original step
 DEFAULT_DIR = Path(".verifier-cache")
 _VERDICTS = ("holds", "violated", "vacuous")
 
@@ -203,8 +208,8 @@ def _fields() -> dict:
     return {k: _TYPES.get(k, (int, float, str, bool, type(None))) for k in attrs.fields_dict(Solved)}
 
 
-def _payload(solved) -> dict:
-    return {k: _enc(getattr(solved, k)) for k in _fields()}
+def _payload(solved, seconds: float) -> dict:
+    return {**{k: _enc(getattr(solved, k)) for k in _fields()}, "seconds": float(seconds)}
 
 
 class Cache:
@@ -256,15 +261,23 @@ class Cache:
 
     def get(self, key: str):
         """The cached result for ``key``, or None (missing, corrupted or foreign)."""
+        got = self.lookup(key)
+        return None if got is None else got[0]
+
+    def lookup(self, key: str):
+        """The cached result for ``key`` and the seconds its original solve took, or None."""
         got = self._read(key, FORMAT, "solved")
         if got is None:
             return None
         path, payload = got
         try:
             fields = _fields()
-            if set(payload) != set(fields):
+            if set(payload) != {*fields, "seconds"}:
                 raise ValueError("unexpected fields")
-            data = {k: _dec(v) for k, v in payload.items()}
+            seconds = payload["seconds"]
+            if not isinstance(seconds, (int, float)) or isinstance(seconds, bool) or not 0 <= seconds < 1e9:
+                raise ValueError("field seconds has the wrong type")
+            data = {k: _dec(v) for k, v in payload.items() if k != "seconds"}
             for k, ty in fields.items():
                 if not isinstance(data[k], ty) or (ty is int and isinstance(data[k], bool)):
                     raise ValueError(f"field {k} has the wrong type")
@@ -274,7 +287,7 @@ class Cache:
         if solved.verdict not in _VERDICTS or not solved.minimal:
             return self._ignore(path, "it records an undecided result")
         self.hits += 1
-        return solved
+        return solved, float(seconds)
 
     def get_data(self, key: str) -> dict | None:
         """Plain data stored by :meth:`put_data` (the outcome of an induction step), or None."""
@@ -296,11 +309,12 @@ class Cache:
         self.hits -= 1
         self.misses += 1
 
-    def put(self, key: str, solved, witness: bool = True) -> bool:
-        """Store a decided result; undecided ones are refused. Returns whether it was stored."""
+    def put(self, key: str, solved, witness: bool = True, seconds: float = 0.0) -> bool:
+        """Store a decided result with the ``seconds`` its solve took; undecided ones are
+        refused. Returns whether it was stored."""
         if not cacheable(solved, witness):
             return False
-        return self._write(key, FORMAT, "solved", _payload(solved))
+        return self._write(key, FORMAT, "solved", _payload(solved, seconds))
 
     def put_data(self, key: str, data: dict) -> bool:
         """Store plain data (a decided induction outcome: the caller refuses undecided ones)."""

@@ -60,6 +60,10 @@ class RuleResult:
     premise: str | None = None
     solver_seconds: float = 0.0
     cached: bool = False    # the solver's answer came from .verifier-cache/ (replayed all the same)
+    # Set when some of the solver's answers came from the cache: the seconds the verdict took
+    # when those answers were solved (this run's seconds plus what their original solves
+    # took, recorded with the cache entries). None when everything was solved in this run.
+    original_seconds: float | None = None
     role: str = "rule"      # or "lemma"
     proof: dict | None = None   # what kind of proof the verdict rests on (see proof_words)
     induction: str | None = None  # the counterexample to induction file, for verdict bounded
@@ -156,8 +160,12 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None,
                 cached=bool(getattr(presolved, "cached", False)), role=rule.role,
                 proof={"kind": "bounded", "legs": bound})
 
+    recorded = getattr(presolved, "recorded", 0.0) if base["cached"] else None
+
     def result(verdict, **kw):
-        return RuleResult(verdict=verdict, seconds=time.monotonic() - t0, **{**base, **kw})
+        seconds = time.monotonic() - t0
+        return RuleResult(verdict=verdict, seconds=seconds, **{**base, **kw},
+                          original_seconds=None if recorded is None else seconds + recorded)
 
     if solved.verdict == "vacuous":
         if pack.unbounded_for(rule, opts.legs):   # decided for any number of legs later
@@ -295,8 +303,33 @@ def usable_lemmas(proved, bound: int) -> tuple:
                  and (res.unbounded or res.bound >= bound))
 
 
+class _Saved:
+    """What the cache saved a verdict for any number of legs: the recorded seconds of the
+    original solves of its cached answers, less this run's time spent replaying them."""
+
+    def __init__(self, base: RuleResult):
+        self.any = base.original_seconds is not None
+        self.seconds = base.original_seconds - base.seconds if self.any else 0.0
+
+    def add(self, cached: bool, recorded: float, spent: float = 0.0) -> None:
+        if cached:
+            self.any = True
+            self.seconds += max(0.0, recorded - spent)
+
+    def total(self, seconds: float) -> float | None:
+        return seconds + self.seconds if self.any else None
+
+
 def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: int,
                 opts: CheckOptions, files) -> RuleResult:
+    """:func:`_steps`, with the original seconds of the answers it took from the cache."""
+    saved = _Saved(base)
+    res = _steps(pack, rule, base, lemmas, bound, opts, files, saved)
+    return attrs.evolve(res, original_seconds=saved.total(res.seconds))
+
+
+def _steps(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: int,
+           opts: CheckOptions, files, saved: _Saved) -> RuleResult:
     """After a base case up to ``bound`` legs that holds or is vacuous (DESIGN 4.7): the
     induction step of the rule, or for a vacuous one the step of "the given never holds";
     when that is not proved, the base case deepened (``bound`` + 1, + 2, ... up to
@@ -306,8 +339,10 @@ def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: 
     t0 = time.monotonic() - base.seconds
 
     def prove(r, b):
-        return induct.prove(pack, r, lemmas, b, depth=opts.induction_depth, rlimit=opts.rlimit,
-                            timeout=opts.timeout, cache=opts.cache)
+        out = induct.prove(pack, r, lemmas, b, depth=opts.induction_depth, rlimit=opts.rlimit,
+                           timeout=opts.timeout, cache=opts.cache)
+        saved.add(out.cached, out.recorded, out.seconds)
+        return out
 
     def failed(out):
         return attrs.evolve(base, verdict="error", kind="internal", message=out.error,
@@ -346,6 +381,7 @@ def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: 
         solved = pre.solved
         spent += solved.rlimit
         cached = cached and pre.cached
+        saved.add(pre.cached, pre.recorded)
         if solved.verdict == "vacuous":
             last = n
             continue
@@ -353,8 +389,9 @@ def _any_number(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: 
             stop = f"the check at {n} legs ran out of the deepening budget"
             break
         if res.verdict == "violated" and not res.minimal and budget - spent < induct.rule_rlimit(opts.rlimit):
-            res, _ = _deepened(pack, rule, opts, n, induct.rule_rlimit(opts.rlimit), left, False, files,
-                               lemmas)
+            res, again = _deepened(pack, rule, opts, n, induct.rule_rlimit(opts.rlimit), left, False,
+                                   files, lemmas)
+            saved.add(again.cached, again.recorded)
         if res.verdict == "violated":
             proof = {"kind": "bounded", "legs": n, "deepened_from": bound}
             step = (out or never).proof.get("induction")

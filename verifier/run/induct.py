@@ -158,6 +158,7 @@ class Outcome:
     plan: Plan | None = None
     decided: bool = True      # no budget ran out (only decided outcomes are cached)
     cached: bool = False
+    recorded: float = 0.0     # from the cache: the seconds the original step took
 
 
 def prove(pack: Pack, rule: Rule, lemmas: tuple, bound: int, *, depth: int = DEFAULT_DEPTH,
@@ -178,7 +179,7 @@ def prove(pack: Pack, rule: Rule, lemmas: tuple, bound: int, *, depth: int = DEF
     out = _prove(pack, rule, lemmas, bound, depth, rlimit, timeout, t0)
     if key is not None and not out.error and out.decided:
         cache.put_data(key, {"verdict": out.verdict, "proof": out.proof, "message": out.message,
-                             "cti": out.cti, "minimal": out.minimal})
+                             "cti": out.cti, "minimal": out.minimal, "seconds": float(out.seconds)})
     return out
 
 
@@ -188,8 +189,8 @@ def _confirm(pack, rule, lemmas, plan, hit: dict, t0: float):
     try:
         cti = hit["cti"]
         base = dict(verdict=hit["verdict"], proof=hit["proof"], message=hit["message"],
-                    minimal=hit["minimal"], plan=plan)
-    except (KeyError, TypeError):
+                    minimal=hit["minimal"], plan=plan, recorded=float(hit["seconds"]))
+    except (KeyError, TypeError, ValueError):
         return None
     if cti is None:
         return Outcome(**base, seconds=time.monotonic() - t0)

@@ -38,6 +38,7 @@ class Presolved:
     solved: object          # verifier.smt.solve.Solved
     seconds: float          # time spent encoding and solving (0 for a cache hit)
     cached: bool = False
+    recorded: float = 0.0   # a cache hit: the seconds its original solve took
 
 
 def _work(query, limits: dict):
@@ -153,27 +154,29 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
         limits["timeout"] = timeout
     if rlimit is not None:
         limits["rlimit"] = rlimit
-    plan = []
+    plan, took = [], []      # took: the recorded seconds of each cache hit
     evaluators: dict = {}
     for n, (pack, rule) in enumerate(todo):
         bound = pack.bound_for(rule, legs) if bounds is None else bounds[n]
         key = rule_key(pack, rule, bound, witness) if cache is not None else None
-        hit = cache.get(key) if key is not None else None
+        got = cache.lookup(key) if key is not None else None
+        hit, recorded = got if got is not None else (None, 0.0)
         if hit is not None and hit.world is not None:
             hit = _today(hit, pack, bound, evaluators)
             if hit is None:
                 cache.count_as_miss()
         plan.append((pack, rule, bound, key, hit, assume[n] if assume is not None else ()))
+        took.append(recorded)
 
     def done(key, solved, seconds) -> Presolved:
         if cache is not None:
-            cache.put(key, solved, witness)
+            cache.put(key, solved, witness, seconds)
         return Presolved(solved, seconds)
 
     if jobs == 1 or sum(1 for p in plan if p[4] is None) <= 1:
-        for pack, rule, bound, key, hit, lemmas in plan:
+        for (pack, rule, bound, key, hit, lemmas), recorded in zip(plan, took):
             if hit is not None:
-                yield Presolved(hit, 0.0, True)
+                yield Presolved(hit, 0.0, True, recorded)
                 continue
             t0 = time.monotonic()
             query = smtlib.export_rule(pack, rule, bound, lemmas)
@@ -183,9 +186,9 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
 
     if pool is None:
         with open_pool(jobs) as own:
-            yield from _in_pool(own, plan, limits, done)
+            yield from _in_pool(own, plan, took, limits, done)
         return
-    yield from _in_pool(pool.get(), plan, limits, done, shared=True)
+    yield from _in_pool(pool.get(), plan, took, limits, done, shared=True)
 
 
 class SharedPool:
@@ -214,7 +217,7 @@ class SharedPool:
         return False
 
 
-def _in_pool(pool, plan, limits, done, shared: bool = False):
+def _in_pool(pool, plan, took, limits, done, shared: bool = False):
     """Submit every query the cache did not answer to ``pool``; yield the results in order.
     A caller that stops asking (the generator closed) cancels what is left; a shared pool
     stays open for the next caller, unless it is an interrupt or an error."""
@@ -227,7 +230,7 @@ def _in_pool(pool, plan, limits, done, shared: bool = False):
                 futures[i] = (pool.submit(_work, query, limits), time.monotonic() - t0)
         for i, (pack, rule, bound, key, hit, _) in enumerate(plan):
             if hit is not None:
-                yield Presolved(hit, 0.0, True)
+                yield Presolved(hit, 0.0, True, took[i])
                 continue
             future, export_seconds = futures[i]
             try:
