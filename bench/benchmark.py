@@ -1,7 +1,7 @@
 """Benchmark: how long the shipped packs take, how much of it is the solver, and how the time
 grows with the bound. Prints figures side by side in one run; it is not a test.
 
-    .venv/bin/python bench/benchmark.py            # all of rules/, K = 1, 2, 4
+    .venv/bin/python bench/benchmark.py            # all of rules/, K = 1, 2, 4, 8
     .venv/bin/python bench/benchmark.py --quick    # K = 1, 2 only
 
 It also times the proofs for any number of legs (DESIGN 4.7) of the packs that ask for them
@@ -64,6 +64,33 @@ def any_vs_bounded(packs) -> None:
               f"ratio any / K=3 = {t_any / t_k3:.2f}")
 
 
+def without_lemmas(packs) -> None:
+    """Each rule of a pack for any number of legs, proved with the pack's lemmas taken out:
+    what a user meets who has not written the lemma yet (the induction step fails, the base
+    case is deepened within its budget, the answer is bounded)."""
+    import tempfile
+
+    from verifier.run.loader import load_pack
+    for pack in packs:
+        if not pack.lemmas or not any(pack.unbounded_for(r) for r in pack.rules):
+            continue
+        text = Path(pack.path).read_text(encoding="utf-8")
+        if text.rfind("[[lemma]]") > text.index("[[rule]]"):
+            continue                   # lemmas among the rules: not cut out here
+        bare = text[:text.index("[[lemma]]")] + text[text.index("[[rule]]"):]
+        with tempfile.TemporaryDirectory() as tmp:
+            path = Path(tmp) / Path(pack.path).name
+            path.write_text(bare, encoding="utf-8")
+            stripped = load_pack(path)
+            worst = (0.0, "")
+            t0 = time.perf_counter()
+            for res in check_packs([stripped], CheckOptions(out=None))[0].results:
+                worst = max(worst, (res.seconds, f"{res.rule} ({res.verdict})"))
+            total = time.perf_counter() - t0
+        print(f"any number of legs without lemmas, {pack.name}: {total:6.2f} s for "
+              f"{len(stripped.rules)} rules; slowest {worst[1]} {worst[0]:.2f} s")
+
+
 def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("paths", nargs="*", default=[str(ROOT / "rules")])
@@ -78,15 +105,18 @@ def main() -> int:
     total, solver, n, verdicts = run(packs)
     print(f"default bounds: {n} rules in {total:.2f} s; inside the solver {solver:.2f} s; "
           f"solver / total = {solver / total:.2f}; {verdicts}")
-    bounds = (1, 2) if args.quick else (1, 2, 4)
+    bounds = (1, 2) if args.quick else (1, 2, 4, 8)
     times = {}
     for k in bounds:
         t, s, n, v = run(packs, legs=k)
         times[k] = t
         print(f"K = {k}: {t:7.2f} s total, {s:7.2f} s solver ({s / t:.2f}), {v}")
     base = times[bounds[0]]
-    print("growth: " + ", ".join(f"K={k}: x{times[k] / base:.1f}" for k in bounds))
+    print("growth: " + ", ".join(f"K={k}: x{times[k] / base:.1f}" for k in bounds)
+          + (f"; K=8 / K=4 = x{times[8] / times[4]:.2f}" if 8 in times else ""))
     any_vs_bounded(packs)
+    if not args.quick:
+        without_lemmas(packs)
     two_groups_vs_one(packs)
     try:
         from bench_edits import report as edits_report  # added by the cache/jobs work
