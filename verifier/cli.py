@@ -264,8 +264,9 @@ def cmd_test(args) -> int:
 def cmd_replay(args) -> int:
     outcomes = replay_paths(args.paths or ["counterexamples"], impl=args.impl, search=tuple(args.path or ()))
     width = max((len(o.file) for o in outcomes), default=10)
+    status = max([15] + [len(o.status) for o in outcomes])     # "still not inductive" is 19
     for o in outcomes:
-        print(f"{o.status:<15} {o.file:<{width}}  {o.detail}")
+        print(f"{o.status:<{status}} {o.file:<{width}}  {o.detail}")
     if not outcomes:
         print("no counterexample files found")
     counts: dict = {}

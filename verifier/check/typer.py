@@ -24,6 +24,7 @@ from verifier.check.model import Formula, Pack, Rule
 from verifier.errors import Diagnostic, PackError, suggest
 from verifier.lang import ast, vocab
 from verifier.lang.ast import BOOL, COUNT, DIRECTION, LENGTH, NUMBER, NUMERIC, ZERO
+from verifier.lang.numbers import counted
 from verifier.lang.pack import RawExpr, RawPack
 
 FUNCTIONS = ("abs", "min", "max", "flip", "side", "along", "floor_to", "ceil_to", "round_to")
@@ -716,7 +717,7 @@ def _check_pack(raw: RawPack) -> Pack:
         unbounded = r.unbounded if r.unbounded is not None else raw.unbounded
         if max_leg > bound and not unbounded:
             warnings.append(raw.source.at_key(
-                r.expect.key, f"{r.role} {r.id} reads legs[{max_leg}] but its bound is {bound} legs: "
+                r.expect.key, f"{r.role} {r.id} reads legs[{max_leg}] but its bound is {counted(bound, 'leg')}: "
                 "it can never apply (vacuous) unless checked with more --legs", severity="warning"))
         rules.append(rule)
 
