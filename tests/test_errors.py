@@ -3,12 +3,14 @@ exit code 2, no traceback, and no counterexample file. Golden texts are written 
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 
 from conftest import pack_text, rule_toml
 from verifier.cli import main
 from verifier.errors import PackError
-from verifier.run.loader import load_pack
+from verifier.run.loader import load_all, load_pack
 
 
 def _errors(write_pack, text):
@@ -147,3 +149,60 @@ def test_cli_misspelt_rule_id_gets_a_suggestion(tmp_path, capsys, monkeypatch):
     (tmp_path / "p.toml").write_text(pack_text(rule_toml("real-front-inside-interval", "true")))
     assert main(["check", "p.toml", "--rule", "real-front-inside-intervl"]) == 2
     assert "did you mean 'real-front-inside-interval'?" in capsys.readouterr().err
+
+
+# ---- definitions nothing reads: a warning at the key, the check goes on
+
+UNUSED = """
+[params]
+spare = "5 m"
+margin = "2 m"
+
+[let]
+idle = "legs.count == 1"
+short = "legs.count <= 1"
+"""
+
+
+def test_unused_param_and_let_are_warned_at_their_keys_golden(write_pack):
+    text = pack_text(rule_toml("a", "short and train.length >= params.margin"), extra=UNUSED)
+    pack = load_pack(write_pack(text), "p.toml")
+    assert [d.render() for d in pack.warnings] == [
+        "p.toml:7:1: warning: parameter 'spare' is never read: no rule, lemma, design formula, "
+        "let or other parameter uses it\n"
+        '    spare = "5 m"\n'
+        "    ^~~~~",
+        "p.toml:11:1: warning: let 'idle' is never read: no rule, lemma, design formula or other "
+        "let uses it\n"
+        '    idle = "legs.count == 1"\n'
+        "    ^~~~",
+    ]
+
+
+def test_a_name_read_by_another_definition_is_used(write_pack):
+    # spare read by the parameter margin, idle by the let short, margin by the onboard design;
+    # a quantifier variable named like a let does not read it
+    extra = UNUSED.replace('margin = "2 m"', 'margin = "params.spare + 2 m"').replace(
+        'short = "legs.count <= 1"', 'short = "idle or legs.count == 0"') + '\nshadow = "true"\n'
+    text = pack_text(rule_toml("a", "short and all(shadow in legs: shadow.distance >= 0 m)"),
+                     onboard='l_doubtover = "lrbg.locacc + params.margin + est.bound_over"',
+                     extra=extra)
+    pack = load_pack(write_pack(text), "p.toml")
+    assert [d.message for d in pack.warnings] == [
+        "let 'shadow' is never read: no rule, lemma, design formula or other let uses it"]
+
+
+def test_unused_names_warn_on_stderr_and_leave_the_verdicts(write_pack, tmp_path, monkeypatch, capsys):
+    path = write_pack(pack_text(rule_toml("a", "legs.count >= 0"), legs=1, extra=UNUSED))
+    monkeypatch.chdir(tmp_path)
+    assert main(["check", str(path), "--no-files", "--no-cache"]) == 0      # warnings only
+    err = capsys.readouterr().err
+    assert "warning: parameter 'spare' is never read" in err
+    assert "warning: parameter 'margin' is never read" in err
+    assert "warning: let 'idle' is never read" in err and "warning: let 'short' is never read" in err
+
+
+def test_shipped_packs_define_nothing_unused():
+    root = Path(__file__).resolve().parent.parent
+    packs, diags = load_all([root / "rules"])
+    assert packs and not [d.render() for d in diags if "never read" in d.message]

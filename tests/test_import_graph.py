@@ -30,7 +30,7 @@ LAYERS = [
     ("trust", ("verifier.trust",)),
     ("implcheck", ("verifier.implcheck",)),
     ("recheck", ("verifier.recheck",)),
-    ("cli", ("verifier.cli",)),
+    ("cli", ("verifier.cli", "verifier.terminal")),
 ]
 FACADE = "verifier"     # verifier/__init__.py: names the public API, loads it on first use
 

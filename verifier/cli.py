@@ -10,7 +10,6 @@ from __future__ import annotations
 import argparse
 import json
 import sys
-import textwrap
 import time
 from pathlib import Path
 
@@ -33,6 +32,7 @@ from verifier.run.engine import VERDICTS, exit_code, proof_detail, proof_words
 from verifier.run.loader import load_all, load_pack
 from verifier.run.parallel import MAX_JOBS, check_jobs, resolve_jobs
 from verifier.smt.export import write_for_results
+from verifier.terminal import COLOR_CHOICES, LiveProgress, print_table, wants_color
 from verifier.trust import selftest
 from verifier.trust.crosscheck import crosscheck_results
 from verifier.trust.mutate import run_catalogue
@@ -44,98 +44,6 @@ EXIT_OK, EXIT_FAIL, EXIT_INPUT, EXIT_UNKNOWN, EXIT_INTERNAL = 0, 1, 2, 3, 4
 def _print_diags(diags) -> None:
     for d in diags:
         print(d.render(), file=sys.stderr)
-
-
-class _Progress:
-    """Rule n of N, the current rule and the elapsed time, on a terminal only."""
-
-    def __init__(self, enabled: bool):
-        self.enabled = enabled
-        self.t0 = time.monotonic()
-        self.width = 0
-
-    def __call__(self, n, total, pack, rule, result) -> None:
-        if not self.enabled:
-            return
-        if result is None:
-            line = f"[{n}/{total}] {pack.name}/{rule.id}  {time.monotonic() - self.t0:.1f} s"
-            self.width = max(self.width, len(line))
-            sys.stderr.write("\r" + line.ljust(self.width))
-            sys.stderr.flush()
-        elif n == total:
-            self.clear()
-
-    def say(self, line: str) -> None:
-        """Show one line of status in place of the last one (a terminal only)."""
-        if not self.enabled:
-            return
-        line = f"{line}  {time.monotonic() - self.t0:.1f} s"
-        self.width = max(self.width, len(line))
-        sys.stderr.write("\r" + line.ljust(self.width))
-        sys.stderr.flush()
-
-    def clear(self) -> None:
-        if self.enabled and self.width:
-            sys.stderr.write("\r" + " " * self.width + "\r")
-            sys.stderr.flush()
-
-
-TABLE_WIDTH = 100
-
-
-def _fit(lines: list, width: int = TABLE_WIDTH) -> str:
-    """The table's lines folded to ``width`` columns, each continuation under the text it
-    continues; a word longer than a line (a long path) is kept whole on a line of its own."""
-    out = []
-    for line in lines:
-        if len(line) <= width:
-            out.append(line)
-            continue
-        body = line.lstrip(" ")
-        lead = len(line) - len(body)
-        hang = lead if lead else len(body.split(" ", 1)[0]) + 1     # "note: ", "summary: "
-        out += textwrap.wrap(body, width=width, initial_indent=" " * lead,
-                             subsequent_indent=" " * hang, break_long_words=False,
-                             break_on_hyphens=False)
-    return "\n".join(out)
-
-
-def _table(results, input_diags) -> str:
-    lines = []
-    counts = dict.fromkeys(VERDICTS, 0)
-    lemma_counts = dict.fromkeys(VERDICTS, 0)
-    for p in results:
-        lines.append(f"pack {p.name} ({p.path})")
-        if p.scope:
-            lines += coverage.lines(p.scope)
-        width = max((len(r.rule) + (6 if r.role == "lemma" else 0) for r in p.results), default=10)
-        for r in p.results:
-            (lemma_counts if r.role == "lemma" else counts)[r.verdict] += 1
-            verdict = r.verdict if r.verdict != "error" else f"error ({r.kind})"
-            name = f"lemma {r.rule}" if r.role == "lemma" else r.rule
-            lines.append(f"  {verdict:<9} {name:<{width}}  {proof_words(r):<18} {r.seconds:6.2f} s"
-                         + ("  (cached)" if r.cached else ""))
-            if r.premise:
-                lines.append(f"            implicit premise: {r.premise}")
-            if proof_detail(r):
-                lines.append(f"            {proof_detail(r)}")
-            if r.counterexample:
-                lines.append(f"            counterexample: {r.counterexample}")
-            if r.write_error:
-                lines.append(f"            not written: {r.write_error}")
-            if r.induction:
-                lines.append(f"            counterexample to induction: {r.induction}")
-            if r.message and r.verdict != "holds":
-                lines.append(f"            {r.message}")
-    errors = sum(1 for d in input_diags if d.severity == "error")
-    summary = ", ".join(f"{counts[v]} {v}" for v in VERDICTS)
-    if any(lemma_counts.values()):
-        summary += "; lemmas: " + ", ".join(f"{lemma_counts[v]} {v}" for v in VERDICTS if lemma_counts[v])
-    if errors:
-        summary += f"; {errors} input error{'s' if errors != 1 else ''} (packs with errors were not checked)"
-    lines.append(f"summary: {summary}")
-    lines.append(f"note: {CAUTION}")
-    return _fit(lines)
 
 
 def _with_jobs_and_cache(opts, args):
@@ -168,7 +76,7 @@ def cmd_check(args) -> int:
     if opts.out is not None and opts.out.exists() and not opts.out.is_dir():
         raise UsageError(f"--out {opts.out.as_posix()} exists and is not a directory: counterexample "
                          "files go into a folder (give a new or existing folder, or --no-files)")
-    progress = _Progress(sys.stderr.isatty() and not args.json)
+    progress = LiveProgress(sys.stderr.isatty() and not args.json, wants_color(args.color, sys.stderr))
     try:
         results = check_packs(packs, opts, progress)
     finally:
@@ -194,7 +102,7 @@ def cmd_check(args) -> int:
             doc["crosscheck"] = cross.as_json()
         print(json.dumps(doc, indent=2, sort_keys=True))
     else:
-        print(_table(results, diags))
+        print_table(results, diags, color=wants_color(args.color, sys.stdout))
     if cross is not None and fmt != "json":
         print(cross.summary(), file=sys.stderr if fmt in ("junit", "sarif") else sys.stdout)
     # files that could not be written are said after the verdicts, with the path and the
@@ -240,7 +148,7 @@ def _note_stale_files(out: Path, packs, results) -> None:
 def cmd_diff(args) -> int:
     """verifier diff OLD NEW (logic in verifier.recheck.diff)."""
     cache = None if args.no_cache else Cache(warn=lambda w: print(f"verifier: warning: {w}", file=sys.stderr))
-    progress = _Progress(sys.stderr.isatty() and not args.json)
+    progress = LiveProgress(sys.stderr.isatty() and not args.json, wants_color("auto", sys.stderr))
     opts = diff.DiffOptions(legs=args.legs, rlimit=args.rlimit, timeout=args.timeout,
                             jobs=check_jobs(args.jobs), cache=cache,
                             out=Path(args.out) if args.out else None,
@@ -318,7 +226,7 @@ def _impl_table(rep) -> str:
 def cmd_test(args) -> int:
     """verifier test PACK --impl MODULE:FUNCTION (logic in verifier.implcheck)."""
     reports = []
-    progress = _Progress(sys.stderr.isatty() and not args.json)
+    progress = LiveProgress(sys.stderr.isatty() and not args.json, wants_color("auto", sys.stderr))
     for path in args.packs:
         pack = load_pack(path)
         _print_diags(pack.warnings)
@@ -356,8 +264,9 @@ def cmd_test(args) -> int:
 def cmd_replay(args) -> int:
     outcomes = replay_paths(args.paths or ["counterexamples"], impl=args.impl, search=tuple(args.path or ()))
     width = max((len(o.file) for o in outcomes), default=10)
+    status = max([15] + [len(o.status) for o in outcomes])     # "still not inductive" is 19
     for o in outcomes:
-        print(f"{o.status:<15} {o.file:<{width}}  {o.detail}")
+        print(f"{o.status:<{status}} {o.file:<{width}}  {o.detail}")
     if not outcomes:
         print("no counterexample files found")
     counts: dict = {}
@@ -491,6 +400,10 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--format", choices=("table", "json", "junit", "sarif"), default="table",
                    help="output on stdout: table (default), json (as --json), junit (XML, one test "
                         "case per rule) or sarif (SARIF 2.1.0)")
+    c.add_argument("--color", choices=COLOR_CHOICES, default="auto",
+                   help="colour the table's verdicts (their words stay): auto (default: when stdout "
+                        "is a terminal and NO_COLOR is not set), always, or never (the plain text, "
+                        "as when piped). JSON, JUnit and SARIF output is never coloured")
     c.add_argument("--report", metavar="DIR", help="also write an evidence report (index.html, "
                    "manifest.json, counterexamples) into DIR, which must be new, empty or a report")
     c.add_argument("--crosscheck", action="store_true", help="re-solve every obligation with cvc5 "

@@ -24,6 +24,7 @@ from verifier.check.model import Formula, Pack, Rule
 from verifier.errors import Diagnostic, PackError, suggest
 from verifier.lang import ast, vocab
 from verifier.lang.ast import BOOL, COUNT, DIRECTION, LENGTH, NUMBER, NUMERIC, ZERO
+from verifier.lang.numbers import counted
 from verifier.lang.pack import RawExpr, RawPack
 
 FUNCTIONS = ("abs", "min", "max", "flip", "side", "along", "floor_to", "ceil_to", "round_to")
@@ -478,6 +479,49 @@ def _topo(names, graph, kind) -> tuple:
 _WIRE_PREFIXES = ("report.", "rbc.d_lrbg", "rbc.l_doubt", "rbc.placed")
 
 
+def _names_read(node: ast.Node, bound: tuple = ()):
+    """The ("param", name) and ("let", name) a parsed expression reads (a quantifier's variable
+    hides a let of the same name inside its body)."""
+    if isinstance(node, ast.Quant):
+        yield from _names_read(node.body, bound + (node.var,))
+        return
+    if isinstance(node, ast.Name):
+        parts = node.parts
+        if len(parts) == 1 and isinstance(parts[0], str) and parts[0] not in bound:
+            yield ("let", parts[0])
+        elif len(parts) == 2 and parts[0] == "params" and isinstance(parts[1], str):
+            yield ("param", parts[1])
+    for child in ast.children(node):
+        yield from _names_read(child, bound)
+
+
+def _unused_names(raw: RawPack) -> list[Diagnostic]:
+    """A warning at each [params] or [let] name that no rule, lemma, design formula, let or
+    other parameter reads: a definition that decides nothing is usually a slip (a misspelt use,
+    a rule removed, a value meant to be used)."""
+    readers = ([(("param", n), e) for n, e in raw.params.items()]
+               + [(("let", n), e) for n, e in raw.lets.items()]
+               + [(None, e) for e in (*raw.onboard.values(), *raw.trackside.values())]
+               + [(None, e) for r in raw.rules + raw.lemmas for e in (r.given, r.expect)])
+    read = {name for who, e in readers if e is not None
+            for name in _names_read(e.node) if name != who}
+    out = []
+    for kind, table, names, word in (("param", "params", raw.params, "parameter"),
+                                     ("let", "let", raw.lets, "let")):
+        for name in names:
+            if (kind, name) in read:
+                continue
+            value = raw.source.at_key((table, name), "")
+            text = value.source_line or ""
+            at = text.find(name)
+            column = at + 1 if 0 <= at < value.column - 1 else value.column
+            others = ("design formula, let or other parameter" if kind == "param"
+                      else "design formula or other let")
+            out.append(raw.source.diag(value.line, column, f"{word} '{name}' is never read: no "
+                                       f"rule, lemma, {others} uses it", "warning", len(name)))
+    return out
+
+
 def check_pack(raw: RawPack) -> Pack:
     try:
         return _check_pack(raw)
@@ -616,7 +660,7 @@ def _check_pack(raw: RawPack) -> Pack:
                 length=len(used[1]) if m else 1))
 
     rules = []
-    warnings = [d for d in raw.diagnostics if d.severity != "error"]
+    warnings = [d for d in raw.diagnostics if d.severity != "error"] + _unused_names(raw)
     for r in raw.rules + raw.lemmas:
         parts = {}
         max_leg = 0
@@ -673,7 +717,7 @@ def _check_pack(raw: RawPack) -> Pack:
         unbounded = r.unbounded if r.unbounded is not None else raw.unbounded
         if max_leg > bound and not unbounded:
             warnings.append(raw.source.at_key(
-                r.expect.key, f"{r.role} {r.id} reads legs[{max_leg}] but its bound is {bound} legs: "
+                r.expect.key, f"{r.role} {r.id} reads legs[{max_leg}] but its bound is {counted(bound, 'leg')}: "
                 "it can never apply (vacuous) unless checked with more --legs", severity="warning"))
         rules.append(rule)
 

@@ -16,6 +16,7 @@ from verifier.check.model import Pack, Rule
 from verifier.errors import Diagnostic, PackError
 from verifier.evidence import cexfile
 from verifier.evidence.story import LOOSE, Doc, count_leaves, diff_field, find_pack, require_fields
+from verifier.lang.numbers import counted
 from verifier.lang.source import read_regular_text
 from verifier.run.induct import plan_with_lemmas, replay_states
 from verifier.world.failure import comparison_words, failed_detail, m
@@ -149,7 +150,7 @@ def story_text(doc, pack, rule, lemmas, views, legs, *, shown: str, checked: int
     n, cabs = first.snap.count, first.snap.cab_changes
     add(f"Counterexample to induction {shown}")
     add(f"  pack {pack.name} ({pack.path}, sha256 {pack.sha256[:16]}...), {rule.role} {rule.id} "
-        f"(line {rule.line}): bounded. It holds for up to {doc['bound']} legs (checked for every "
+        f"(line {rule.line}): bounded. It holds for up to {counted(doc['bound'], 'leg')} (checked for every "
         f"world), but is not proved for any number of legs"
         + ("; minimal" if doc["minimal"] else "; not fully minimised") + ".")
     add("")
@@ -208,7 +209,7 @@ def story_text(doc, pack, rule, lemmas, views, legs, *, shown: str, checked: int
     add("  If no run in scope can reach s0, add a [[lemma]]: an invariant that holds after any")
     add("  number of legs and is false at s0 (for example a relation between the values above that")
     add("  s0 breaks); once it is proved, the step is asked again with it. If a run can reach s0,")
-    add(f"  the rule is false after {n + len(legs)} legs: check with more legs (--legs up to 8), or")
+    add(f"  the rule is false after {counted(n + len(legs), 'leg')}: check with more legs (--legs up to 8), or")
     add("  narrow the scope or the rule.")
     add("")
     add(f"Checked: all {checked} recorded values agree with a fresh exact simulation of the recorded "

@@ -29,6 +29,7 @@ from verifier.errors import visible
 from verifier.evidence import cexfile
 from verifier.evidence.story import front_at_detection, interval_words, whole_train_words
 from verifier.lang.ast import LENGTH
+from verifier.lang.numbers import counted
 from verifier.world.failure import comparison_words, failed_detail, m
 from verifier.world.scenario import fmt, world_from_data
 from verifier.world.sim import State, World, advance, start
@@ -145,7 +146,7 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     for i, (leg, d, _group) in enumerate(st.journey, 1):
         name = f"After leg {i}" + (": G2 is the LRBG" if i == at else "")
         stages.append(_leg_stage(name, leg, d, (w.g2.read >= 2 or w.g2.linked) if relocated and i > at else known))
-    verdict = f"{doc['pack']['name']} / {rule.id}: violated (up to {doc['bound']} legs)"
+    verdict = f"{doc['pack']['name']} / {rule.id}: violated (up to {counted(doc['bound'], 'leg')})"
     return _draw(doc, rule, st, stages, verdict, f"Counterexample of rule {rule.id}")
 
 
@@ -168,7 +169,7 @@ def render_induction(doc: dict, rule: Rule, views) -> str:
         last = i == len(views) - 1
         stages.append(_leg_stage(f"{'Then' if i == 1 else 'And'} leg {n + i}"
                                  + (": rule false" if last else ""), leg, d, known))
-    verdict = f"{doc['pack']['name']} / {rule.id}: bounded (holds up to {doc['bound']} legs)"
+    verdict = f"{doc['pack']['name']} / {rule.id}: bounded (holds up to {counted(doc['bound'], 'leg')})"
     note = ("Counterexample to induction: the rule holds at the first state and fails one leg "
             "later, so it is not proved for any number of legs. The first state need not be one "
             "a real run reaches: a lemma that excludes it may complete the proof.")
@@ -355,7 +356,8 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
         labels = [(X(lo), f"min safe front {m(lo)}"), (X(hi), f"max safe front {m(hi)}"),
                   (xe, f"est. {m(g('rbc.est_front'))}"), (X(rear_safe), f"min safe rear {m(rear_safe)}")]
     else:
-        add(_t(16, y_rep + 13, "no interval:", size=11))
+        add(_t(16, y_rep + 13, "no interval,", size=11))     # as the placed row: what is drawn
+        add(_t(16, y_rep + 26, "real front", size=11))
         add(_t(X0, y_rep + 4, "The report does not place the train (a code is 32767 or a qualifier "
                               "unknown).", size=11, italic=True))
         labels = []

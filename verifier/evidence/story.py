@@ -23,6 +23,7 @@ from verifier.check.model import Pack, Rule
 from verifier.errors import Diagnostic, PackError, VerifierError, visible
 from verifier.evidence import cexfile
 from verifier.lang.ast import LENGTH
+from verifier.lang.numbers import counted
 from verifier.lang.source import read_regular_text
 from verifier.lang.vocab import Direction
 from verifier.run.loader import load_pack
@@ -276,7 +277,7 @@ def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | No
         raise d.error("rule.id", f"pack {pack.name} has no rule {doc['rule']['id']!r}") from None
     bound = doc["bound"]
     if not len(world.legs) <= bound <= 8:
-        raise d.error("bound", f"is {bound}, but the world has {len(world.legs)} legs (the bound "
+        raise d.error("bound", f"is {bound}, but the world has {counted(len(world.legs), 'leg')} (the bound "
                                "must be at least that and at most 8)")
     try:
         if "implementation" in doc:     # a counterexample of a user's implementation

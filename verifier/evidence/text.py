@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from verifier.check.model import Pack
 from verifier.evidence.story import unknown_code_words, unplaced_words
+from verifier.lang.numbers import counted
 from verifier.lang.vocab import Direction
 from verifier.world.failure import describe_failure, failed_detail
 from verifier.world.scenario import fmt
@@ -24,7 +25,7 @@ def simulate_text(pack: Pack, world: World, legs: int | None = None) -> tuple[st
     if problems:
         out.append("warning: this world is outside the pack's scope: " + "; ".join(problems))
     two = world.g2 is not None
-    out.append(f"group{' G1' if two else ''}: {world.balises} balise(s), {world.read} read, "
+    out.append(f"group{' G1' if two else ''}: {counted(world.balises, 'balise')}, {world.read} read, "
                f"{'linked' if world.linked else 'not linked'}, location accuracy {_m(world.locacc)}, "
                f"real reference mark {_m(world.offset)} from its engineered place")
     out.append(f"train: length {_m(world.length)}, antenna {_m(world.antenna)} behind the front")
@@ -92,7 +93,7 @@ def _second_group_lines(st: State) -> list[str]:
             "not used: the report stays relative to G1" if g.found else "")
     out = [f"group G2: mark {_m(g.distance)} from G1's on G1's {g.side.word} side, faces "
            f"{'the same way as G1' if g.orientation is Direction.NOMINAL else 'the other way'}, "
-           f"{g.balises} balise(s), {g.read} read, {'linked' if g.linked else 'not linked'}, "
+           f"{counted(g.balises, 'balise')}, {g.read} read, {'linked' if g.linked else 'not linked'}, "
            f"location accuracy {_m(g.locacc)}, real reference mark {_m(g.offset)} from its "
            f"engineered place, detection error {_m(g.detect_error)}; {found}"
            + (f"; {used}" if used else "")]

@@ -26,3 +26,8 @@ def fmt(x: Fraction) -> str:
     out = text[:-places] + "." + text[-places:]
     out = out.rstrip("0").rstrip(".")
     return ("-" if x < 0 else "") + out
+
+
+def counted(n, one: str, many: str | None = None) -> str:
+    """A count with its noun in the right number: "1 leg", "2 legs", "1 balise", "0 balises"."""
+    return f"{n} {one if n == 1 else (many or one + 's')}"

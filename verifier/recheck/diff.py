@@ -65,8 +65,8 @@ CLAIM = {(False, False): "equivalent", (True, False): "stronger", (False, True):
 MEANING = {
     ("coverage", "old-only"): "covered by the old given and not by the new one",
     ("coverage", "new-only"): "covered by the new given and not by the old one",
-    ("claim", "old-only"): "the old claim holds and the new one fails (a counterexample to the new rule)",
-    ("claim", "new-only"): "the new claim holds and the old one fails (a counterexample to the old rule)",
+    ("claim", "old-only"): "the old claim holds and the new one fails, a counterexample to the new rule",
+    ("claim", "new-only"): "the new claim holds and the old one fails, a counterexample to the old rule",
 }
 CAUTION = ("This file records a world of the stated model that tells two versions of a rule "
            "apart. The model is not a real train: verdicts support, and never replace, the safety "

@@ -16,6 +16,7 @@ import attrs
 
 from verifier.check.model import Pack, Rule
 from verifier.errors import UsageError, WriteError, suggest
+from verifier.lang.numbers import counted
 from verifier.run import coverage, induct
 from verifier.run.parallel import SharedPool, solve_in_order
 from verifier.smt import solve
@@ -102,7 +103,7 @@ def proof_detail(r: RuleResult) -> str:
         return ""
     p = r.proof
     lemmas = p.get("lemmas") or []
-    return (f"k-induction at depth {p['depth']} over a base case of up to {p['base_legs']} legs"
+    return (f"k-induction at depth {p['depth']} over a base case of up to {counted(p['base_legs'], 'leg')}"
             + (f", with lemma{'s' if len(lemmas) != 1 else ''} {', '.join(lemmas)}" if lemmas else ""))
 
 
@@ -373,7 +374,7 @@ def _steps(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: int,
     for n in range(bound + 1, opts.max_legs + 1):
         left = timeout - (time.monotonic() - t0)
         if left <= 0 or spent >= budget:
-            stop = f"the deepening budget ran out before {n} legs"
+            stop = f"the deepening budget ran out before {counted(n, 'leg')}"
             break
         first = out is None            # the given not yet satisfiable: a witness if it now is
         res, pre = _deepened(pack, rule, opts, n, min(induct.rule_rlimit(opts.rlimit), budget - spent),
@@ -386,7 +387,7 @@ def _steps(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: int,
             last = n
             continue
         if solved.verdict == "unknown":
-            stop = f"the check at {n} legs ran out of the deepening budget"
+            stop = f"the check at {counted(n, 'leg')} ran out of the deepening budget"
             break
         if res.verdict == "violated" and not res.minimal and budget - spent < induct.rule_rlimit(opts.rlimit):
             res, again = _deepened(pack, rule, opts, n, induct.rule_rlimit(opts.rlimit), left, False,
@@ -398,7 +399,7 @@ def _steps(pack: Pack, rule: Rule, base: RuleResult, lemmas: tuple, bound: int,
             if step:
                 proof["induction"] = step
             return attrs.evolve(res, proof=proof, seconds=time.monotonic() - t0, message=(
-                res.message + f" (found by deepening the base case from {bound} legs, the induction "
+                res.message + f" (found by deepening the base case from {counted(bound, 'leg')}, the induction "
                 f"step not proved: holds up to {n - 1}, fails at {n})"))
         if res.verdict != "holds":     # an error: said as it is
             return attrs.evolve(res, seconds=time.monotonic() - t0)
@@ -434,7 +435,7 @@ def _bounded(pack, rule, base, lemmas, bound, last, stop, out, never, witness, s
              opts, files) -> RuleResult:
     """The verdict ``bounded`` after deepening: it holds up to ``last`` legs, with the
     counterexample to induction of the rule's own step written beside the counterexamples."""
-    notes = [f"the base case deepened from {bound} legs"] if last > bound else []
+    notes = [f"the base case deepened from {counted(bound, 'leg')}"] if last > bound else []
     if stop and last < opts.max_legs:
         notes.append(stop)
     within = f" ({'; '.join(notes)})" if notes else ""
@@ -461,7 +462,7 @@ def _bounded(pack, rule, base, lemmas, bound, last, stop, out, never, witness, s
             path = files.induction(pack, rule, lemmas, out, last, base.solver)
         except WriteError as exc:
             unwritten = str(exc)
-    message = out.message + f"; holds up to {last} legs{within}"
+    message = out.message + f"; holds up to {counted(last, 'leg')}{within}"
     return attrs.evolve(base, verdict="bounded", bound=last, proof=proof, seconds=seconds,
                         message=message, induction=path, minimal=out.minimal, cached=cached,
                         witness=witness, write_error=unwritten)

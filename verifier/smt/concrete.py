@@ -19,6 +19,7 @@ import z3
 
 from verifier.check.model import Pack
 from verifier.lang import ast
+from verifier.lang.numbers import counted
 from verifier.lang.vocab import GLOBAL, INFO_FIELDS, LEG, names_for
 from verifier.smt import solve
 from verifier.smt.encode import Encoding
@@ -96,7 +97,7 @@ class Evaluator:
         I, ctx = self.enc.inputs, self.ctx
         legs = world.get("legs", [])
         if len(legs) > self.bound:
-            raise ValueError(f"{len(legs)} legs, above the bound {self.bound}")
+            raise ValueError(f"{counted(len(legs), 'leg')}, above the bound {self.bound}")
 
         def real(x):
             return z3.RealVal(str(_num(x)), ctx)

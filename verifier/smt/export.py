@@ -26,6 +26,7 @@ import z3
 from verifier.about import __version__
 from verifier.check.model import Pack, Rule
 from verifier.errors import InternalError
+from verifier.lang.numbers import counted
 from verifier.smt import solve
 from verifier.smt.smtlib import EXPECT, GIVEN, export_rule
 
@@ -148,7 +149,7 @@ def obligations(pack: Pack, rule: Rule, bound: int, verdict: str | None = None) 
             f"; rule: {_line(rule.title)}",
             f"; given: {_line(given_text)}",
             f"; expect: {_line(rule.expect.text)}",
-            f"; bound: up to {bound} legs; {meaning}",
+            f"; bound: up to {counted(bound, 'leg')}; {meaning}",
             f"; encoded by z3 {z3.get_version_string()} and made portable: one-argument and/or/+ "
             "written as their argument; nothing else changed",
             "(set-info :smt-lib-version 2.6)",

@@ -13,7 +13,7 @@ import attrs
 from verifier.check.model import Formula, Pack
 from verifier.check.unbounded import STATIC
 from verifier.lang import ast
-from verifier.lang.numbers import fmt
+from verifier.lang.numbers import counted, fmt
 from verifier.lang.scope import Scope
 from verifier.lang.vocab import MAX_CODE, Q_SCALES, UNKNOWN_CODE, Direction, Running
 
@@ -120,7 +120,7 @@ def scope_problems(world: World, scope: Scope, bound: int) -> list[str]:
     if (world.g2 is None) != (scope.groups == 1):
         out.append("a two-group pack's worlds have a second group, and only they" )
     if len(world.legs) > bound:
-        out.append(f"{len(world.legs)} legs, above the bound {bound}")
+        out.append(f"{counted(len(world.legs), 'leg')}, above the bound {bound}")
     for i, leg in enumerate(world.legs, 1):
         if not scope.leg_distance[0] <= leg.distance <= scope.leg_distance[1]:
             out.append(f"legs[{i}].distance {leg.distance} m outside the scope")
@@ -156,9 +156,9 @@ def _reading_problems(d: Fraction, legs, scope: Scope) -> list[str]:
         bo = scope.odometry_over.at(measured) + extra_over
         bu = scope.odometry_under.at(measured) + extra_under
         if over > bo:
-            out.append(f"over-reading {_m(over)} after {j} legs exceeds the bound {_m(bo)}")
+            out.append(f"over-reading {_m(over)} after {counted(j, 'leg')} exceeds the bound {_m(bo)}")
         if under > bu:
-            out.append(f"under-reading {_m(under)} after {j} legs exceeds the bound {_m(bu)}")
+            out.append(f"under-reading {_m(under)} after {counted(j, 'leg')} exceeds the bound {_m(bu)}")
     return out
 
 
@@ -365,7 +365,7 @@ def snapshot_problems(snap: Snapshot, scope: Scope, plan=None) -> list[str]:
     w = snap.world
     out = [p for p in scope_problems(attrs.evolve(w, legs=()), scope, 0)]
     if snap.count < 0 or not 0 <= snap.cab_changes <= snap.count:
-        out.append(f"{snap.cab_changes} cab changes in {snap.count} legs")
+        out.append(f"{counted(snap.cab_changes, 'cab change')} in {counted(snap.count, 'leg')}")
     for name, v in (("actual.orientation", snap.orientation), ("actual.motion", snap.motion)):
         if v not in (1, -1):
             out.append(f"{name} must be nominal or reverse")
@@ -690,7 +690,7 @@ class State(_Values):
 
     def leg_at(self, index: int, field: str):
         if index > len(self.legs):
-            raise IndexError(f"legs[{index}] read in a world with {len(self.legs)} legs")
+            raise IndexError(f"legs[{index}] read in a world with {counted(len(self.legs), 'leg')}")
         return self.legs[index - 1][field]
 
 
@@ -735,7 +735,7 @@ class SnapView(_Values):
 
     def leg_at(self, index: int, field: str):
         if index > self.snap.count:
-            raise IndexError(f"legs[{index}] read in a state after {self.snap.count} legs")
+            raise IndexError(f"legs[{index}] read in a state after {counted(self.snap.count, 'leg')}")
         return self.snap.frozen[(index, field)]
 
     def body_value(self, fam, fields: dict, case: tuple):
