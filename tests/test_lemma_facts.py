@@ -81,3 +81,21 @@ def test_assumed_lemmas_change_no_answer_on_the_shipped_envelope_rules(tmp_path)
     for rid in chosen:
         assert with_lemmas[rid].verdict == without[rid].verdict == "holds"
         assert with_lemmas[rid].witness == without[rid].witness
+
+
+def test_under_legs_k_a_lemma_is_assumed_only_once_proved_for_any_number_of_legs(write_pack):
+    # by hand: "legs.count <= 5" holds up to 5 legs and is not inductive (a state of 5 legs
+    # and one more leg make 6), so under --legs 7 it is never proved first: the lemma and a
+    # rule saying the same are both violated by a world of 6 legs. "cab_changes <= legs.count"
+    # is inductive (a leg adds at most one change of cab): proved first, its own check up to
+    # 7 legs says so.
+    path = write_pack(pack_text(lemma_toml("at-most-five", "legs.count <= 5")
+                                + lemma_toml("a-change-a-leg", "cab_changes <= legs.count")
+                                + rule_toml("also-at-most-five", "legs.count <= 5"), legs=2))
+    res = run(path, legs=7)
+    assert res["at-most-five"].verdict == "violated"
+    assert res["also-at-most-five"].verdict == "violated"
+    assert len(res["also-at-most-five"].world["legs"]) == 6
+    assert "" == res["at-most-five"].message or "k-induction first" not in res["at-most-five"].message
+    assert res["a-change-a-leg"].verdict == "holds" and res["a-change-a-leg"].bound == 7
+    assert "proved for any number of legs by k-induction first" in res["a-change-a-leg"].message
