@@ -498,3 +498,22 @@ def test_cvc5_agrees_on_the_induction_step(write_pack):
     assert second.solve_text(unproved, timeout=60).status == "sat"
     fails = induction.step_obligation(pack, few, (), plan_for(pack, rule_formulas(few)), 2)
     assert second.solve_text(fails, timeout=60).status == "sat"
+
+
+def test_minimising_a_counterexample_to_induction_stops_at_its_budget(write_pack):
+    # "actual.travelled <= 50 m" with legs of at most 10 m (worked by hand above) is not
+    # inductive: a state with 50 m run and one more leg of 10 m break it. Minimised in full,
+    # the state is the least such world; with a budget of one resource unit the ladder stops
+    # at its first question, the counterexample is the solver's first one, said to be not
+    # minimal, and where it stops does not depend on the machine (the budget is z3's count).
+    p = write_pack(pack_text(rule_toml("fifty", "actual.travelled <= 50 m"), legs=5, world=EXACT))
+    pack = load_pack(p)
+    rule = pack.rule("fifty")
+    plan = plan_for(pack, rule_formulas(rule))
+    full = induction.step(pack, rule, (), plan, 1)
+    assert full.status == "failed" and full.minimal
+    cut = [induction.step(pack, rule, (), plan, 1, minimise_budget=1) for _ in range(2)]
+    assert all(s.status == "failed" and not s.minimal for s in cut)
+    assert "budget" in cut[0].reason
+    assert cut[0].cti == cut[1].cti
+    assert cut[0].checks < full.checks

@@ -53,7 +53,8 @@ def deepening_budget(rlimit: int | None) -> int:
     the deepened bound a rule reaches is the same on every machine (the wall-clock
     ``--timeout`` of the rule stays the guard). Measured on the shipped
     automatic-step-stays-in-range (3 December 2026): 4 to 8 legs take 22.6 M and 2.3 s of CPU,
-    9 legs 18.8 M more, 11 legs alone 243 M (29 s), 12 legs 166 M (14 s)."""
+    9 legs 18.8 M more, 11 legs alone 243 M (29 s), 12 legs 166 M (14 s); since the deepened
+    checks assume the pack's proved lemmas (5 December 2026), 4 to 12 legs fit in the 25 M."""
     return rule_rlimit(rlimit) // DEEPENING_SHARE
 
 

@@ -170,13 +170,24 @@ class _Steps:
     incremental question; the answer (not the solver's model) decides the value, so the
     result is the lexicographically least grid point whatever model z3 returns."""
 
-    def __init__(self, ses: SolverSession):
+    def __init__(self, ses: SolverSession, budget: int | None = None):
         self.s = ses
+        self.budget = budget        # z3 resource units the whole ladder may spend, or None
+        self.start = ses.rlimit_used()
 
     def sat(self, *a) -> bool:
         if self.s.witnessed(*a):
             return True
-        r = self.s.check(*a)
+        full = self.s.rlimit
+        if self.budget is not None:
+            left = self.budget - (self.s.rlimit_used() - self.start)
+            if left <= 0:
+                raise _Unknown("the minimisation budget ran out")
+            self.s.rlimit = min(full, left)      # one check may not spend past the budget
+        try:
+            r = self.s.check(*a)
+        finally:
+            self.s.rlimit = full
         if r == z3.unknown:
             raise _Unknown(self.s.s.reason_unknown())
         return r == z3.sat
@@ -344,12 +355,15 @@ def run_ladder(ses: SolverSession, enc: Encoding) -> bool:
     return ladder(ses, enc.inputs, enc.K, enc.terms["legs.count"], enc.terms["cab_changes"])
 
 
-def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None) -> bool:
+def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None,
+           budget: int | None = None) -> bool:
     """The ladder of DESIGN 6 over the inputs ``I`` of up to ``K`` legs, with ``count`` and
     ``cab_changes`` the terms its first step minimises; ``more(steps)`` fixes further values
     (a state's, for a counterexample to induction) after the inputs and before the Booleans.
-    Returns whether every step was decided."""
-    L = _Steps(ses)
+    ``budget``: what the whole ladder may spend in z3's deterministic resource units (None: only
+    each check's own rlimit); when it runs out the steps left are not decided, the same on
+    every machine. Returns whether every step was decided."""
+    L = _Steps(ses, budget)
     lows = lower_bounds(ses.enc.constraints, I)
 
     def low(name: str, least):
