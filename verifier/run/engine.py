@@ -312,25 +312,22 @@ def _proved_first(packs, todo, opts: CheckOptions, pool) -> dict:
     more than the base case and the step; the envelope lemma of confidence-interval at 8 legs
     ran out of the default budget, its proof for any number of legs took 0.6 s). No file is
     written and nothing is deepened; the proofs go through the cache like any other."""
-    out: dict = {id(p): () for p in packs}
-    if not isinstance(opts.legs, int):
-        return out
-    base = attrs.evolve(opts, legs=None, out=None, max_legs=0)
-    todo = [(p, r) for p, r in todo if r.role == "lemma" and p.unbounded_for(r, None)
-            and opts.legs > induct.base_bound(p, r, None, opts.induction_depth)]
-    if not todo:
-        return out
-    bounds = [induct.base_bound(p, r, None, opts.induction_depth) for p, r in todo]
-    presolved = solve_in_order(todo, timeout=opts.timeout, rlimit=opts.rlimit, witness=False,
-                               jobs=opts.jobs, cache=opts.cache, bounds=bounds, pool=pool)
     found: dict = {id(p): [] for p in packs}
-    for (pack, rule), bound in zip(todo, bounds):
-        res = check_rule(pack, rule, attrs.evolve(base, witness=False), next(presolved), bound)
-        if res.verdict == "holds":
-            res = _any_number(pack, rule, res, tuple(found[id(pack)]), bound, base, None)
-            if res.verdict == "holds" and res.unbounded:
-                found[id(pack)].append(rule)
-    return {id(p): tuple(found[id(p)]) for p in packs}
+    if isinstance(opts.legs, int):
+        base = attrs.evolve(opts, legs=None, out=None, max_legs=0, witness=False)
+        todo = [(p, r, induct.base_bound(p, r, None, opts.induction_depth))
+                for p, r in todo if r.role == "lemma" and p.unbounded_for(r, None)]
+        todo = [t for t in todo if opts.legs > t[2]]
+        presolved = solve_in_order([(p, r) for p, r, _ in todo], timeout=opts.timeout,
+                                   rlimit=opts.rlimit, witness=False, jobs=opts.jobs,
+                                   cache=opts.cache, bounds=[b for _, _, b in todo], pool=pool)
+        for pack, rule, bound in todo:
+            res = check_rule(pack, rule, base, next(presolved), bound)
+            if res.verdict == "holds":
+                res = _any_number(pack, rule, res, tuple(found[id(pack)]), bound, base, None)
+                if res.verdict == "holds" and res.unbounded:
+                    found[id(pack)].append(rule)
+    return {k: tuple(v) for k, v in found.items()}
 
 
 def usable_lemmas(proved, bound: int) -> tuple:

@@ -295,11 +295,10 @@ def lower_bounds(constraints, terms: dict) -> dict:
     Read through z3's C API (the Python wrappers took 4 ms for the 139 constraints of a
     two-group encoding, a tenth of a ladder's questions)."""
     C = z3.z3core
-    consts = [t for t in terms.values() if z3.is_const(t)]
-    if not consts:
+    by_id = {t.get_id(): name for name, t in terms.items() if z3.is_const(t)}
+    if not by_id:
         return {}
-    ref = consts[0].ctx.ref()
-    by_id = {C.Z3_get_ast_id(ref, t.as_ast()): name for name, t in terms.items() if z3.is_const(t)}
+    ref = next(iter(terms.values())).ctx.ref()
     app = z3.Z3_APP_AST
 
     def kind(a):
@@ -328,16 +327,22 @@ def lower_bounds(constraints, terms: dict) -> dict:
     return lows
 
 
-def _at_bounds(I: dict, K: int, two: bool, low, num) -> list:
-    """Step (3) of the ladder as equalities of each input with its lower bound, in the ladder's
-    order, up to the first step whose answer at its bound would not be that bound (a Real
-    bound off the whole-metre grid: the step fixes the coarsest grid first)."""
+def _inputs_step3(K: int, two: bool) -> list:
+    """Step (3) of the ladder, in its documented order: ``(kind, input, least)`` where kind is
+    ``int`` (least whole value from ``least`` up) or ``grid`` (least value on the coarsest grid
+    that has one)."""
     steps = [("int", "lrbg.read", 1), ("int", "lrbg.locacc", 0), ("grid", "train.length", 0),
              ("grid", "train.antenna", 0)]
     if two:
         steps += [("int", "g2.read", 1), ("int", "g2.locacc", 0), ("grid", "g2.distance", 0),
                   ("int", "g2.at", 0)]
-    steps += [("grid", f"legs.{i}.distance", 0) for i in range(1, K + 1)]
+    return steps + [("grid", f"legs.{i}.distance", 0) for i in range(1, K + 1)]
+
+
+def _at_bounds(I: dict, steps: list, low, num) -> list:
+    """``steps`` (step (3)) as equalities of each input with its lower bound, up to the first
+    step whose answer at its bound would not be that bound (a Real bound off the whole-metre
+    grid: the step fixes the coarsest grid first)."""
     out = []
     for kind, name, least in steps:
         v = low(name, Fraction(least))
@@ -386,19 +391,13 @@ def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None,
         zeroed = L.try_fix_all([e == 0 for e in errors])
         # (3) every other input to its least feasible value, in this documented order; first
         # as many of them as can be at their lower bounds together, in one question
-        L.fix_prefix(_at_bounds(I, K, two, low, L.num))
-        L.least_int(I["lrbg.read"], math.ceil(low("lrbg.read", 1)))
-        L.least_int(I["lrbg.locacc"], math.ceil(low("lrbg.locacc", 0)))
-        L.least_on_grid(I["train.length"], low("train.length", Fraction(0)))
-        L.least_on_grid(I["train.antenna"], low("train.antenna", Fraction(0)))
-        if two:
-            L.least_int(I["g2.read"], math.ceil(low("g2.read", 1)))
-            L.least_int(I["g2.locacc"], math.ceil(low("g2.locacc", 0)))
-            L.least_on_grid(I["g2.distance"], low("g2.distance", Fraction(0)))
-            L.least_int(I["g2.at"], math.ceil(low("g2.at", 0)))
-        for i in range(1, K + 1):
-            name = f"legs.{i}.distance"
-            L.least_on_grid(I[name], low(name, Fraction(0)))
+        step3 = _inputs_step3(K, two)
+        L.fix_prefix(_at_bounds(I, step3, low, L.num))
+        for kind, name, least in step3:
+            if kind == "int":
+                L.least_int(I[name], math.ceil(low(name, least)))
+            else:
+                L.least_on_grid(I[name], low(name, Fraction(least)))
         for e, z in zip(errors, zeroed):
             if not z:
                 L.least_magnitude(e)
