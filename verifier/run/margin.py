@@ -223,7 +223,9 @@ def threshold_words(t) -> str:
     if t.status == "beyond":
         if t.fails_at is None and t.holds_at == t.stated and v.way == "down":
             return f"holds down to {show(t.stated)} ({t.reason})"
-        return f"holds {'up' if v.way == 'up' else 'down'} to {show(t.holds_at)} at least (searched no further)"
+        if v.way == "up":
+            return f"holds up to {show(t.holds_at)} at least (the search stops there)"
+        return f"holds down to {show(t.holds_at)} (the lowest value searched)"
     own = " (the pack's own figure)" if t.holds_at == t.stated else ""
     if t.status == "exact":
         return f"holds {'up' if v.way == 'up' else 'down'} to {show(t.holds_at)}{own}, fails at {show(t.fails_at)}"
@@ -237,7 +239,8 @@ def slack_words(s) -> str:
     if s.status == "slack":
         return f"{fmt(s.high)}{unit}"
     if s.status == "range":
-        return f"between {fmt(s.low)} and {fmt(s.high)}{unit}"
+        return (f"at least {fmt(s.low)}{unit}, at most {fmt(s.high)}{unit} (a world within a grid step of "
+                f"the least; the least may be approached without being reached)")
     if s.status == "equality":
         return "an equality: no slack"
     return f"unknown ({s.reason})"

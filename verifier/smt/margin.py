@@ -189,8 +189,9 @@ def _least(asker: _Asker, enc, s, text: str, unit: str, grid: Fraction, strict: 
         if m2 is None:
             return found(best, "slack", val(best), val(best))
         best = m2
-    return found(best, "range", lo, val(best)) if not strict or lo > 0 else found(
-        best, "range", lo, val(best))
+    # not settled: the least value is in [lo, val(best)], or (a strict comparison, or an
+    # infimum that no world reaches) approached without being reached
+    return found(best, "range", lo, val(best))
 
 
 # ---- thresholds -------------------------------------------------------------------------
