@@ -189,7 +189,7 @@ def _replay(pack: Pack, rule: Rule, world_flat: dict, values: dict | None, scope
     """The world in the simulator: inside ``scope``, the rule's given true and its expect as
     ``expect``, every derived value as the solver's. (state, problem or "")."""
     world = world_from_flat(world_flat)
-    problems = scope_problems(world, scope, bound)
+    problems = scope_problems(world, scope, bound, design=pack.scope)
     st = State(pack, world)
     if problems:
         return st, "the solver's world is outside the scope: " + "; ".join(problems)
