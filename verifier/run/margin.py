@@ -227,9 +227,10 @@ def threshold_words(t) -> str:
             return f"holds up to {show(t.holds_at)} at least (the search stops there)"
         return f"holds down to {show(t.holds_at)} (the lowest value searched)"
     own = " (the pack's own figure)" if t.holds_at == t.stated else ""
+    tail = "" if t.minimal else " (that world not fully minimised: budget)"
     if t.status == "exact":
-        return f"holds {'up' if v.way == 'up' else 'down'} to {show(t.holds_at)}{own}, fails at {show(t.fails_at)}"
-    return f"holds at {show(t.holds_at)}{own}, fails at {show(t.fails_at)} (between not searched)"
+        return f"holds {'up' if v.way == 'up' else 'down'} to {show(t.holds_at)}{own}, fails at {show(t.fails_at)}{tail}"
+    return f"holds at {show(t.holds_at)}{own}, fails at {show(t.fails_at)}{tail} (between them not searched)"
 
 
 def slack_words(s) -> str:
