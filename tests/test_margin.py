@@ -88,6 +88,16 @@ def test_margins_replayed_and_not_a_distance_rule(write_pack, tmp_path):
     assert by["broken"].verdict == "violated" and by["broken"].thresholds == ()
 
 
+def test_slack_of_each_pair_of_a_chain(write_pack):
+    # the antenna is 2..30 m behind the front (the default [world] antenna range): in
+    # 1 m <= train.antenna <= 40 m the first pair is at least 2 - 1 = 1 m from failing, the
+    # second 40 - 30 = 10 m; both worlds replayed by the simulator (no errors)
+    pack = _small(write_pack, rule_toml("chain", "1 m <= train.antenna <= 40 m"))
+    (m,) = margins(pack, MarginOptions(vary=(), core=False)).rules
+    assert m.errors == ()
+    assert [(s.status, s.high, s.index) for s in m.slacks] == [("slack", F(1), 0), ("slack", F(10), 1)]
+
+
 def _files(out):
     from verifier.evidence.files import Files
     return Files(out)

@@ -155,12 +155,11 @@ def _margin(pack: Pack, rule: Rule, res: RuleResult, proved, vary, opts: MarginO
     for s in slacks:
         if s.world is None:
             continue
-        index = [p[0] for p in parts].index(s.part)
         st, problem = _replay(pack, rule, s.world, s.values, pack.scope, bound, expect=True)
         if problem:
             errors.append(f"slack of {s.part}: {problem}")
             continue
-        _, a, op, b = parts[index]
+        _, a, op, b = parts[s.index]
         va, vb = evaluate(a, st, {}), evaluate(b, st, {})
         value = (vb - va) if op in ("<=", "<") else (va - vb)
         if value != s.high:

@@ -51,6 +51,7 @@ class Slack:
     world: dict | None = None    # a world where the value is ``high``
     values: dict | None = None   # the encoding's values of solve.COMPARED there
     reason: str = ""
+    index: int = 0               # which of comparisons(rule) (a chain has one a pair)
 
 
 @attrs.frozen
@@ -134,7 +135,7 @@ def slacks(pack: Pack, rule: Rule, bound: int, *, assume: tuple = (), rlimit: in
            timeout: float = 120.0) -> list[Slack]:
     """The slack of each numeric comparison of ``rule``'s expect (a rule that holds)."""
     out = []
-    for text, a_node, op, b_node in comparisons(rule):
+    for index, (text, a_node, op, b_node) in enumerate(comparisons(rule)):
         ctx = z3.Context()
         enc = Encoding(pack, bound, ctx)
         for name in COMPARED:
@@ -143,7 +144,7 @@ def slacks(pack: Pack, rule: Rule, bound: int, *, assume: tuple = (), rlimit: in
         unit = _unit(a_node, b_node)
         if op == "==":
             out.append(Slack(text, "equality", Fraction(0), Fraction(0), unit,
-                             reason="an equality has no slack"))
+                             reason="an equality has no slack", index=index))
             continue
         s = (b - a) if op in ("<=", "<") else (a - b)
         if z3.is_int(s):
@@ -151,13 +152,13 @@ def slacks(pack: Pack, rule: Rule, bound: int, *, assume: tuple = (), rlimit: in
         asker = _Asker(enc, [enc.given(rule), *lemma_facts(enc, assume)], rlimit, Budget(timeout))
         grid = LENGTH_GRID if unit == "m" else NUMBER_GRID
         try:
-            out.append(_least(asker, enc, s, text, unit, grid, strict=op in ("<", ">")))
+            out.append(attrs.evolve(_least(asker, enc, s, text, unit, grid), index=index))
         except Undecided as exc:
-            out.append(Slack(text, "unknown", unit=unit, reason=str(exc)))
+            out.append(Slack(text, "unknown", unit=unit, reason=str(exc), index=index))
     return out
 
 
-def _least(asker: _Asker, enc, s, text: str, unit: str, grid: Fraction, strict: bool) -> Slack:
+def _least(asker: _Asker, enc, s, text: str, unit: str, grid: Fraction) -> Slack:
     zero = z3.RealVal(0, enc.ctx)
 
     def val(model):
