@@ -423,3 +423,17 @@ def test_margin_envelope_is_tight():
     from verifier.smt.margin import slacks
     pack, rule = _shipped("real-front-inside-interval")
     assert [s.status for s in slacks(pack, rule, 1)] == ["tight", "tight"]
+
+
+def test_margin_slack_of_the_automatic_step_is_15_cm():
+    # automatic-step-is-the-finest at 1 leg: the 1 m step is used only when something does not fit
+    # at 10 cm. D_LRBG fits at 10 cm while floor(10 x D_LRBG + 1/2) <= 32766 (SUBSET-026 7.5.1.13
+    # and 7.5.1.129; rounding to the nearest, docs/design.md 4.4), i.e. D_LRBG < 3276.65 m. The
+    # doubts cannot be what does not fit at 1 leg: at most 63 m Q_LOCACC + 5 m + 5 % of a measured
+    # distance under 12 km / 0.95 + 1 m, far below 3276.5 m. So max(...) is at least 3276.65 m,
+    # reached with D_LRBG = 3276.65 m exactly: the slack of "> 3276.5 m" is 0.15 m, reached.
+    assert F(63) + 5 + F(1, 20) * (F(12000) + 5) / F(95, 100) + 1 < F("3276.5")
+    from verifier.smt.margin import slacks
+    pack, rule = _shipped("automatic-step-is-the-finest")
+    (s,) = slacks(pack, rule, 1)
+    assert (s.status, s.low, s.high) == ("slack", F("0.15"), F("0.15"))
