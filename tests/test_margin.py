@@ -19,7 +19,8 @@ from verifier.lang.scope import Bound, with_bound
 from verifier.run.loader import load_pack
 from verifier.run.margin import MarginOptions, margins
 from verifier.smt import margin as M
-from verifier.world.sim import Leg, State, World, scope_problems
+from verifier.world.scenario import world_from_flat
+from verifier.world.sim import Leg, State, World, applies, holds, scope_problems
 from verifier.lang.vocab import Running
 
 RULES = Path(__file__).parent.parent / "rules"
@@ -55,7 +56,14 @@ def test_core_each_needed_assumption_alone_lets_a_violation_in():
             "world.leg_distance"} <= set(core.not_needed)
     assert core.undecided == ()
     for name in core.needed:      # one solve each: without it alone the rule fails
-        assert M.needed_alone(pack, rule, 1, name) is True, name
+        found = M.world_without(pack, rule, 1, name)
+        assert found, name
+        if name.startswith("world."):
+            # the simulator agrees: the world is outside the scope, and the rule fails in it
+            world = world_from_flat(found)
+            assert scope_problems(world, pack.scope, 1) != [], name
+            st = State(pack, world)
+            assert applies(rule, st) and not holds(rule, st), name
     for name in core.not_needed[:2]:
         assert M.needed_alone(pack, rule, 1, name) is False, name
 

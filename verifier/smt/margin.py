@@ -332,6 +332,14 @@ class _Bare:
 def needed_alone(pack: Pack, rule: Rule, bound: int, name: str, *, rlimit: int = DEFAULT_RLIMIT,
                  timeout: float = 60.0) -> bool | None:
     """Whether a violating world exists with every assumption but ``name`` (one solve)."""
+    found = world_without(pack, rule, bound, name, rlimit=rlimit, timeout=timeout)
+    return None if found is None else found is not False
+
+
+def world_without(pack: Pack, rule: Rule, bound: int, name: str, *, rlimit: int = DEFAULT_RLIMIT,
+                  timeout: float = 60.0):
+    """A violating world (inputs as plain data) with every assumption but ``name``; False if
+    there is none, None if the check is undecided."""
     ctx = z3.Context()
     enc = Encoding(pack, bound, ctx)
     given, expect = enc.given(rule), enc.expect(rule)
@@ -339,4 +347,6 @@ def needed_alone(pack: Pack, rule: Rule, bound: int, name: str, *, rlimit: int =
     kept = [c for c in enc.constraints if c.get_id() not in drop]
     s = SolverSession(_Bare(enc, kept), rlimit, Budget(timeout))
     r = s.check(given, z3.Not(expect))
-    return None if r == z3.unknown else r == z3.sat
+    if r == z3.unknown:
+        return None
+    return read_world(s.model, enc) if r == z3.sat else False
