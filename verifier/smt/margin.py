@@ -249,18 +249,30 @@ def threshold(pack: Pack, rule: Rule, bound: int, key: str, *, rlimit: int = DEF
         return Threshold(key, v.way, stated, "beyond", stated, None,
                          reason=f"the range already starts at {v.limit}")
     try:
+        # A wider real world holds every world of a narrower one, so a violation at a value is
+        # one at every value further out: one step past the pack's value (a tight rule fails
+        # there), then the end of the search (most bounds do not matter to most rules), then
+        # outwards by doubling steps and back by bisection.
         held, step = stated, v.grid
         x = stated + sign * step
         start = max(abs(stated), Fraction(1)) / 8
+        end_checked = False
         while True:
-            if (v.way == "up" and x > v.limit) or (v.way == "down" and x < v.limit):
+            if (v.way == "up" and x >= v.limit) or (v.way == "down" and x <= v.limit):
                 x = v.limit
+            if x == v.limit and end_checked:
+                failed = x
+                break
             if fails(x):
                 failed = x
                 break
             held = x
             if x == v.limit:
                 return done("beyond", held, None, "holds up to the end of the search")
+            if not end_checked:
+                if not fails(v.limit):
+                    return done("beyond", v.limit, None, "holds up to the end of the search")
+                end_checked = True
             step = start if step == v.grid else step * 2
             x = _snap(stated + sign * step, v.grid, v.way)
         while abs(failed - held) > v.grid and checks < MAX_CHECKS:
