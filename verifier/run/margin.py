@@ -254,7 +254,7 @@ def margin_table(run: MarginRun) -> str:
     for m in run.rules:
         legs = f"{m.bound}" + (" (base of any)" if m.unbounded else "")
         if m.verdict != "holds":
-            rows.append((m.rule, m.verdict, legs, "no margin: the rule does not hold"))
+            rows.append((m.rule, m.verdict, legs, f"no margin: the verdict is {m.verdict}, not holds"))
             continue
         least = least_slack(m.slacks)
         if least is None:
