@@ -137,3 +137,23 @@ def test_cli_margin_usage_errors(write_pack, capsys):
     path = write_pack(pack_text(rule_toml("r", "true"), legs=1))
     assert main(["margin", str(path), "--vary", "detecton", "--no-files"]) == 2
     assert "did you mean 'detection'" in capsys.readouterr().err
+
+
+@pytest.mark.thorough
+def test_every_default_key_of_the_main_envelope():
+    # real-front-inside-interval at 1 leg, every default key (about 20 s): the reading-error
+    # bounds and the detection error are the design's own figures (worked in test_facts.py);
+    # the rest never make it fail: the onboard reads the Q_LOCACC the group sends (its offset
+    # stays within it), the rule reads the front only (any train length), and a leg long enough
+    # to leave the codable range leaves the rule's given (rbc.placed) too
+    pack, rule = _shipped("real-front-inside-interval")
+    (m,) = margins(pack, MarginOptions(rules=(rule.id,), legs=1)).rules
+    assert m.errors == ()
+    got = {t.key: (t.status, t.holds_at) for t in m.thresholds}
+    assert got == {
+        "odometry_over.rate": ("exact", F(1, 20)), "odometry_under.rate": ("exact", F(1, 20)),
+        "odometry_over.fixed": ("exact", F(5)), "odometry_under.fixed": ("exact", F(5)),
+        "detection": ("exact", F(1)),
+        "locacc.low": ("beyond", F(0)), "locacc.high": ("beyond", F(10000)),
+        "leg_distance.low": ("beyond", F(0)), "leg_distance.high": ("beyond", F(10000000)),
+        "train_length.low": ("beyond", F(0)), "train_length.high": ("beyond", F(100000))}
