@@ -37,6 +37,6 @@ def check_rule(pack, rule, opts: CheckOptions = CheckOptions()) -> RuleResult:
 def margins(pack, opts: MarginOptions = MarginOptions(), progress: Callable | None = None) -> MarginRun:
     """The margins of the rules of ``pack`` that hold (DESIGN 9): slack, thresholds of the
     [world] bounds in ``opts.vary``, the assumptions each proof needs; the worlds found go
-    under ``opts.out`` (``<pack>/margins/``) unless it is None."""
+    under ``opts.out`` (``<pack>/<rule>.<what>.json``) unless it is None."""
     files = Files(opts.out) if opts.out is not None else None
     return run_margin.margins(pack, opts, files, progress)

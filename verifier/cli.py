@@ -551,8 +551,10 @@ def build_parser() -> argparse.ArgumentParser:
     m.add_argument("--timeout", type=seconds_arg, metavar="SECONDS", help="wall-clock guard per search (default 120)")
     m.add_argument("--rlimit", type=_rlimit_arg, metavar="N", help="deterministic solver budget per check (default 500000000)")
     m.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
-    m.add_argument("--out", default="counterexamples", metavar="DIR",
-                   help="where the worlds go (DIR/<pack>/margins/; default counterexamples/)")
+    m.add_argument("--out", default="margins", metavar="DIR",
+                   help="where the worlds go (DIR/<pack>/<rule>.slack.json, DIR/<pack>/<rule>.<key>.json, "
+                        "each with its diagram; default margins/, apart from the counterexamples that "
+                        "replay re-judges)")
     m.add_argument("--no-files", action="store_true", help="write no world files")
     m.add_argument("--report", metavar="DIR", help="also write an evidence report with a margins section")
     m.set_defaults(func=cmd_margin)
