@@ -157,3 +157,20 @@ def test_every_default_key_of_the_main_envelope():
         "locacc.low": ("beyond", F(0)), "locacc.high": ("beyond", F(10000)),
         "leg_distance.low": ("beyond", F(0)), "leg_distance.high": ("beyond", F(10000000)),
         "train_length.low": ("beyond", F(0)), "train_length.high": ("beyond", F(100000))}
+
+
+@pytest.mark.parametrize("path, rule_id, needs", [
+    # the qualifiers are the onboard's own: they hold whatever the scope's bounds
+    ("position-report.toml", "qualifiers-match-the-real-train", {"[onboard] q_dirlrbg", "[onboard] q_dirtrain"}),
+    # at 1 leg a relocation happens at the end of the only leg: from G2 on, the only reading
+    # error is G2's detection error, so no odometry bound is needed (a leg after G2 would need it)
+    ("relocation.toml", "real-front-inside-interval-after-relocation", {"world.detection"}),
+])
+def test_cores_of_other_shipped_packs_are_each_needed(path, rule_id, needs):
+    pack = load_pack(RULES / path)
+    rule = next(r for r in pack.rules if r.id == rule_id)
+    core = M.core(pack, rule, 1)
+    assert needs <= set(core.needed)
+    assert not any(n.startswith("world.odometry") for n in core.needed)
+    for name in core.needed:      # one solve each
+        assert M.needed_alone(pack, rule, 1, name) is True, name
