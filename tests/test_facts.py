@@ -336,3 +336,104 @@ def test_the_encoding_agrees_on_the_hand_worked_relocations(write_pack):
     for w in (World(running=BWD, antenna=F(2), length=F(100)),
               World(balises=1, read=1, running=BWD, antenna=F(2), length=F(100))):
         assert compare(simulate(one, w), ev.evaluate(flat(w))) == []
+
+
+# ---- margins (DESIGN 9) of the shipped confidence-interval pack, worked by hand ---------------
+# One leg (the pack's rules are proved for any number of legs; a margin is found up to a bound,
+# here 1 leg to stay quick). Each threshold's first failing world is replayed in the simulator:
+# inside the real world's scope with the bound moved, outside the pack's own, the rule false.
+
+def _shipped(rule_id):
+    from pathlib import Path
+    pack = load_pack(Path(__file__).parent.parent / "rules" / "confidence-interval.toml")
+    return pack, next(r for r in pack.rules if r.id == rule_id)
+
+
+def _past_threshold_replays(pack, rule, t):
+    from verifier.lang.scope import with_bound
+    from verifier.world.scenario import world_from_flat
+    from verifier.world.sim import applies, evaluate, scope_problems
+    world = world_from_flat(t.world)
+    assert scope_problems(world, with_bound(pack.scope, t.key, t.fails_at), 1) == []
+    assert scope_problems(world, pack.scope, 1) != []
+    st = State(pack, world)
+    assert applies(rule, st) and not evaluate(rule.expect.node, st, {})
+    return world
+
+
+@pytest.mark.parametrize("key, stated, source", [
+    # the design's own over- and under-reading rates: the doubts are Q_LOCACC + 5 m + 5 % of the
+    # measured distance + the detection error (SUBSET-041 5.3.1.1, from memory; the pack keeps the
+    # default [world] odometry bounds). A real rate r > 5 % lets the reading error exceed the doubt
+    # by (r - 5 %) x the measured distance, which nothing hides when the doubts and D_LRBG fall on
+    # the 10 cm step (the widening is then 0): the first grid point past 5 % already fails.
+    ("odometry_over.rate", F(1, 20), "the design's 5 %"),
+    ("odometry_under.rate", F(1, 20), "the design's 5 %"),
+    # the fixed part, 5 m (same source): a real fixed part of 5 m + 1 mm exceeds the doubt by 1 mm
+    ("odometry_over.fixed", F(5), "the design's 5 m"),
+    # the detection error, world.detection = 1 m (SUBSET-036 4.2.10.2, from memory): the doubt
+    # carries the design's 1 m; a real detection error of 1.001 m moves the real front 1 mm
+    # further than the doubt covers
+    ("detection", F(1), "world.detection"),
+])
+def test_margin_thresholds_are_the_designs_own_figures(key, stated, source):
+    from verifier.lang.scope import VARY
+    from verifier.smt.margin import threshold
+    pack, rule = _shipped("real-front-inside-interval")
+    t = threshold(pack, rule, 1, key)
+    assert t.status == "exact", (source, t)
+    assert t.holds_at == stated, source
+    assert t.fails_at == stated + VARY[key].grid, source
+    _past_threshold_replays(pack, rule, t)
+
+
+def test_margin_leg_distance_threshold_of_the_automatic_step():
+    # automatic-step-stays-in-range at 1 leg: D_LRBG is coded at the 10 m step as
+    # floor(D_LRBG / 10 + 1/2) <= 32766 (SUBSET-026 7.5.1.13, 7.5.1.129; rounding to the nearest,
+    # docs/design.md 4.4), i.e. D_LRBG < 327,665 m. The estimate is furthest from the group after a
+    # change of cab at the start of the leg: the front moves to the other cab, train length 1000 m
+    # less the antenna's 2 m ([world] defaults of the pack), 998 m, then the measured distance E.
+    # The over-reading bound (5 m + 5 % of E; the detection error has a bound of its own) gives
+    # E - L <= 5 + E / 20, so E <= (L + 5) / 0.95. Fails when 998 + (L + 5) / 0.95 >= 327,665:
+    # L >= 0.95 x 326,667 - 5 = 310,328.65 m. Worked with fractions:
+    limit = F(95, 100) * (F(327665) - (F(1000) - F(2))) - 5
+    assert limit == F("310328.65")
+    from verifier.smt.margin import threshold
+    pack, rule = _shipped("automatic-step-stays-in-range")
+    t = threshold(pack, rule, 1, "leg_distance.high")
+    assert (t.status, t.fails_at, t.holds_at) == ("exact", limit, limit - F(1, 1000))
+    world = _past_threshold_replays(pack, rule, t)
+    assert world.legs[0].cab_change and world.length == 1000 and world.antenna == 2
+
+
+def test_margin_slack_of_the_10_cm_rounding_is_approached_not_reached():
+    # rounding-at-10-cm: a doubt grows by w + (ceil(x + w) - (x + w)) in the widened rounding
+    # (docs/design.md 4.4): w <= 5 cm (D_LRBG rounded to the nearest 10 cm) plus less than one
+    # 10 cm step, so less than 15 cm, by as little as one likes: the slack 15 cm - growth has no
+    # least value, 0 is approached and never reached.
+    from verifier.smt.margin import slacks
+    pack, rule = _shipped("rounding-at-10-cm")
+    for s in slacks(pack, rule, 1):
+        assert s.status == "range" and s.low == 0 and 0 < s.high <= F(1, 1000)
+
+
+def test_margin_envelope_is_tight():
+    # real-front-inside-interval: a world in which the reading error equals the doubt and the
+    # doubts fall on the step puts the real front exactly on a safe end: slack 0 m (tight)
+    from verifier.smt.margin import slacks
+    pack, rule = _shipped("real-front-inside-interval")
+    assert [s.status for s in slacks(pack, rule, 1)] == ["tight", "tight"]
+
+
+def test_margin_slack_of_the_automatic_step_is_15_cm():
+    # automatic-step-is-the-finest at 1 leg: the 1 m step is used only when something does not fit
+    # at 10 cm. D_LRBG fits at 10 cm while floor(10 x D_LRBG + 1/2) <= 32766 (SUBSET-026 7.5.1.13
+    # and 7.5.1.129; rounding to the nearest, docs/design.md 4.4), i.e. D_LRBG < 3276.65 m. The
+    # doubts cannot be what does not fit at 1 leg: at most 63 m Q_LOCACC + 5 m + 5 % of a measured
+    # distance under 12 km / 0.95 + 1 m, far below 3276.5 m. So max(...) is at least 3276.65 m,
+    # reached with D_LRBG = 3276.65 m exactly: the slack of "> 3276.5 m" is 0.15 m, reached.
+    assert F(63) + 5 + F(1, 20) * (F(12000) + 5) / F(95, 100) + 1 < F("3276.5")
+    from verifier.smt.margin import slacks
+    pack, rule = _shipped("automatic-step-is-the-finest")
+    (s,) = slacks(pack, rule, 1)
+    assert (s.status, s.low, s.high) == ("slack", F("0.15"), F("0.15"))

@@ -37,11 +37,13 @@ BAD_NUMBERS = [
         "test": {"--max-examples": ["0", "-1"], "--call-timeout": ["nan", "-1", "inf", "0"],
                  "--legs": ["9", "-1"], "--seed": ["-1"]},
         "simulate": {"--legs": ["9", "-1"]},
+        "margin": {"--timeout": ["nan", "inf", "0"], "--rlimit": ["0", "-5"], "--legs": ["9", "-1"]},
     }.items()
     for opt, values in opts.items() for value in values]
 
 POSITIONAL = {"check": ["p.toml"], "diff": ["p.toml", "p.toml"], "mutate": ["p.toml"],
-              "test": ["p.toml", "--impl", "nowhere:f"], "simulate": ["w.toml", "--pack", "p.toml"]}
+              "test": ["p.toml", "--impl", "nowhere:f"], "simulate": ["w.toml", "--pack", "p.toml"],
+              "margin": ["p.toml"]}
 
 
 @pytest.mark.parametrize("cmd,opt,value", BAD_NUMBERS)

@@ -14,7 +14,7 @@ import time
 from pathlib import Path
 
 from verifier.about import CAUTION, __version__
-from verifier.api import CheckOptions, check_packs
+from verifier.api import CheckOptions, MarginOptions, check_packs, margins
 from verifier.errors import PackError, UsageError, VerifierError, WriteError, suggest
 from verifier.evidence.cexfile import stale_files
 from verifier.evidence.ciformats import render
@@ -30,6 +30,7 @@ from verifier.run import coverage
 from verifier.run.cache import Cache
 from verifier.run.engine import VERDICTS, exit_code, proof_detail, proof_words
 from verifier.run.loader import load_all, load_pack
+from verifier.run.margin import margin_table
 from verifier.run.parallel import MAX_JOBS, check_jobs, resolve_jobs
 from verifier.smt.export import write_for_results
 from verifier.terminal import COLOR_CHOICES, LiveProgress, print_table, wants_color
@@ -143,6 +144,40 @@ def _note_stale_files(out: Path, packs, results) -> None:
         print(f"note: {path.as_posix()} is from an earlier run: rule {rule_id} {words}; the file "
               f"is kept ('verifier replay' re-judges it; delete it if it is no longer evidence)",
               file=sys.stderr)
+
+
+def cmd_margin(args) -> int:
+    pack = load_pack(args.pack)
+    opts = MarginOptions(rules=tuple(args.rule or ()), vary=tuple(args.vary) if args.vary else MarginOptions().vary,
+                         legs=args.legs, rlimit=args.rlimit,
+                         timeout=args.timeout if args.timeout is not None else MarginOptions().timeout,
+                         core=not args.no_core, out=None if args.no_files else Path(args.out))
+    if args.report:
+        ensure_ours(Path(args.report))  # refuse a foreign directory before any work
+    if opts.out is not None and opts.out.exists() and not opts.out.is_dir():
+        raise UsageError(f"--out {opts.out.as_posix()} exists and is not a directory")
+    def progress(p, rule):   # a line a rule on a terminal (the searches take a while)
+        if sys.stderr.isatty():
+            print(f"margin: {p.name}/{rule}", file=sys.stderr)
+
+    run = margins(pack, opts, progress=progress)
+    doc = run.as_json()
+    if args.json:
+        print(json.dumps({**doc, "caution": CAUTION}, indent=2, sort_keys=True))
+    else:
+        print(margin_table(run))
+    if args.report:
+        try:
+            page = write_report(Path(args.report), [pack], [run.checked], [],
+                                CheckOptions(legs=args.legs, rules=opts.rules, rlimit=args.rlimit),
+                                margins={pack.name: doc["rules"]})
+            print(f"report: {page.as_posix()}", file=sys.stderr)
+        except WriteError as exc:
+            print(f"verifier: error: the report: {exc}", file=sys.stderr)
+            return EXIT_INPUT
+    if any(m.errors for m in run.rules):
+        return EXIT_INTERNAL
+    return EXIT_OK
 
 
 def cmd_diff(args) -> int:
@@ -497,6 +532,32 @@ def build_parser() -> argparse.ArgumentParser:
                    "implementation with this one (default: the one each file records)")
     r.add_argument("--path", action="append", metavar="DIR", help="put DIR on the import path (repeatable)")
     r.set_defaults(func=cmd_replay)
+
+    m = sub.add_parser("margin", help="how far each rule that holds is from failing, and what its proof needs",
+                       description="Check PACK, then for every rule that holds: its slack (the least "
+                                   "distance from failing over the worlds in scope, with that world), "
+                                   "the threshold of each [world] bound named by --vary (moved in the "
+                                   "real world only; the designs keep the pack's values), and the named "
+                                   "assumptions its proof needs. Margins are found up to the rule's bound "
+                                   "(the base bound of a proof for any number of legs). Exit code: 0 "
+                                   "done; 2 bad input; 4 the simulator disagreed with a margin's world.")
+    m.add_argument("pack", metavar="PACK")
+    m.add_argument("--rule", action="append", metavar="ID", help="only this rule (repeatable)")
+    m.add_argument("--vary", action="append", metavar="KEY",
+                   help="a [world] bound whose threshold to find (repeatable; default: "
+                        + ", ".join(MarginOptions().vary) + "; also antenna.low, antenna.high)")
+    m.add_argument("--legs", type=_bound_arg, metavar="K", help="bound: movement legs, 0..8 (default: the rule's)")
+    m.add_argument("--no-core", action="store_true", help="leave out the assumptions each proof needs")
+    m.add_argument("--timeout", type=seconds_arg, metavar="SECONDS", help="wall-clock guard per search (default 120)")
+    m.add_argument("--rlimit", type=_rlimit_arg, metavar="N", help="deterministic solver budget per check (default 500000000)")
+    m.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
+    m.add_argument("--out", default="margins", metavar="DIR",
+                   help="where the worlds go (DIR/<pack>/<rule>.slack.json, DIR/<pack>/<rule>.<key>.json, "
+                        "each with its diagram; default margins/, apart from the counterexamples that "
+                        "replay re-judges)")
+    m.add_argument("--no-files", action="store_true", help="write no world files")
+    m.add_argument("--report", metavar="DIR", help="also write an evidence report with a margins section")
+    m.set_defaults(func=cmd_margin)
 
     s = sub.add_parser("simulate", help="evaluate one hand-written world exactly",
                        description="Print the real state, the estimate, the position report with "

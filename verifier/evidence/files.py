@@ -30,6 +30,21 @@ class Files:
                                        (diagram.svg_path(target), diagram.render(doc, rule, st))])
         return target.as_posix()
 
+    def margin(self, pack: Pack, rule: Rule, st: State, *, what: str, verdict: str, bound: int,
+               scope, note: str) -> str:
+        """A world a margin was found in (``verifier margin``: where the slack is least, or the
+        first failing world past a threshold) and its diagram, as ``<pack>/<rule>.<what>.json``
+        (``out`` is not the counterexamples' folder, which ``replay`` re-judges whole); ``scope``
+        is the real world's (a threshold moves one bound)."""
+        doc = cexfile.build(pack, rule, st, verdict=verdict, bound=bound, solver="",
+                            minimal=True)
+        doc["scope"] = scope.as_json()
+        doc["margin"] = {"what": what, "note": note}
+        target = self.out / pack.name / f"{rule.id}.{what}.json"
+        cexfile.write_files(self.out, [(target, cexfile.dumps(doc)),
+                                       (diagram.svg_path(target), diagram.render(doc, rule, st))])
+        return target.as_posix()
+
     def induction(self, pack: Pack, rule: Rule, lemmas, outcome, bound: int, solver: str) -> str:
         """The counterexample to induction of ``outcome`` (``verifier.run.induct.prove``) and its
         diagram, beside the counterexamples."""

@@ -210,7 +210,7 @@ def _assumptions(pack) -> dict:
             "onboard": formulas(pack.onboard), "trackside": formulas(pack.trackside)}
 
 
-def build(packs, results, diags, opts, *, explained: dict) -> tuple[dict, dict]:
+def build(packs, results, diags, opts, *, explained: dict, margins: dict | None = None) -> tuple[dict, dict]:
     """The manifest and the timings (plain data)."""
     by_pack = {p.name: p for p in packs}
     budget = opts.rlimit if opts.rlimit is not None else DEFAULT_RLIMIT
@@ -263,14 +263,17 @@ def build(packs, results, diags, opts, *, explained: dict) -> tuple[dict, dict]:
         "traceability": traceability(packs, results),
         "files": {"page": "index.html", "timings": "timings.json"},
     }
+    if margins is not None:     # computed by the run stage (verifier margin), never here
+        manifest["margins"] = margins
     total = round(sum(t["seconds"] for t in timings), 3)
     original = round(sum(t.get("original_seconds", t["seconds"]) for t in timings), 3)
     return manifest, {"format": FORMAT, "rules": timings, "total_seconds": total,
                       "original_total_seconds": original}
 
 
-def write_report(out: Path, packs, results, diags, opts) -> Path:
-    """Write the report into ``out``; return the page's path."""
+def write_report(out: Path, packs, results, diags, opts, margins: dict | None = None) -> Path:
+    """Write the report into ``out``; return the page's path. ``margins``: pack name -> the
+    margins of its rules as JSON (``verifier.run.margin``), shown in a section of their own."""
     out = Path(out)
     prepare_dir(out)
     by_pack = {p.name: p for p in packs}
@@ -297,7 +300,7 @@ def write_report(out: Path, packs, results, diags, opts) -> Path:
                 "file": rel.as_posix(), "sha256": _sha(data), "diagram": rel.with_suffix(".svg").as_posix(),
                 "diagram_sha256": _sha(svg.encode("utf-8")), "checked": e.checked}
             stories[(pr.name, r.rule)] = ("ok", e.text, svg)
-    manifest, timings = build(packs, results, diags, opts, explained=explained)
+    manifest, timings = build(packs, results, diags, opts, explained=explained, margins=margins)
     cexfile.write_atomic(out / "timings.json", cexfile.dumps(timings), root=out)
     page = render_html(manifest, timings, stories, packs)
     cexfile.write_atomic(out / "index.html", page, root=out)
@@ -606,6 +609,39 @@ def _rule_section(a, p: dict, r: dict, anchor: str, t: dict | None, stories: dic
     a("</section>")
 
 
+def _margins_section(a, margins: dict, by_name: dict) -> None:
+    """How far each rule that holds is from failing, the thresholds of the [world] bounds and
+    the assumptions each proof needs (DESIGN 9), as computed by ``verifier margin``."""
+    a('<h2 id="margins">Margins</h2>')
+    a('<p class="muted">For each rule that holds: its slack (the least distance from failing over '
+      "the worlds in scope), the furthest value of each [world] bound of the real world at which it "
+      "still holds (the onboard and trackside designs keep the pack's values) and the assumptions "
+      "its proof needs. A margin is a property of the stated model, like a verdict.</p>")
+    a('<table id="margin-table"><colgroup><col style="width:26%"><col></colgroup><thead><tr><th>Rule</th>'
+      "<th>Slack, thresholds and assumptions</th></tr></thead><tbody>")
+    for pack, rules in sorted(margins.items()):
+        for m in rules:
+            anchor = by_name.get((pack, m["id"]))
+            name = f'<a href="#{_e(anchor)}"><code>{_e(m["id"])}</code></a>' if anchor else f'<code>{_e(m["id"])}</code>'
+            if m["verdict"] != "holds":
+                a(f'<tr class="margin"><td>{name}</td><td class="muted">{_e(m["verdict"])}: no margin</td></tr>')
+                continue
+            items = [f'slack of <code>{_e(s["part"])}</code>: {_e(s["words"])}' for s in m["slack"]]
+            if not m["slack"]:
+                items.append("not a distance rule: no slack")
+            items += [f'<code>{_e(t["key"])}</code>: {_e(t["words"])}' for t in m["thresholds"]]
+            asm = m.get("assumptions")
+            if asm:
+                items.append("needs: " + (", ".join(f"<code>{_e(x)}</code>" for x in asm["needed"]) or "nothing named"))
+                if asm["not_needed"]:
+                    items.append("holds whatever: " + ", ".join(f"<code>{_e(x)}</code>" for x in asm["not_needed"]))
+            if m.get("any_number_of_legs"):
+                items.append(f"found up to the base bound of {m['legs']} legs (the verdict is for any number)")
+            a(f'<tr class="margin" data-rule="{_e(m["id"])}"><td>{name}</td><td><ul class="cites">'
+              + "".join(f"<li>{x}</li>" for x in items) + "</ul></td></tr>")
+    a("</tbody></table>")
+
+
 def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
     secs = {(t["pack"], t["rule"]): t for t in timings["rules"]}
     anchors = _anchors(manifest)
@@ -627,6 +663,9 @@ def render_html(manifest: dict, timings: dict, stories: dict, packs) -> str:
       'Manifest: <a href="manifest.json">manifest.json</a>; timings: <a href="timings.json">timings.json</a>.</p>')
     _first_screen(a, manifest, timings, anchors)
     _verdict_table(a, manifest, secs, anchors)
+
+    if manifest.get("margins") is not None:
+        _margins_section(a, manifest["margins"], by_name)
 
     a('<h2 id="rules">Rules in detail</h2>')
     for i, p in enumerate(manifest["packs"]):

@@ -87,3 +87,61 @@ class Scope:
                 "g2_orientation": self.g2_orientation, "g2_balises": list(self.g2_balises),
                 "g2_locacc": [q(x) for x in self.g2_locacc]}),
         }
+
+
+# The [world] bounds a margin may move (``verifier margin --vary KEY``): for each, whether a
+# worse real world has a larger ("up") or a smaller ("down") value, the grid its threshold is
+# found on, the unit it is written in and how far the search goes. Q_LOCACC is a whole number
+# of metres, so its grid is 1 m.
+@attrs.frozen
+class Vary:
+    key: str
+    way: str            # "up" or "down"
+    grid: Fraction
+    unit: str           # "m", "%" (a rate, shown in per cent) or ""
+    limit: Fraction     # the search stops here (up) or at 0 (down)
+
+
+VARY = {v.key: v for v in (
+    Vary("odometry_over.rate", "up", F(1, 1000000), "%", F(1)),
+    Vary("odometry_over.fixed", "up", F(1, 1000), "m", F(10000)),
+    Vary("odometry_under.rate", "up", F(1, 1000000), "%", F(1)),
+    Vary("odometry_under.fixed", "up", F(1, 1000), "m", F(10000)),
+    Vary("detection", "up", F(1, 1000), "m", F(10000)),
+    Vary("locacc.low", "down", F(1), "m", F(0)),
+    Vary("locacc.high", "up", F(1), "m", F(10000)),
+    Vary("leg_distance.low", "down", F(1, 1000), "m", F(0)),
+    Vary("leg_distance.high", "up", F(1, 1000), "m", F(10000000)),
+    Vary("train_length.low", "down", F(1, 1000), "m", F(0)),
+    Vary("train_length.high", "up", F(1, 1000), "m", F(100000)),
+    Vary("antenna.low", "down", F(1, 1000), "m", F(0)),
+    Vary("antenna.high", "up", F(1, 1000), "m", F(100000)),
+)}
+#: What ``--vary`` moves when it is not given (DESIGN 9).
+VARY_DEFAULT = ("odometry_over.rate", "odometry_over.fixed", "odometry_under.rate",
+                "odometry_under.fixed", "detection", "locacc.low", "locacc.high",
+                "leg_distance.low", "leg_distance.high", "train_length.low", "train_length.high")
+
+
+def bound_of(scope: Scope, key: str) -> Fraction:
+    """The value of one [world] bound (a key of :data:`VARY`)."""
+    name, _, part = key.partition(".")
+    v = getattr(scope, name)
+    if isinstance(v, Bound):
+        return getattr(v, part)
+    if part:
+        return v[0 if part == "low" else 1]
+    return v
+
+
+def with_bound(scope: Scope, key: str, value: Fraction) -> Scope:
+    """``scope`` with one [world] bound set to ``value``."""
+    name, _, part = key.partition(".")
+    v = getattr(scope, name)
+    if isinstance(v, Bound):
+        new = attrs.evolve(v, **{part: value})
+    elif part:
+        new = (value, v[1]) if part == "low" else (v[0], value)
+    else:
+        new = value
+    return attrs.evolve(scope, **{name: new})

@@ -115,7 +115,7 @@ class PackResult:
     scope: dict = attrs.field(factory=dict, eq=False)   # what its verdicts cover (evidence.coverage)
 
 
-def _compare(solved_values: dict, st: State) -> list[str]:
+def compare_values(solved_values: dict, st: State) -> list[str]:
     """Names on which the solver's model and the simulator disagree."""
     out = []
     for name, sv in solved_values.items():
@@ -188,7 +188,7 @@ def check_rule(pack: Pack, rule: Rule, opts: CheckOptions, presolved=None,
     except Exception as exc:  # noqa: BLE001 - reported, never hidden
         return result("error", kind="internal", message=f"the simulator failed: {exc!r}")
     wanted = solved.verdict == "holds"
-    disagree = _compare(solved.smt_values, st)
+    disagree = compare_values(solved.smt_values, st)
     if not fires or expect != wanted or disagree:
         what = "counterexample" if solved.verdict == "violated" else "witness"
         msg = (f"simulator and solver disagree on the {what}: simulator says given={fires}, "

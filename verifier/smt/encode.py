@@ -15,11 +15,14 @@ defining equality, so models can be compared value by value with the simulator.
 
 from __future__ import annotations
 
+import math
+
 import z3
 
 from verifier.check.model import Pack, Rule
 from verifier.lang import ast
 from verifier.lang.ast import COUNT, ZERO
+from verifier.lang.scope import Scope
 from verifier.lang.vocab import LEG, MAX_CODE, Q_SCALES, UNKNOWN_CODE, Direction, Running
 
 _DIR_CODE = {Direction.NOMINAL: 1, Direction.REVERSE: -1, Direction.UNKNOWN: 0}
@@ -53,6 +56,17 @@ class Terms:
         self._memo: dict = {}
         self._fresh = 0
         self._wire_done = False
+        # the real world's bounds (the [world] table as the physics obeys it); the onboard's
+        # bounds (est.bound_over, the expectation window) and every world.* a design formula
+        # reads keep the pack's stated values. ``verifier margin --vary`` moves this one only.
+        self.world = pack.scope
+        self.named: dict = {}    # assumption name -> the constraints it stands for (margins)
+
+    def bounded(self, name: str, *cs) -> None:
+        """Constraints of one named assumption (a [world] bound): kept, and remembered under
+        ``name`` so that a margin's core can track them one by one."""
+        self.constraints.extend(cs)
+        self.named.setdefault(name, []).extend(cs)
 
     # ---- helpers ------------------------------------------------------------------------
     def real(self, name):
@@ -96,7 +110,7 @@ class Terms:
     def _static(self) -> dict:
         """The inputs that do not change with the legs, their scope, and what follows from
         them alone (DESIGN 4.1, 4.2 at the detection instant, 4.3)."""
-        sc, C = self.pack.scope, self.constraints
+        sc, C = self.world, self.constraints
         num = self.num
         balises, read = self.int("lrbg.balises"), self.int("lrbg.read")
         linked = self.boolean("lrbg.linked")
@@ -111,13 +125,19 @@ class Terms:
                             "passage.direction": direction, "passage.running": pfwd,
                             "passage.detect_error": det})
         locacc_r = z3.ToReal(locacc)
-        C += [balises >= sc.balises[0], balises <= sc.balises[1], read >= 1, read <= balises,
-              locacc >= int(sc.locacc[0]), locacc <= int(sc.locacc[1]),
-              offset >= -locacc_r, offset <= locacc_r,
-              length >= num(sc.train_length[0]), length <= num(sc.train_length[1]),
-              antenna >= num(sc.antenna[0]), antenna <= num(sc.antenna[1]), antenna <= length,
-              z3.Or(direction == 1, direction == -1),
-              det >= -num(sc.detection), det <= num(sc.detection)]
+        B = self.bounded
+        B("world.balises", balises >= sc.balises[0], balises <= sc.balises[1])
+        C += [read >= 1, read <= balises]
+        # Q_LOCACC is a whole number of metres: a bound between two is the whole metre inside
+        B("world.locacc.low", locacc >= math.ceil(sc.locacc[0]))
+        B("world.locacc.high", locacc <= math.floor(sc.locacc[1]))
+        C += [offset >= -locacc_r, offset <= locacc_r]
+        B("world.train_length.low", length >= num(sc.train_length[0]))
+        B("world.train_length.high", length <= num(sc.train_length[1]))
+        B("world.antenna.low", antenna >= num(sc.antenna[0]))
+        B("world.antenna.high", antenna <= num(sc.antenna[1]))
+        C += [antenna <= length, z3.Or(direction == 1, direction == -1)]
+        B("world.detection", det >= -num(sc.detection), det <= num(sc.detection))
         return {"lrbg.balises": balises, "lrbg.read": read, "lrbg.linked": linked,
                 "lrbg.locacc": locacc_r, "lrbg.offset": offset, "train.length": length,
                 "train.antenna": antenna, "passage.direction": direction,
@@ -126,11 +146,11 @@ class Terms:
     def _passage_bound(self, S: dict) -> None:
         """The reading error bound at the passage itself (j = 0, E = 0; DESIGN 4.1). With the
         detection error on top of the odometry bound (the default) it is bounded on its own."""
-        sc, det = self.pack.scope, S["passage.detect_error"]
+        sc, det = self.world, S["passage.detect_error"]
         if not sc.detection_in_odometry:
             return
-        self.constraints.extend([self.pos(-det) <= self.num(sc.odometry_over.fixed),
-                                 self.pos(det) <= self.num(sc.odometry_under.fixed)])
+        self.bounded("world.odometry_over", self.pos(-det) <= self.num(sc.odometry_over.fixed))
+        self.bounded("world.odometry_under", self.pos(det) <= self.num(sc.odometry_under.fixed))
 
     def _bounds_at(self, measured) -> tuple:
         """The over- and under-reading bounds the onboard uses at a measured distance: the
@@ -172,12 +192,12 @@ class Terms:
         whether the leg happens (the bounded encoding fixes inactive legs to do nothing);
         ``index`` is the leg's number. With a ``plan`` the accumulators and frozen legs of
         DESIGN 4.7 are updated too, their bodies read through ``view``."""
-        sc, C, num = self.pack.scope, self.constraints, self.num
+        sc, C, num = self.world, self.constraints, self.num
         cab, fwd, dist, odo = leg
         length = S["train.length"]
-        C += [z3.Implies(active, z3.And(dist >= num(sc.leg_distance[0]),
-                                        dist <= num(sc.leg_distance[1]))),
-              dist >= 0, odo >= 0]
+        self.bounded("world.leg_distance", z3.Implies(active, z3.And(dist >= num(sc.leg_distance[0]),
+                                                                     dist <= num(sc.leg_distance[1]))))
+        C += [dist >= 0, odo >= 0]
         o, op = st["o"], st["op"]
         front_c = z3.If(cab, st["front"] - self.along(o, length), st["front"])
         est_c = z3.If(cab, st["est_p"] - self.along(op, length), st["est_p"])
@@ -199,7 +219,10 @@ class Terms:
                   under <= num(sc.odometry_under.fixed) + num(sc.odometry_under.rate) * basis + xu]
         # the bound holds from the current LRBG: ``bounded_if`` says when these counters are
         # the current LRBG's (G1's, up to a relocation; DESIGN 4.8)
-        C += limits if bounded_if is None else [z3.Implies(bounded_if, x) for x in limits]
+        if bounded_if is not None:
+            limits = [z3.Implies(bounded_if, x) for x in limits]
+        self.bounded("world.odometry_over", limits[0])
+        self.bounded("world.odometry_under", limits[1])
         known = S["known"]
         fields = {
             "index": index, "cab_change": cab, "running": fwd, "distance": dist,
@@ -375,6 +398,8 @@ class Terms:
             if formula.node.ty == "Direction":
                 sort = "int"
             self._memo[dep] = self.define(f"{dep[0]}.{dep[1]}", term, sort)
+            # the defining equality, just added: an assumption a margin's core may name
+            self.named[f"[{dep[0]}] {dep[1]}"] = [self.constraints[-1]]
         return self._memo[dep]
 
     def leg_field(self, i: int, field: str):
@@ -581,8 +606,11 @@ class Terms:
 class Encoding(Terms):
     """The world of one pack, up to ``bound`` legs, in one z3 context."""
 
-    def __init__(self, pack: Pack, bound: int, ctx: z3.Context, prefix: str = ""):
+    def __init__(self, pack: Pack, bound: int, ctx: z3.Context, prefix: str = "",
+                 world: Scope | None = None):
         self._setup(pack, ctx, prefix, [])
+        if world is not None:       # the real world's bounds, when they differ from the pack's
+            self.world = world
         self.K = bound
         self.inputs: dict = {}         # input name -> z3 constant (for models and the ladder)
         two = pack.scope.groups == 2
@@ -635,7 +663,7 @@ class Encoding(Terms):
 
     # ---- the second group (DESIGN 4.8) ----------------------------------------------------
     def _second_inputs(self) -> dict:
-        sc, C, num = self.pack.scope, self.constraints, self.num
+        sc, C, num = self.world, self.constraints, self.num
         g = {"distance": self.real("g2.distance"), "side": self.int("g2.side"),
              "orientation": self.int("g2.orientation"), "balises": self.int("g2.balises"),
              "read": self.int("g2.read"), "linked": self.boolean("g2.linked"),
@@ -653,8 +681,10 @@ class Encoding(Terms):
             g["balises"] >= sc.g2_balises[0], g["balises"] <= sc.g2_balises[1],
             g["read"] >= 1, g["read"] <= g["balises"],
             g["locacc"] >= int(sc.g2_locacc[0]), g["locacc"] <= int(sc.g2_locacc[1]),
-            g["offset"] >= -acc, g["offset"] <= acc,
-            g["detect_error"] >= -num(sc.detection), g["detect_error"] <= num(sc.detection),
+            g["offset"] >= -acc, g["offset"] <= acc]
+        self.bounded("world.detection", g["detect_error"] >= -num(sc.detection),
+                     g["detect_error"] <= num(sc.detection))
+        C += [
             z3.Implies(z3.Not(g["found"]), z3.And(g["at"] == 0, g["detect_error"] == 0)),
             z3.Implies(g["found"], z3.And(g["at"] >= 1, g["at"] <= self.inputs["legs.count"]))]
         g["lrbg"] = self.boolean(self.prefix + "g2.lrbg")   # defined by _handover

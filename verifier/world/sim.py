@@ -95,8 +95,10 @@ def _m(x) -> str:
     return f"{fmt(x)} m"
 
 
-def scope_problems(world: World, scope: Scope, bound: int) -> list[str]:
-    """Why ``world`` is outside the scope (an empty list when it is inside)."""
+def scope_problems(world: World, scope: Scope, bound: int, design: Scope | None = None) -> list[str]:
+    """Why ``world`` is outside the scope (an empty list when it is inside). ``design``: the
+    pack's own scope when ``scope`` is a real world with a bound moved (``verifier margin``):
+    the onboard's expectation window of a second group keeps the pack's bounds."""
     out = []
     lo, hi = scope.balises
     if not lo <= world.balises <= hi:
@@ -130,7 +132,7 @@ def scope_problems(world: World, scope: Scope, bound: int) -> list[str]:
     # of G2 here, then from G2 on (the rest of the world as seen from G2, DESIGN 4.8)
     if world.g2 is not None and scope.groups == 2:
         out += _second_group_problems(world, scope)
-        h = handover(world, scope)
+        h = handover(world, design or scope)
         if h.accepted:
             out += _reading_problems(world.detect_error, world.legs[:world.g2.at], scope)
             out += [f"after G2: {p}" for p in _reading_problems(h.current.detect_error, h.current.legs, scope)]
