@@ -96,6 +96,25 @@ def test_margins_replayed_and_not_a_distance_rule(write_pack, tmp_path):
     assert by["broken"].verdict == "violated" and by["broken"].thresholds == ()
 
 
+def test_a_bound_the_core_does_not_need_is_not_searched_and_the_search_agrees(write_pack):
+    # the same rule as above: its proof needs the train's least length and the antenna's
+    # greatest offset, never the detection error, so the detection error's threshold is
+    # "holds whatever it is" without a search; the search itself (core off) finds no failure
+    # up to its limit, and the train length's threshold is searched as before
+    rules = rule_toml("gap", "train.length - train.antenna >= 60 m")
+    pack = _small(write_pack, rules, world='train_length = ["100 m", "200 m"]')
+    opts = dict(vary=("train_length.low", "detection"), out=None)
+    (with_core,) = margins(pack, MarginOptions(**opts)).rules
+    (searched,) = margins(pack, MarginOptions(core=False, **opts)).rules
+    assert {"world.train_length.low", "world.antenna.high"} <= set(with_core.core.needed)
+    assert "world.detection" in with_core.core.not_needed
+    low, det = with_core.thresholds
+    assert (det.status, det.holds_at, det.fails_at) == ("not_needed", None, None)
+    assert "world.detection" in det.reason
+    assert (low.status, low.holds_at) == ("exact", F(90))
+    assert searched.thresholds[1].status == "beyond" and searched.thresholds[0] == low
+
+
 def test_slack_of_each_pair_of_a_chain(write_pack):
     # the antenna is 2..30 m behind the front (the default [world] antenna range): in
     # 1 m <= train.antenna <= 40 m the first pair is at least 2 - 1 = 1 m from failing, the
@@ -154,9 +173,10 @@ def test_every_default_key_of_the_main_envelope():
         "odometry_over.rate": ("exact", F(1, 20)), "odometry_under.rate": ("exact", F(1, 20)),
         "odometry_over.fixed": ("exact", F(5)), "odometry_under.fixed": ("exact", F(5)),
         "detection": ("exact", F(1)),
-        "locacc.low": ("beyond", F(0)), "locacc.high": ("beyond", F(10000)),
-        "leg_distance.low": ("beyond", F(0)), "leg_distance.high": ("beyond", F(10000000)),
-        "train_length.low": ("beyond", F(0)), "train_length.high": ("beyond", F(100000))}
+        # the core shows the proof needs none of these bounds' constraints: no search
+        "locacc.low": ("not_needed", None), "locacc.high": ("not_needed", None),
+        "leg_distance.low": ("not_needed", None), "leg_distance.high": ("not_needed", None),
+        "train_length.low": ("not_needed", None), "train_length.high": ("not_needed", None)}
 
 
 @pytest.mark.parametrize("path, rule_id, needs", [

@@ -17,7 +17,7 @@ from verifier.about import CAUTION
 from verifier.check.model import Pack, Rule
 from verifier.errors import UsageError, WriteError, suggest
 from verifier.lang.numbers import fmt
-from verifier.lang.scope import VARY, VARY_DEFAULT, with_bound
+from verifier.lang.scope import VARY, VARY_DEFAULT, bound_of, with_bound
 from verifier.run import engine
 from verifier.run.engine import CheckOptions, RuleResult
 from verifier.smt import margin as smt_margin
@@ -125,19 +125,19 @@ def margins(pack: Pack, opts: MarginOptions = MarginOptions(), files=None,
     rules = {r.id: r for r in pack.rules + pack.lemmas}
     wanted = set(opts.rules) if opts.rules else {r.id for r in pack.rules}
     proved = [(rules[r.rule], r) for r in checked if r.role == "lemma"]
-    out = []
+    out, moved = [], {}
     for res in checked:
         if res.rule not in wanted:
             continue
         if progress:
             progress(pack, res.rule)
         rule = rules[res.rule]
-        out.append(_margin(pack, rule, res, proved, vary, opts, files, res.seconds))
+        out.append(_margin(pack, rule, res, proved, vary, opts, files, res.seconds, moved))
     return MarginRun(result, tuple(out))
 
 
 def _margin(pack: Pack, rule: Rule, res: RuleResult, proved, vary, opts: MarginOptions, files,
-            check_seconds: float) -> RuleMargin:
+            check_seconds: float, moved: dict) -> RuleMargin:
     bound = pack.bound_for(rule, opts.legs)
     base = dict(pack=pack.name, rule=rule.id, verdict=res.verdict, bound=bound,
                 unbounded=res.unbounded, check_seconds=check_seconds)
@@ -147,9 +147,8 @@ def _margin(pack: Pack, rule: Rule, res: RuleResult, proved, vary, opts: MarginO
     rl = opts.rlimit or DEFAULT_RLIMIT
     lemmas = engine.usable_lemmas(proved, bound)
     slacks = tuple(smt_margin.slacks(pack, rule, bound, assume=lemmas, rlimit=rl, timeout=opts.timeout))
-    thresholds = tuple(smt_margin.threshold(pack, rule, bound, k, rlimit=rl, timeout=opts.timeout)
-                       for k in vary)
     core = smt_margin.core(pack, rule, bound, rlimit=rl, timeout=opts.timeout) if opts.core else None
+    thresholds = tuple(_threshold(pack, rule, bound, k, core, rl, opts.timeout, moved) for k in vary)
     errors, written = [], {}
     parts = smt_margin.comparisons(rule)
     for s in slacks:
@@ -181,6 +180,20 @@ def _margin(pack: Pack, rule: Rule, res: RuleResult, proved, vary, opts: MarginO
     lemmas_used = tuple((res.proof or {}).get("lemmas") or ()) if res.unbounded else ()
     return RuleMargin(**base, slacks=slacks, thresholds=thresholds, core=core, lemmas=lemmas_used,
                       files=written, errors=tuple(errors), seconds=time.monotonic() - t0)
+
+
+def _threshold(pack: Pack, rule: Rule, bound: int, key: str, core, rlimit: int, timeout: float,
+               moved: dict):
+    """A threshold, searched for unless the core shows that the proof needs none of the
+    constraints the bound moves (then the rule holds whatever the bound is: no search).
+    ``moved`` keeps :func:`smt_margin.moved_by` by (bound, key) for the pack's rules."""
+    if core is not None and not core.undecided:
+        if (bound, key) not in moved:
+            moved[bound, key] = smt_margin.moved_by(pack, bound, key)
+        names = moved[bound, key]
+        if names and names <= set(core.not_needed):
+            return smt_margin.not_needed(key, Fraction(bound_of(pack.scope, key)), VARY[key].way, names)
+    return smt_margin.threshold(pack, rule, bound, key, rlimit=rlimit, timeout=timeout)
 
 
 def _replay(pack: Pack, rule: Rule, world_flat: dict, values: dict | None, scope, bound: int,
@@ -219,6 +232,8 @@ def threshold_words(t) -> str:
 
     if t.status == "unknown":
         return f"unknown ({t.reason})"
+    if t.status == "not_needed":
+        return f"holds whatever it is ({t.reason})"
     if t.status == "beyond":
         if t.fails_at is None and t.holds_at == t.stated and v.way == "down":
             return f"holds down to {show(t.stated)} ({t.reason})"
@@ -263,7 +278,14 @@ def margin_table(run: MarginRun) -> str:
             cell = slack_words(least) + (f" ({least.part})" if len(m.slacks) > 1 else "")
         rows.append((m.rule, m.verdict, legs, cell))
         lines = [f"slack of {s.part}: {slack_words(s)}" for s in m.slacks]
-        lines += [f"{t.key}: {threshold_words(t)}" for t in m.thresholds]
+        free = [t.key for t in m.thresholds if t.status == "not_needed"]
+        lines += [f"{t.key}: {threshold_words(t)}" for t in m.thresholds if t.status != "not_needed"]
+        if free and len(free) == len(m.thresholds) > 1:
+            lines.append(f"thresholds: none; the rule holds whatever the real world's {len(free)} bounds "
+                         "varied are (the proof needs none of the constraints they move)")
+        elif free:
+            lines.append("holds whatever the real " + ", ".join(free) + (" is" if len(free) == 1 else " are")
+                         + " (the proof needs none of the constraints they move)")
         if m.unbounded and m.thresholds:
             lines.append(f"thresholds found up to the base bound of {m.bound} legs only")
         if m.core is not None:

@@ -61,7 +61,8 @@ class Threshold:
     key: str
     way: str                      # up or down
     stated: Fraction              # the pack's value
-    status: str                   # exact, range, beyond (holds up to the search limit), unknown
+    status: str                   # exact, range, beyond (holds up to the search limit), unknown,
+                                  # not_needed (the rule holds whatever the bound is)
     holds_at: Fraction | None = None    # the furthest value at which the rule was shown to hold
     fails_at: Fraction | None = None    # the nearest value at which a violating world was found
     world: dict | None = None     # the (minimal) violating world at fails_at
@@ -293,6 +294,38 @@ def _snap(x: Fraction, g: Fraction, way: str) -> Fraction:
     """A grid point next to ``x`` on the side of the pack's value."""
     k = x / g
     return (math.floor(k) if way == "up" else math.ceil(k)) * g
+
+
+def moved_by(pack: Pack, bound: int, key: str) -> frozenset | None:
+    """The named assumptions (see :func:`core`) whose constraints change when the real world's
+    bound ``key`` moves, found by encoding the pack's world (every compared value, so the whole
+    world is built; the named constraints are the world's, whatever the rule) at the pack's
+    value and at another and comparing the constraints; None when a constraint that is not named
+    changes too (then no core can say the bound does not matter)."""
+    v = VARY[key]
+    stated = Fraction(bound_of(pack.scope, key))
+    other = stated + v.grid if v.way == "up" or stated - v.grid < v.limit else stated - v.grid
+    if other == stated:
+        return None
+    texts = []
+    for scope in (pack.scope, with_bound(pack.scope, key, other)):
+        enc = Encoding(pack, bound, z3.Context(), world=scope)
+        for name in COMPARED:
+            enc.name(name)
+        tracked = {c.get_id() for cs in enc.named.values() for c in cs}
+        texts.append(({n: [c.sexpr() for c in cs] for n, cs in enc.named.items()},
+                      [c.sexpr() for c in enc.constraints if c.get_id() not in tracked]))
+    (named_a, base_a), (named_b, base_b) = texts
+    if base_a != base_b or set(named_a) != set(named_b):
+        return None
+    return frozenset(n for n in named_a if named_a[n] != named_b[n])
+
+
+def not_needed(key: str, stated: Fraction, way: str, names) -> Threshold:
+    """The threshold of a bound whose constraints the proof does not need (all of ``names``
+    can go together and the rule still holds): it holds whatever the bound is."""
+    return Threshold(key, way, stated, "not_needed",
+                     reason="the proof does not need " + ", ".join(sorted(names)))
 
 
 # ---- the assumptions a proof needs ------------------------------------------------------
