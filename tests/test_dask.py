@@ -103,25 +103,27 @@ def test_check_of_every_shipped_pack_on_a_cluster_is_that_of_jobs_1(cluster, tmp
 
 
 def test_a_worker_killed_mid_run_changes_no_verdict(cluster, serial):
-    """After the first result, one worker process is killed (SIGKILL) while the others are
-    queued or running: the scheduler runs its tasks again on the other worker (and on the one
-    its nanny restarts), and every verdict is the serial one."""
+    """When the first rule's result is in (every other rule's query is then queued or running
+    on the two workers), one worker process is killed (SIGKILL): the scheduler runs its tasks
+    again on the other worker (and on the one its nanny restarts), and every verdict is the
+    serial one."""
     address, client = cluster
     pids = client.run(os.getpid)                    # worker address -> its process id
     victim = sorted(pids.values())[0]
-    calls = []
+    killed = []
 
     def progress(n, total, pack, rule, res):
-        calls.append(n)
-        if len(calls) == 2:                         # the first query's result was asked for
+        if res is not None and rule.role == "rule" and not killed:
             os.kill(victim, signal.SIGKILL)
+            killed.append(n)
 
-    packs = [load_pack(p) for p in PACKS[:2]]
+    packs = [load_pack(PACKS[0])]                   # lemmas, then rules: two phases
     results = check_packs(packs, CheckOptions(out=None, jobs=2, executor="dask", scheduler=address),
                           progress)
     expected = {(p["name"], r["id"]): r["verdict"] for p in json.loads(serial[1])["packs"]
                 for r in p["rules"] + p["lemmas"]}
     got = {(p.name, r.rule): r.verdict for p in results for r in p.results}
+    assert killed
     assert got == {k: v for k, v in expected.items() if k[0] in {p.name for p in packs}}
     with pytest.raises(ProcessLookupError):
         os.kill(victim, 0)                          # it was killed indeed
@@ -326,3 +328,41 @@ def test_the_default_path_never_imports_dask(tmp_path):
 
 def test_shared_pool_takes_a_number_of_local_workers_as_before():
     assert SharedPool(3).spec == ExecutorSpec("local", 3)
+
+
+def test_ctrl_c_cancels_the_runs_tasks_on_the_cluster(cluster):
+    """An interrupt leaving the executor cancels every task it submitted: the scheduler forgets
+    them (the queued ones never run) while the cluster itself stays up for others."""
+    import time
+    address, client = cluster
+    with pytest.raises(KeyboardInterrupt):
+        with open_executor(ExecutorSpec("dask", 2, address)) as ex:
+            for i in range(6):
+                ex.submit(time.sleep, 1 + i * 0.001)
+            raise KeyboardInterrupt
+    left = None
+    for _ in range(100):          # the cancellation reaches the scheduler asynchronously
+        left = client.run_on_scheduler(lambda dask_scheduler: len(dask_scheduler.tasks))
+        if left == 0:
+            break
+        time.sleep(0.1)
+    assert left == 0
+    assert len(client.scheduler_info()["workers"]) == 2
+
+
+def test_verifier_test_on_a_cluster_reports_what_a_local_run_does(cluster, capsys):
+    """`verifier test`: the rules' witnesses are solved on the cluster, the implementation runs
+    here; the report is the local one (but for its measured seconds)."""
+    address, _ = cluster
+    argv = ["test", PACKS[0], "--impl", "kestrel_onboard:report", "--path", str(ROOT / "examples"),
+            "--rule", "seen-from-reading-order", "--max-examples", "20", "--no-files",
+            "--no-cache", "--json"]
+    docs = []
+    for extra in ([], ["--executor", "dask", "--scheduler", address]):
+        assert main(argv + extra) == 0
+        doc = json.loads(capsys.readouterr().out)
+        for rep in doc["implementations"]:
+            rep.pop("seconds", None)
+        docs.append(doc)
+    assert docs[0] == docs[1]
+    assert docs[0]["implementations"][0]["rules"][0]["worlds"] > 0

@@ -240,7 +240,7 @@ def _impl_table(rep) -> str:
 def cmd_test(args) -> int:
     """verifier test PACK --impl MODULE:FUNCTION (logic in verifier.implcheck)."""
     reports = []
-    spec = _executor(args, None)
+    spec = _executor(args, args.jobs)
     progress = LiveProgress(sys.stderr.isatty() and not args.json, wants_color("auto", sys.stderr))
     for path in args.packs:
         pack = load_pack(path)
@@ -517,6 +517,10 @@ def build_parser() -> argparse.ArgumentParser:
     t.add_argument("--no-files", action="store_true", help="write no files")
     t.add_argument("--no-cache", action="store_true", help="do not use .verifier-cache/ for the solver's witnesses")
     t.add_argument("--json", action="store_true", help="print one JSON object")
+    t.add_argument("--jobs", type=_jobs_arg, default=None, metavar="N",
+                   help="solve the rules' witnesses in N worker processes (default 1; with "
+                        "--executor dask and no --scheduler: the LocalCluster's workers, default "
+                        "one per core)")
     _executor_args(t, "where the solver's witnesses are solved (the implementation always runs "
                       "here)")
     t.set_defaults(func=cmd_test)

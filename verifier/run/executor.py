@@ -90,6 +90,23 @@ def open_executor(spec: ExecutorSpec):
     return ProcessExecutor(spec.jobs)
 
 
+class Executor:
+    """What every kind of executor offers (callers never ask which kind they have):
+    ``submit(fn, *args)`` a future; ``outcome(future)`` its result, or :class:`TaskLost`;
+    ``cancel(futures)``; ``stop()`` now, cancelling what is queued; ``close()`` after the
+    work. As a context manager it closes on leaving, or stops if an exception is leaving."""
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, kind, exc, tb):
+        if kind is None:
+            self.close()
+        else:
+            self.stop()
+        return False
+
+
 # ---- local worker processes -------------------------------------------------------------------
 
 def worker_init(parent: int) -> None:
@@ -120,7 +137,7 @@ def worker_init(parent: int) -> None:
     threading.Thread(target=watch, name="verifier-parent-watch", daemon=True).start()
 
 
-class ProcessExecutor:
+class ProcessExecutor(Executor):
     """``jobs`` worker processes on this machine (``spawn``: no z3 state inherited)."""
 
     kind = "local"
@@ -160,16 +177,6 @@ class ProcessExecutor:
     def close(self) -> None:
         self.pool.shutdown(wait=True)
 
-    def __enter__(self):
-        return self
-
-    def __exit__(self, kind, exc, tb):
-        if kind is None:
-            self.close()
-        else:
-            self.stop()
-        return False
-
 
 # ---- Dask ---------------------------------------------------------------------------------------
 
@@ -200,7 +207,7 @@ def local_cluster_options(workers: int) -> dict:
                 silence_logs=logging.CRITICAL)
 
 
-class DaskExecutor:
+class DaskExecutor(Executor):
     """Tasks on a Dask cluster: the scheduler at ``spec.scheduler``, or a LocalCluster of
     ``spec.jobs`` worker processes (one thread each, no dashboard) started here."""
 
@@ -273,13 +280,3 @@ class DaskExecutor:
             except Exception:   # noqa: BLE001
                 pass
             self.cluster = None
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, kind, exc, tb):
-        if kind is None:
-            self.close()
-        else:
-            self.stop()
-        return False

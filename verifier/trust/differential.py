@@ -255,7 +255,7 @@ def run_differential(paths, worlds: int, seed: int | None = None, workers: int =
     jobs = [(sources, n, seed + i, unique_every) for i, n in enumerate(share)]
     spec = executor or ExecutorSpec("local", workers)
     if not spec.parallel:
-        parts = [sweep_batch(jobs[0])]
+        parts = [sweep_batch(job) for job in jobs]
     else:
         with open_executor(spec) as ex:
             futures = [ex.submit(sweep_batch, job) for job in jobs]
