@@ -197,6 +197,34 @@ def _quiet() -> None:
         logging.getLogger(name).setLevel(logging.CRITICAL)
 
 
+class Interrupted(Exception):
+    """A task that z3 stopped on a Ctrl-C in its worker (see :func:`run_task`)."""
+
+
+def run_task(fn, *args):
+    """What a Dask worker runs: ``fn(*args)``. z3 takes SIGINT for itself while it solves,
+    even where the process ignores it, and the solver turns it into KeyboardInterrupt
+    (``verifier.smt.solve.raise_if_interrupted``); in a Dask worker that would end the worker
+    process with a traceback on the terminal. It is an ordinary failure of the task here: the
+    client, interrupted by the same Ctrl-C, is cancelling the run anyway."""
+    try:
+        return fn(*args)
+    except KeyboardInterrupt:
+        raise Interrupted("stopped by an interrupt in the worker") from None
+
+
+def _interrupts_to_the_client(distributed):
+    """A worker plugin for the LocalCluster this run starts: its worker processes ignore SIGINT,
+    as the local pool's do (:func:`worker_init`). A Ctrl-C at the terminal reaches the whole
+    process group; the client then cancels the tasks and closes the cluster itself, instead of
+    every worker dying with a traceback and its nanny starting it again. (Defined here, it
+    travels to the workers by value; a team's own cluster is left as it is.)"""
+    class IgnoreInterrupts(distributed.WorkerPlugin):
+        def setup(self, worker):
+            signal.signal(signal.SIGINT, signal.SIG_IGN)
+    return IgnoreInterrupts()
+
+
 def local_cluster_options(workers: int) -> dict:
     """A LocalCluster of ``workers`` single-threaded worker processes on this machine, with no
     dashboard; its scheduler's small HTTP server (health, metrics) on a free port of localhost
@@ -232,13 +260,14 @@ class DaskExecutor(Executor):
             else:
                 self.cluster = distributed.LocalCluster(**local_cluster_options(spec.jobs))
                 self.client = distributed.Client(self.cluster, set_as_default=False)
+                self.client.register_plugin(_interrupts_to_the_client(distributed), name="verifier-sigint")
         except BaseException:
             self._close_cluster()
             raise
         self.jobs = spec.jobs
 
     def submit(self, fn, *args):
-        f = self.client.submit(fn, *args, pure=False, retries=RETRIES)
+        f = self.client.submit(run_task, fn, *args, pure=False, retries=RETRIES)
         self.futures.append(f)
         return f
 

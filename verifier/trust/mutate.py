@@ -258,10 +258,31 @@ def observable_names(pack: Pack | None = None) -> list[str]:
     return out
 
 
-def baseline(pack: Pack, timeout: float) -> dict:
-    """The original pack's answer to each rule's violation question (sat = violated)."""
-    return {r.id: violation_status(pack, r, pack.bound_for(r), rlimit=200_000_000, timeout=timeout)
-            for r in pack.rules}
+def baseline(pack: Pack, timeout: float, executor=None) -> dict:
+    """The original pack's answer to each rule's violation question (sat = violated), each
+    question a task on ``executor`` when one is given (a lost one: ``unknown``, so that rule
+    kills nothing)."""
+    if executor is None:
+        return {r.id: rule_status(pack, r.id, timeout) for r in pack.rules}
+    source = pack_source(pack)
+    futures = [(r.id, executor.submit(source_rule_status, source, r.id, timeout)) for r in pack.rules]
+    out = {}
+    for rid, f in futures:
+        try:
+            out[rid] = executor.outcome(f)
+        except TaskLost:
+            out[rid] = "unknown"
+    return out
+
+
+def rule_status(pack: Pack, rule_id: str, timeout: float) -> str:
+    r = pack.rule(rule_id)
+    return violation_status(pack, r, pack.bound_for(r), rlimit=200_000_000, timeout=timeout)
+
+
+def source_rule_status(source: tuple, rule_id: str, timeout: float) -> str:
+    """A worker's task: one rule's violation question on the pack sent as text."""
+    return rule_status(pack_from_source(source), rule_id, timeout)
 
 
 def run_mutants(pack: Pack, *, timeout: float = 20.0, limit: int | None = None,
@@ -277,14 +298,16 @@ def run_mutants(pack: Pack, *, timeout: float = 20.0, limit: int | None = None,
     which rule is named as the killer may differ (a serial run asks first the rules that killed
     most so far). A mutant whose task is lost is ``undecided``, never killed."""
     t0 = time.monotonic()
-    base = baseline(pack, timeout)
     todo = mutants(pack)[:limit] if limit else mutants(pack)
     if executor is None and jobs > 1 and len(todo) > 1:
         with open_executor(ExecutorSpec("local", jobs)) as ex:
+            base = baseline(pack, timeout, ex)
             results = _decide_on(ex, pack, todo, base, timeout, killed_elsewhere, progress)
     elif executor is not None:
+        base = baseline(pack, timeout, executor)
         results = _decide_on(executor, pack, todo, base, timeout, killed_elsewhere, progress)
     else:
+        base = baseline(pack, timeout)
         results = _decide_all(pack, todo, base, timeout, killed_elsewhere, progress)
     return MutationReport(pack.name, pack.path, tuple(results), time.monotonic() - t0)
 
