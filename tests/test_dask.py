@@ -25,7 +25,7 @@ from verifier.run.executor import ExecutorSpec, local_cluster_options, open_exec
 from verifier.run.loader import load_pack
 from verifier.run.parallel import SharedPool, solve_in_order
 from verifier.trust.differential import run_differential
-from verifier.trust.mutate import run_catalogue
+from verifier.trust.mutate import run_mutants
 
 ROOT = Path(__file__).resolve().parent.parent
 PACKS = [str(ROOT / "rules" / "position-report.toml"), str(ROOT / "rules" / "relocation.toml"),
@@ -182,8 +182,8 @@ def test_a_pack_edit_invalidates_exactly_as_locally(cluster, tmp_path):
     """Check a copy of a pack on the cluster with a cache; edit one rule's expect (same meaning,
     other text); check again: exactly that rule is solved again, as in a local run."""
     address, _ = cluster
-    src = ROOT / "rules" / "relocation.toml"
-    pack_file = tmp_path / "relocation.toml"
+    src = ROOT / "rules" / "demo" / "kestrel-quay.toml"
+    pack_file = tmp_path / "kestrel-quay.toml"
     shutil.copy(src, pack_file)
     first = load_pack(pack_file)
     edited_rule = first.rules[0]
@@ -224,34 +224,18 @@ def _edit_first_expect(path: Path) -> None:
 
 
 def test_mutate_on_a_cluster_reports_what_jobs_1_does(cluster):
+    """The first 10 mutants of the test pack, serially and as tasks on the cluster (the pack
+    travels as text with its hash; each mutant is a task)."""
     address, _ = cluster
-    packs = [load_pack(ROOT / "tests" / "packs" / "diff-mutants.toml")]
-
-    def limited(spec):
-        # the first 12 mutants: run_catalogue decides every mutant; its per-pack call is the same
-        from verifier.trust import mutate
-        real = mutate.mutants
-        mutate.mutants = lambda p: real(p)[:12]
-        try:
-            return run_catalogue(packs, timeout=20, executor=spec)
-        finally:
-            mutate.mutants = real
-
-    serial = limited(None)
-    on_dask = limited(ExecutorSpec("dask", 2, address))
-
-    def plain(rep):
-        doc = rep.as_json()
-        doc.pop("seconds")
-        for p in doc["packs"]:
-            p.pop("seconds")
-        return doc
-    a, b = plain(serial), plain(on_dask)
-    # statuses are the serial ones; which rule is named as the killer may differ (a serial run
-    # asks the rules that killed most so far first), so it is compared apart
-    assert [(m["mutated"], m["status"]) for m in a["packs"][0]["mutants"]] == \
-        [(m["mutated"], m["status"]) for m in b["packs"][0]["mutants"]]
-    assert a["counts"] == b["counts"] and a["ratio"] == b["ratio"]
+    pack = load_pack(ROOT / "tests" / "packs" / "diff-mutants.toml")
+    serial = run_mutants(pack, timeout=20, limit=10)
+    with open_executor(ExecutorSpec("dask", 2, address)) as ex:
+        on_dask = run_mutants(pack, timeout=20, limit=10, executor=ex)
+    # the statuses are the serial ones; which rule is named as the killer may differ (a serial
+    # run asks first the rules that killed most so far), so it is left out
+    assert [(r.mutant, r.status) for r in serial.results] == [(r.mutant, r.status) for r in on_dask.results]
+    assert serial.counts() == on_dask.counts() and serial.ratio() == on_dask.ratio()
+    assert on_dask.counts()["killed"] > 0
 
 
 def test_differential_sweep_on_a_cluster_reports_what_local_workers_do(cluster):
@@ -366,3 +350,20 @@ def test_verifier_test_on_a_cluster_reports_what_a_local_run_does(cluster, capsy
         docs.append(doc)
     assert docs[0] == docs[1]
     assert docs[0]["implementations"][0]["rules"][0]["worlds"] > 0
+
+
+def test_without_a_scheduler_a_local_cluster_is_started_quietly_and_closed(tmp_path, capfd):
+    """``--executor dask`` alone starts a LocalCluster for the run: the JSON is that of a
+    serial run, nothing of Dask's reaches stderr, and no worker process is left behind."""
+    import multiprocessing
+    pytest.importorskip("distributed")
+    argv = ["check", PACKS[1], "--rule", "relocation-resets-the-doubts", "--json", "--no-cache",
+            "--no-files"]
+    assert main(argv + ["--jobs", "1"]) == 0
+    serial_out = capfd.readouterr().out
+    before = {p.pid for p in multiprocessing.active_children()}
+    assert main(argv + ["--executor", "dask", "--jobs", "1"]) == 0
+    got = capfd.readouterr()
+    assert _timeless(got.out) == _timeless(serial_out)
+    assert got.err == ""
+    assert {p.pid for p in multiprocessing.active_children()} <= before
