@@ -30,8 +30,9 @@ from verifier.run import coverage
 from verifier.run.cache import Cache
 from verifier.run.engine import VERDICTS, exit_code, proof_detail, proof_words
 from verifier.run.loader import load_all, load_pack
+from verifier.run.executor import EXECUTORS, SCHEDULER_ENV, resolve_executor
 from verifier.run.margin import margin_table
-from verifier.run.parallel import MAX_JOBS, check_jobs, resolve_jobs
+from verifier.run.parallel import MAX_JOBS, auto_jobs, check_jobs, resolve_jobs
 from verifier.smt.export import write_for_results
 from verifier.terminal import COLOR_CHOICES, LiveProgress, print_table, wants_color
 from verifier.trust import selftest
@@ -48,11 +49,21 @@ def _print_diags(diags) -> None:
 
 
 def _with_jobs_and_cache(opts, args):
-    """--jobs and --no-cache (see verifier.run.parallel and verifier.run.cache)."""
+    """--jobs, --executor, --scheduler and --no-cache (see verifier.run.parallel,
+    verifier.run.executor and verifier.run.cache)."""
     import attrs
 
+    spec = resolve_executor(args.executor, resolve_jobs(args.jobs), args.scheduler)
     cache = None if args.no_cache else Cache(warn=lambda w: print(f"verifier: warning: {w}", file=sys.stderr))
-    return attrs.evolve(opts, jobs=resolve_jobs(args.jobs), cache=cache)
+    return attrs.evolve(opts, jobs=spec.jobs, executor=spec.kind, scheduler=spec.scheduler, cache=cache)
+
+
+def _executor(args, jobs: int | None):
+    """The executor of mutate, test and selftest: ``jobs`` local worker processes (default 1),
+    or Dask (a LocalCluster of ``jobs`` workers, default one per core, or --scheduler's)."""
+    if jobs is None:
+        jobs = auto_jobs() if args.executor == "dask" else 1
+    return resolve_executor(args.executor, check_jobs(jobs), args.scheduler)
 
 
 def cmd_check(args) -> int:
@@ -202,8 +213,9 @@ def cmd_diff(args) -> int:
 
 def cmd_mutate(args) -> int:
     """verifier mutate PACK... (logic in verifier.trust.mutate)."""
+    spec = _executor(args, args.jobs)
     packs = [load_pack(p) for p in args.packs]
-    rep = run_catalogue(packs, timeout=args.timeout, jobs=check_jobs(args.jobs))
+    rep = run_catalogue(packs, timeout=args.timeout, executor=spec)
     if args.json:
         print(json.dumps(rep.as_json(), indent=2, sort_keys=True))
     else:
@@ -216,7 +228,9 @@ def cmd_mutate(args) -> int:
 def cmd_selftest(args) -> int:
     """verifier selftest --report DIR (logic in verifier.trust.selftest)."""
     plan = selftest.default_plan(Path("."), args.profile)
-    data = selftest.run(plan, Path(args.report), progress=lambda m: print(m, file=sys.stderr))
+    spec = _executor(args, plan.workers) if args.executor == "dask" else None
+    data = selftest.run(plan, Path(args.report), progress=lambda m: print(m, file=sys.stderr),
+                        executor=spec)
     print(f"selftest: {'all criteria met' if data['passed'] else 'some criteria NOT met'}; "
           f"dossier: {(Path(args.report) / 'validation.md').as_posix()}")
     return EXIT_OK if data["passed"] else EXIT_FAIL
@@ -261,6 +275,7 @@ def _impl_table(rep) -> str:
 def cmd_test(args) -> int:
     """verifier test PACK --impl MODULE:FUNCTION (logic in verifier.implcheck)."""
     reports = []
+    spec = _executor(args, args.jobs)
     progress = LiveProgress(sys.stderr.isatty() and not args.json, wants_color("auto", sys.stderr))
     for path in args.packs:
         pack = load_pack(path)
@@ -277,6 +292,7 @@ def cmd_test(args) -> int:
             max_examples=args.max_examples, seed=args.seed, smt=not args.no_smt,
             hypothesis=not args.no_hypothesis, out=None if args.no_files else Path(args.out),
             call_timeout=args.call_timeout, legs=args.legs, rules=tuple(args.rule or ()),
+            executor=spec,
             cache=None if args.no_cache else Cache(warn=lambda w: print(f"verifier: warning: {w}", file=sys.stderr)))
         if opts.rules:
             unknown = [r for r in opts.rules if r not in {x.id for x in pack.rules}]
@@ -395,6 +411,17 @@ def _legs_arg(text: str):
         raise argparse.ArgumentTypeError(f"must be a whole number 0..8 or 'any', not {text!r}") from None
 
 
+def _executor_args(p, what: str) -> None:
+    """--executor and --scheduler, alike for every subcommand that fans work out."""
+    p.add_argument("--executor", choices=EXECUTORS, default="local",
+                   help=f"{what}: local (default: --jobs worker processes on this "
+                        "machine) or dask (a Dask cluster: --scheduler's, else a LocalCluster "
+                        "started for the run; needs verifier[dask]); the output is the same")
+    p.add_argument("--scheduler", metavar="ADDRESS",
+                   help=f"with --executor dask: the Dask scheduler, e.g. tcp://HOST:8786 "
+                        f"(default: ${SCHEDULER_ENV}, else a LocalCluster)")
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="verifier",
@@ -431,6 +458,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="solve rules in N worker processes, or 'auto': one per core, at most 8 "
                         "(the default, or $VERIFIER_JOBS); the results and files are the same "
                         "for any N")
+    _executor_args(c, "where the rules' solver questions are solved")
     c.add_argument("--no-cache", action="store_true", help="solve every rule again; neither read nor write the cache (.verifier-cache/ in the current folder)")
     c.add_argument("--format", choices=("table", "json", "junit", "sarif"), default="table",
                    help="output on stdout: table (default), json (as --json), junit (XML, one test "
@@ -478,7 +506,10 @@ def build_parser() -> argparse.ArgumentParser:
     m.add_argument("packs", nargs="+", metavar="PACK")
     m.add_argument("--json", action="store_true", help="print one JSON object")
     m.add_argument("--timeout", type=seconds_arg, default=20.0, metavar="SECONDS", help="per solver question (default 20)")
-    m.add_argument("--jobs", type=_jobs_arg, default=1, metavar="N", help="decide mutants in N worker processes")
+    m.add_argument("--jobs", type=_jobs_arg, default=None, metavar="N",
+                   help="decide mutants in N worker processes (default 1; with --executor dask "
+                        "and no --scheduler: the LocalCluster's workers, default one per core)")
+    _executor_args(m, "where the mutants are decided")
     m.set_defaults(func=cmd_mutate)
 
     st = sub.add_parser("selftest", help="write the tool validation dossier",
@@ -487,6 +518,7 @@ def build_parser() -> argparse.ArgumentParser:
                                     "used as DIR/validation.md (and .json). Exit 0 when every criterion is met.")
     st.add_argument("--report", required=True, metavar="DIR")
     st.add_argument("--profile", choices=("ci", "thorough"), help="validation profile (default: VERIFIER_PROFILE or ci)")
+    _executor_args(st, "where the differential sweep's world batches and the mutants run")
     st.set_defaults(func=cmd_selftest)
 
     t = sub.add_parser("test", help="check your own implementation against a rule pack",
@@ -520,6 +552,12 @@ def build_parser() -> argparse.ArgumentParser:
     t.add_argument("--no-files", action="store_true", help="write no files")
     t.add_argument("--no-cache", action="store_true", help="do not use .verifier-cache/ for the solver's witnesses")
     t.add_argument("--json", action="store_true", help="print one JSON object")
+    t.add_argument("--jobs", type=_jobs_arg, default=None, metavar="N",
+                   help="solve the rules' witnesses in N worker processes (default 1; with "
+                        "--executor dask and no --scheduler: the LocalCluster's workers, default "
+                        "one per core)")
+    _executor_args(t, "where the solver's witnesses are solved (the implementation always runs "
+                      "here)")
     t.set_defaults(func=cmd_test)
 
     r = sub.add_parser("replay", help="re-run archived counterexamples against today's rules",

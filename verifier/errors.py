@@ -107,6 +107,11 @@ class InternalError(VerifierError):
     """The tool disagrees with itself (for example simulator and solver): a bug (exit code 4)."""
 
 
+class TaskLost(VerifierError):
+    """A task given to an executor whose result cannot be had (its worker died or was lost,
+    and a retry did not bring it back). Never a verdict: each caller makes it ``unknown``."""
+
+
 class WriteError(OSError):
     """A file of ours could not be written: the path and the operating system's reason. The
     command line reports it after the verdicts, as exit 2 (an OSError, not a VerifierError: the

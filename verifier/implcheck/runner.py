@@ -24,6 +24,7 @@ contract finding of its own, made minimal the same way; it is not counted for or
 
 from __future__ import annotations
 
+import contextlib
 import json
 import math
 import time
@@ -50,7 +51,8 @@ from verifier.implcheck.interface import (
 from verifier.implcheck.state import ImplState, NotReturned
 from verifier.lang.vocab import Direction, Running
 from verifier.run import coverage
-from verifier.run.parallel import solve_in_order
+from verifier.run.executor import ExecutorSpec
+from verifier.run.parallel import SharedPool, solve_in_order
 from verifier.smt import concrete
 from verifier.world.bounds import errors_after, odometer_range
 from verifier.world.failure import describe_failure, failed_detail
@@ -76,6 +78,7 @@ class ImplOptions:
     rules: tuple = ()
     settings: object = None       # a hypothesis.settings to use instead of the three above
     cache: object = None          # a verifier.run.cache.Cache for the solver's witnesses, or None
+    executor: object = None       # a verifier.run.executor.ExecutorSpec for the solver's witnesses
 
 
 @attrs.frozen
@@ -206,28 +209,32 @@ class Checker:
 
 # ---- world sources ----------------------------------------------------------------------------
 
-def solver_worlds(pack: Pack, rules, bound: int, *, timeout: float = 10.0, cache=None) -> list:
+def solver_worlds(pack: Pack, rules, bound: int, *, timeout: float = 10.0, cache=None,
+                  executor=None) -> list:
     """(world, source) from the solver for every rule: boundary worlds, then the witness or
     counterexample against the pack's own design (from the verdict cache when it has them);
-    duplicates dropped, order fixed."""
+    duplicates dropped, order fixed. The witnesses are solved on ``executor`` (an
+    :class:`~verifier.run.executor.ExecutorSpec`) when it is given, the boundary worlds here."""
     out, seen = [], set()
-    solved_all = solve_in_order([(pack, r) for r in rules], timeout=timeout * 3, cache=cache,
-                                bounds=[bound] * len(rules))
-    for rule in rules:
-        items = []
-        try:
-            for s in concrete.boundary_worlds(pack, rule, bound, count=4, timeout=timeout):
-                items.append((s.world, "solver boundary"))
-        except Exception:  # noqa: BLE001 - a source that fails only gives fewer worlds
-            pass
-        solved = next(solved_all).solved
-        if solved.world is not None:
-            items.append((solved.world, "solver witness" if solved.verdict == "holds" else "solver counterexample"))
-        for flat, src in items:
-            w = world_from_flat(flat)
-            if w not in seen:
-                seen.add(w)
-                out.append((w, src))
+    spec = executor if executor is not None else ExecutorSpec()
+    with SharedPool(spec) if spec.parallel else contextlib.nullcontext() as pool:
+        solved_all = solve_in_order([(pack, r) for r in rules], timeout=timeout * 3, cache=cache,
+                                    bounds=[bound] * len(rules), jobs=spec.jobs, pool=pool)
+        for rule in rules:
+            items = []
+            try:
+                for s in concrete.boundary_worlds(pack, rule, bound, count=4, timeout=timeout):
+                    items.append((s.world, "solver boundary"))
+            except Exception:  # noqa: BLE001 - a source that fails only gives fewer worlds
+                pass
+            solved = next(solved_all).solved
+            if solved.world is not None:
+                items.append((solved.world, "solver witness" if solved.verdict == "holds" else "solver counterexample"))
+            for flat, src in items:
+                w = world_from_flat(flat)
+                if w not in seen:
+                    seen.add(w)
+                    out.append((w, src))
     return out
 
 
@@ -470,7 +477,8 @@ class Session:
         if opts.smt:
             if progress:
                 progress("asking the solver for boundary worlds and witnesses")
-            self.seeds += solver_worlds(pack, self.rules, base, cache=opts.cache)
+            self.seeds += solver_worlds(pack, self.rules, base, cache=opts.cache,
+                                        executor=opts.executor)
         if opts.archive:
             self.seeds += archived_worlds(pack, opts.archive_dir, base)
         self.findings = tuple(self._contract())

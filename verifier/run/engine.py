@@ -18,6 +18,7 @@ from verifier.check.model import Pack, Rule
 from verifier.errors import UsageError, WriteError, suggest
 from verifier.lang.numbers import counted
 from verifier.run import coverage, induct
+from verifier.run.executor import ExecutorSpec
 from verifier.run.parallel import SharedPool, solve_in_order
 from verifier.smt import solve
 from verifier.world.failure import describe_failure, failed_detail, implicit_premise
@@ -36,6 +37,8 @@ class CheckOptions:
     out: Path | None = Path("counterexamples")   # None: write no files
     witness: bool = True
     jobs: int = 1                      # --jobs: worker processes (see verifier.run.parallel)
+    executor: str = "local"            # --executor: local worker processes, or dask (a cluster)
+    scheduler: str | None = None       # --scheduler: a Dask scheduler's address (None: LocalCluster)
     cache: object = None               # a verifier.run.cache.Cache, or None: solve everything
     induction_depth: int = 4           # --induction-depth: deepest step of k-induction tried
     max_legs: int = 12                 # --max-legs: deepest base case tried before "bounded"
@@ -250,7 +253,9 @@ def check_packs(packs: list[Pack], opts: CheckOptions = CheckOptions(),
     bounds = [induct.base_bound(p, r, opts.legs, opts.induction_depth) for p, r in todo]
     done: list = [None] * len(todo)
     # one pool of workers for both phases, started only if one of them has two rules to solve
-    with SharedPool(opts.jobs) if opts.jobs > 1 else contextlib.nullcontext() as pool:
+    # (on a cluster: one rule to solve)
+    spec = ExecutorSpec(opts.executor, opts.jobs, opts.scheduler)
+    with SharedPool(spec) if spec.parallel else contextlib.nullcontext() as pool:
         for i, res in _in_phases(packs, todo, bounds, opts, files, progress, pool):
             done[i] = res
     results: dict = {id(p): [] for p in packs}   # by identity: two packs may share a name

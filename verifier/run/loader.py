@@ -2,17 +2,42 @@
 
 from __future__ import annotations
 
+import hashlib
 from pathlib import Path
 
 from verifier.check.model import Pack
 from verifier.check.typer import check_pack
-from verifier.errors import Diagnostic, PackError
-from verifier.lang.pack import read_pack
+from verifier.errors import Diagnostic, InternalError, PackError
+from verifier.lang.pack import parse_pack_text, read_pack
 
 
 def load_pack(path: str | Path, display: str | None = None) -> Pack:
     """Read and check one pack file; raise PackError listing every problem in it."""
     return check_pack(read_pack(path, display))
+
+
+def pack_source(pack: Pack) -> tuple:
+    """How a pack travels to a worker (a process here, or a Dask worker elsewhere): its path as
+    shown, its text and the sha256 of that text, all plain strings (never solver objects)."""
+    return (pack.path, pack.text, pack.sha256)
+
+
+_FROM_SOURCE: dict = {}     # a worker's packs by (path, sha256): a worker decides many tasks
+
+
+def pack_from_source(source: tuple) -> Pack:
+    """The pack of :func:`pack_source`, checked again in the worker. The text must have the
+    hash it came with (else the worker refuses it: an internal error, never a verdict)."""
+    path, text, sha256 = source
+    if hashlib.sha256(text.encode("utf-8")).hexdigest() != sha256:
+        raise InternalError(f"the text of pack {path} that reached this worker does not have "
+                            f"the hash it was sent with ({sha256[:16]}...)")
+    key = (path, sha256)
+    if key not in _FROM_SOURCE:
+        if len(_FROM_SOURCE) >= 8:
+            _FROM_SOURCE.clear()
+        _FROM_SOURCE[key] = check_pack(parse_pack_text(text, path, sha256))
+    return _FROM_SOURCE[key]
 
 
 def display_path(path: Path) -> str:

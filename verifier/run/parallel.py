@@ -5,25 +5,23 @@ text (:func:`verifier.smt.smtlib.export_rule`); the text is solved in a fresh z3
 :func:`verifier.smt.smtlib.solve_query`, here (``jobs == 1``) or in a worker process. Text goes
 in, plain data comes out, and both paths solve the same text the same way, so the results, and
 the files the engine writes from them, do not depend on ``jobs``. Results are handed back in
-the order of the rules, whatever order the workers finish in.
+the order of the rules, whatever order the workers finish in. Where the workers run (worker
+processes here, or a Dask cluster) is :mod:`verifier.run.executor`'s business; a query whose
+result cannot be had from them (a worker lost) is ``unknown``, never ``holds``, and is not
+cached.
 """
 
 from __future__ import annotations
 
-import multiprocessing
 import os
-import signal
-import sys
-import threading
 import time
-from concurrent.futures import ProcessPoolExecutor
-from concurrent.futures.process import BrokenProcessPool
 
 import attrs
 
-from verifier.errors import InternalError, UsageError
+from verifier.errors import TaskLost, UsageError
 from verifier.run.cache import rule_key
-from verifier.smt import smtlib
+from verifier.run.executor import ExecutorSpec, open_executor
+from verifier.smt import smtlib, solve
 from verifier.smt.concrete import Evaluator, compared_values
 
 MAX_JOBS = 64
@@ -46,46 +44,6 @@ def _work(query, limits: dict):
     t0 = time.monotonic()
     solved = smtlib.solve_query(query, **limits)
     return solved, time.monotonic() - t0
-
-
-def _worker_init(parent: int) -> None:
-    """Each worker: exit when the parent process dies, and leave Ctrl-C to the parent.
-
-    Without this a worker whose parent was killed (SIGKILL, an OOM kill) goes on solving its
-    query to the end, and longer if its next one was queued. On Linux the kernel sends the
-    worker SIGKILL when its parent dies (prctl PR_SET_PDEATHSIG); everywhere, a daemon thread
-    also watches ``os.getppid()`` (z3 releases the GIL while it solves, so the thread runs).
-    SIGINT is ignored: the parent stops the workers itself (see :func:`_stop`), so a Ctrl-C
-    that reaches the whole process group never kills an idle worker, which would read as a
-    broken pool (an internal error) instead of an interrupt."""
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
-    if sys.platform.startswith("linux"):
-        try:
-            import ctypes
-            libc = ctypes.CDLL(None, use_errno=True)
-            libc.prctl(1, signal.SIGKILL, 0, 0, 0)     # PR_SET_PDEATHSIG = 1
-        except (OSError, AttributeError):              # pragma: no cover - no prctl
-            pass
-    if os.getppid() != parent:     # the parent died before the line above
-        os._exit(1)
-
-    def watch():
-        while os.getppid() == parent:
-            time.sleep(0.5)
-        os._exit(1)
-    threading.Thread(target=watch, name="verifier-parent-watch", daemon=True).start()
-
-
-def _stop(pool) -> None:
-    """Stop a pool now: cancel what is queued and end the workers, which may be in the middle
-    of a long z3 check (``shutdown`` alone would wait for it)."""
-    procs = list((getattr(pool, "_processes", None) or {}).values())   # shutdown forgets them
-    pool.shutdown(wait=False, cancel_futures=True)
-    for proc in procs:
-        try:
-            proc.terminate()
-        except (OSError, AttributeError):   # pragma: no cover - already gone
-            pass
 
 
 def _today(hit, pack, bound, evaluators: dict):
@@ -131,11 +89,9 @@ def resolve_jobs(jobs) -> int:
 
 
 def open_pool(jobs: int):
-    """A pool of ``jobs`` worker processes for :func:`solve_in_order` (``pool=``), to be used
-    as a context manager; several calls may share it (one start-up for a whole check)."""
-    ctx = multiprocessing.get_context("spawn")   # no z3 state inherited from this process
-    return ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=_worker_init,
-                               initargs=(os.getpid(),))
+    """A pool of ``jobs`` local worker processes for :func:`solve_in_order` (``pool=``, wrapped
+    in a :class:`SharedPool`), to be used as a context manager."""
+    return open_executor(ExecutorSpec("local", jobs))
 
 
 def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, jobs=1,
@@ -147,7 +103,8 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
     see :func:`verifier.smt.solve.lemma_facts`: they change the work, never the answer, so the
     cache key leaves them out). With ``jobs == 1`` each rule is solved when its result is asked
     for (so progress reports stay live). ``pool`` (a :class:`SharedPool`) is used instead of a
-    pool of its own, and left open."""
+    pool of its own, and left open; with a pool on a cluster (``--executor dask``) every query
+    the cache does not answer goes to it, even a single one."""
     check_jobs(jobs)
     limits = {"witness": witness}
     if timeout is not None:
@@ -173,7 +130,9 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
             cache.put(key, solved, witness, seconds)
         return Presolved(solved, seconds)
 
-    if jobs == 1 or sum(1 for p in plan if p[4] is None) <= 1:
+    unsolved = sum(1 for p in plan if p[4] is None)
+    if (pool is None and jobs == 1) or unsolved == 0 or (
+            unsolved == 1 and not (pool is not None and pool.spec.remote)):
         for (pack, rule, bound, key, hit, lemmas), recorded in zip(plan, took):
             if hit is not None:
                 yield Presolved(hit, 0.0, True, recorded)
@@ -192,17 +151,21 @@ def solve_in_order(todo, *, legs=None, timeout=None, rlimit=None, witness=True, 
 
 
 class SharedPool:
-    """One pool of worker processes for several :func:`solve_in_order` calls (a check's lemmas,
-    then its rules), started when the first of them needs it; a context manager that ends the
-    workers on leaving (at once if an exception is leaving)."""
+    """One executor (:mod:`verifier.run.executor`) for several :func:`solve_in_order` calls (a
+    check's lemmas, then its rules), started when the first of them needs it; a context manager
+    that ends its workers on leaving (at once, cancelling what is queued, if an exception is
+    leaving). ``spec`` is an :class:`ExecutorSpec`, or a number of local worker processes."""
 
-    def __init__(self, jobs: int):
-        self.jobs = check_jobs(jobs)
+    def __init__(self, spec):
+        if not isinstance(spec, ExecutorSpec):
+            spec = ExecutorSpec("local", spec)
+        check_jobs(spec.jobs)
+        self.spec = spec
         self.pool = None
 
     def get(self):
         if self.pool is None:
-            self.pool = open_pool(self.jobs)
+            self.pool = open_executor(self.spec)
         return self.pool
 
     def __enter__(self):
@@ -210,11 +173,13 @@ class SharedPool:
 
     def __exit__(self, kind, exc, tb):
         if self.pool is not None:
-            if kind is None:
-                self.pool.shutdown(wait=True)
-            else:
-                _stop(self.pool)
+            self.pool.__exit__(kind, exc, tb)
         return False
+
+
+def lost(exc: TaskLost, what: str):
+    """The answer for a query whose result could not be had: ``unknown``, with why."""
+    return solve.Solved("unknown", minimal=False, reason=f"no result for {what}: {exc}")
 
 
 def _in_pool(pool, plan, took, limits, done, shared: bool = False):
@@ -234,17 +199,16 @@ def _in_pool(pool, plan, took, limits, done, shared: bool = False):
                 continue
             future, export_seconds = futures[i]
             try:
-                solved, seconds = future.result()
-            except BrokenProcessPool as exc:
-                raise InternalError(f"a worker process died while solving "
-                                    f"{pack.name}/{rule.id}: {exc}") from None
+                solved, seconds = pool.outcome(future)
+            except TaskLost as exc:     # unknown, and not cached: a later run asks again
+                yield Presolved(lost(exc, f"{pack.name}/{rule.id}"), export_seconds)
+                continue
             yield done(key, solved, export_seconds + seconds)
     except GeneratorExit:
         if not shared:
-            _stop(pool)
-        for future, _ in futures.values():
-            future.cancel()
+            pool.stop()
+        pool.cancel(f for f, _ in futures.values())
         raise
     except BaseException:     # Ctrl-C, or the caller gave up: nothing more is solved
-        _stop(pool)
+        pool.stop()
         raise

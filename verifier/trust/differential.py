@@ -14,9 +14,10 @@ from pathlib import Path
 
 import attrs
 
-from verifier.errors import PackError
+from verifier.errors import PackError, TaskLost
 from verifier.lang.vocab import INFO_FIELDS, LEG, names_for
-from verifier.run.loader import discover, load_pack
+from verifier.run.executor import ExecutorSpec, open_executor
+from verifier.run.loader import discover, load_pack, pack_from_source, pack_source
 from verifier.smt.concrete import Evaluator
 from verifier.world.scenario import fmt, world_to_data
 from verifier.world.sim import State, World, applies, evaluate, scope_problems
@@ -161,8 +162,11 @@ class DiffReport:
         return attrs.asdict(self)
 
 
-def _worker(job: tuple) -> DiffReport:
-    paths, n, seed, unique_every = job
+def sweep_batch(job: tuple) -> DiffReport:
+    """A worker's task: one batch of ``n`` worlds from its own seed, over packs sent as text
+    with their hashes (:func:`verifier.run.loader.pack_source`)."""
+    sources, n, seed, unique_every = job
+    paths = [s[0] for s in sources]
     import time
 
     from hypothesis import HealthCheck, given, settings
@@ -171,7 +175,7 @@ def _worker(job: tuple) -> DiffReport:
     from verifier.trust.strategies import CornerTally, corners, largest_bound, pack_worlds
 
     t0 = time.monotonic()
-    packs = [load_pack(p) for p in paths]
+    packs = [pack_from_source(s) for s in sources]
     evaluators: dict = {}
     tally = CornerTally()
     per_pack: dict = {}
@@ -218,30 +222,44 @@ def _worker(job: tuple) -> DiffReport:
                       tuple(paths))
 
 
+def _outcome(ex, future, job) -> DiffReport:
+    """A batch's report; a lost batch as a report of no worlds with one failure saying so."""
+    try:
+        return ex.outcome(future)
+    except TaskLost as exc:
+        return DiffReport(0, {}, 0, 0, 0, {}, ({"pack": "?", "world": None, "differences": [
+            f"the batch of {job[1]} worlds from seed {job[2]} has no result: {exc}"]},), 0.0,
+            (job[2],), tuple(s[0] for s in job[0]))
+
+
 def run_differential(paths, worlds: int, seed: int | None = None, workers: int = 2,
-                     unique_every: int = 25) -> DiffReport:
-    """Evaluate ``worlds`` generated worlds (split over ``workers`` processes, each with its own
+                     unique_every: int = 25, executor: ExecutorSpec | None = None) -> DiffReport:
+    """Evaluate ``worlds`` generated worlds (split into ``workers`` batches, each with its own
     seed derived from ``seed``) in the simulator and in the encoding; see :class:`DiffReport`.
+    The batches run in as many local worker processes, or as tasks on ``executor`` (for example
+    a Dask cluster): the report depends on ``workers``, never on where the batches ran. A batch
+    whose result is lost is a failure of the sweep, never a pass.
 
     Every ``unique_every``-th world also proves that the encoding's values are determined by the
     inputs (a second check: no other model with the same inputs differs anywhere)."""
     import random
     import time
-    from concurrent.futures import ProcessPoolExecutor
-    from multiprocessing import get_context
 
     t0 = time.monotonic()
     paths = tuple(paths)
     if seed is None:
         seed = random.SystemRandom().randrange(2**32)
     workers = max(1, workers)
+    sources = tuple(pack_source(load_pack(p)) for p in paths)
     share = [worlds // workers + (1 if i < worlds % workers else 0) for i in range(workers)]
-    jobs = [(paths, n, seed + i, unique_every) for i, n in enumerate(share)]
-    if workers == 1:
-        parts = [_worker(jobs[0])]
+    jobs = [(sources, n, seed + i, unique_every) for i, n in enumerate(share)]
+    spec = executor or ExecutorSpec("local", workers)
+    if not spec.parallel:
+        parts = [sweep_batch(job) for job in jobs]
     else:
-        with ProcessPoolExecutor(workers, mp_context=get_context("spawn")) as pool:
-            parts = list(pool.map(_worker, jobs))
+        with open_executor(spec) as ex:
+            futures = [ex.submit(sweep_batch, job) for job in jobs]
+            parts = [_outcome(ex, f, job) for f, job in zip(futures, jobs)]
     per_pack: dict = {}
     corners: dict = {}
     for p in parts:

@@ -19,6 +19,7 @@ kill ratio = killed / (killed + survived + undecided).
 
 from __future__ import annotations
 
+import contextlib
 import re
 import time
 
@@ -26,11 +27,13 @@ import attrs
 
 from verifier.check.model import Pack
 from verifier.check.typer import check_pack
-from verifier.errors import Diagnostic, PackError
+from verifier.errors import Diagnostic, PackError, TaskLost
 from verifier.lang import ast
 from verifier.lang.pack import RawExpr, parse_pack_text
 from verifier.lang.parser import ExprSyntaxError, parse
 from verifier.lang.vocab import GLOBAL
+from verifier.run.executor import ExecutorSpec, open_executor
+from verifier.run.loader import pack_from_source, pack_source
 from verifier.smt.concrete import same_formula, same_outputs, violation_status
 
 # Names swapped by the "swap" mutations, both ways; each pair is readable by the same side.
@@ -255,39 +258,82 @@ def observable_names(pack: Pack | None = None) -> list[str]:
     return out
 
 
-def baseline(pack: Pack, timeout: float) -> dict:
-    """The original pack's answer to each rule's violation question (sat = violated)."""
-    return {r.id: violation_status(pack, r, pack.bound_for(r), rlimit=200_000_000, timeout=timeout)
-            for r in pack.rules}
+def baseline(pack: Pack, timeout: float, executor=None) -> dict:
+    """The original pack's answer to each rule's violation question (sat = violated), each
+    question a task on ``executor`` when one is given (a lost one: ``unknown``, so that rule
+    kills nothing)."""
+    if executor is None:
+        return {r.id: rule_status(pack, r.id, timeout) for r in pack.rules}
+    source = pack_source(pack)
+    futures = [(r.id, executor.submit(source_rule_status, source, r.id, timeout)) for r in pack.rules]
+    out = {}
+    for rid, f in futures:
+        try:
+            out[rid] = executor.outcome(f)
+        except TaskLost:
+            out[rid] = "unknown"
+    return out
+
+
+def rule_status(pack: Pack, rule_id: str, timeout: float) -> str:
+    r = pack.rule(rule_id)
+    return violation_status(pack, r, pack.bound_for(r), rlimit=200_000_000, timeout=timeout)
+
+
+def source_rule_status(source: tuple, rule_id: str, timeout: float) -> str:
+    """A worker's task: one rule's violation question on the pack sent as text."""
+    return rule_status(pack_from_source(source), rule_id, timeout)
 
 
 def run_mutants(pack: Pack, *, timeout: float = 20.0, limit: int | None = None,
-                progress=None, killed_elsewhere: dict | None = None, jobs: int = 1) -> MutationReport:
+                progress=None, killed_elsewhere: dict | None = None, jobs: int = 1,
+                executor=None) -> MutationReport:
     """Generate and decide every mutant of ``pack`` (or the first ``limit``).
 
     ``killed_elsewhere`` maps mutant keys already killed by another pack to that pack's name:
     those are not decided again (a catalogue run, where the packs share the default design).
-    With ``jobs`` > 1 the mutants are decided in that many worker processes (each decision is a
-    set of fresh solver contexts, so the verdicts are those of a serial run; only which rule is
-    named as the killer may differ)."""
+    ``executor`` (an open one, :mod:`verifier.run.executor`) decides each mutant as a task of
+    its own; else with ``jobs`` > 1 a pool of that many local worker processes does. Each
+    decision is a set of fresh solver contexts, so the verdicts are those of a serial run; only
+    which rule is named as the killer may differ (a serial run asks first the rules that killed
+    most so far). A mutant whose task is lost is ``undecided``, never killed."""
     t0 = time.monotonic()
-    base = baseline(pack, timeout)
     todo = mutants(pack)[:limit] if limit else mutants(pack)
-    if jobs > 1 and len(todo) > 1:
-        import multiprocessing
-        from concurrent.futures import ProcessPoolExecutor
-        chunks = [list(range(i, len(todo), jobs)) for i in range(jobs)]
-        ctx = multiprocessing.get_context("spawn")
-        with ProcessPoolExecutor(max_workers=jobs, mp_context=ctx) as pool:
-            futures = [pool.submit(_decide_all, pack, [todo[i] for i in c], base, timeout, killed_elsewhere)
-                       for c in chunks]
-            by_index = {}
-            for c, f in zip(chunks, futures):
-                by_index.update(zip(c, f.result()))
-        results = [by_index[i] for i in range(len(todo))]
+    if executor is None and jobs > 1 and len(todo) > 1:
+        with open_executor(ExecutorSpec("local", jobs)) as ex:
+            base = baseline(pack, timeout, ex)
+            results = _decide_on(ex, pack, todo, base, timeout, killed_elsewhere, progress)
+    elif executor is not None:
+        base = baseline(pack, timeout, executor)
+        results = _decide_on(executor, pack, todo, base, timeout, killed_elsewhere, progress)
     else:
+        base = baseline(pack, timeout)
         results = _decide_all(pack, todo, base, timeout, killed_elsewhere, progress)
     return MutationReport(pack.name, pack.path, tuple(results), time.monotonic() - t0)
+
+
+def decide_mutant(source: tuple, m: Mutant, base: dict, timeout: float) -> MutantResult:
+    """A worker's task: one mutant of the pack sent as text (:func:`pack_source`)."""
+    return _decide_all(pack_from_source(source), [m], base, timeout, None)[0]
+
+
+def _decide_on(ex, pack: Pack, todo, base: dict, timeout: float, killed_elsewhere, progress) -> list:
+    """Every mutant of ``todo`` as a task on ``ex``; the results in the order of ``todo``."""
+    source = pack_source(pack)
+    futures = {i: ex.submit(decide_mutant, source, m, base, timeout) for i, m in enumerate(todo)
+               if not (killed_elsewhere and m.key in killed_elsewhere)}
+    results = []
+    for i, m in enumerate(todo):
+        if progress:
+            progress(i + 1, len(todo), m)
+        if i not in futures:
+            results.append(MutantResult(m, "killed", f"by pack {killed_elsewhere[m.key]}", 0.0))
+            continue
+        try:
+            results.append(ex.outcome(futures[i]))
+        except TaskLost as exc:
+            results.append(MutantResult(m, "undecided", f"no result: {exc}"[:160]))
+    return results
 
 
 def _decide_all(pack: Pack, todo, base: dict, timeout: float, killed_elsewhere, progress=None) -> list:
@@ -385,17 +431,22 @@ class CatalogueReport:
                 "packs": [p.as_json() for p in self.packs]}
 
 
-def run_catalogue(packs, *, timeout: float = 20.0, progress=None, jobs: int = 1) -> CatalogueReport:
-    """Mutants of every pack; a mutant killed by an earlier pack is not decided again."""
+def run_catalogue(packs, *, timeout: float = 20.0, progress=None, jobs: int = 1,
+                  executor: ExecutorSpec | None = None) -> CatalogueReport:
+    """Mutants of every pack; a mutant killed by an earlier pack is not decided again. One
+    executor (``executor``, else ``jobs`` local worker processes) serves every pack."""
     t0 = time.monotonic()
     killed: dict = {}
     reports = []
-    for pack in packs:
-        rep = run_mutants(pack, timeout=timeout, progress=progress, killed_elsewhere=killed, jobs=jobs)
-        for r in rep.results:
-            if r.status == "killed" and r.mutant.key not in killed:
-                killed[r.mutant.key] = pack.name
-        reports.append(rep)
+    spec = executor or ExecutorSpec("local", jobs)
+    with open_executor(spec) if spec.parallel else contextlib.nullcontext() as ex:
+        for pack in packs:
+            rep = run_mutants(pack, timeout=timeout, progress=progress, killed_elsewhere=killed,
+                              executor=ex)
+            for r in rep.results:
+                if r.status == "killed" and r.mutant.key not in killed:
+                    killed[r.mutant.key] = pack.name
+            reports.append(rep)
     return CatalogueReport(tuple(reports), time.monotonic() - t0)
 
 

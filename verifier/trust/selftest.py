@@ -69,13 +69,16 @@ def default_plan(root: Path = Path("."), profile_name: str | None = None) -> Pla
     return Plan(paths, shipped, prof["worlds"], prof["fuzz"], seed, prof["workers"])
 
 
-def run(plan: Plan, out_dir: Path, progress=print) -> dict:
-    """Run every part of the plan and write the dossier; return its data."""
+def run(plan: Plan, out_dir: Path, progress=print, executor=None) -> dict:
+    """Run every part of the plan and write the dossier; return its data. ``executor`` (an
+    :class:`~verifier.run.executor.ExecutorSpec`, e.g. a Dask cluster) runs the differential
+    sweep's batches and the mutants; the dossier does not depend on it."""
     t0 = time.monotonic()
     data: dict = {"versions": versions(), "plan": attrs.asdict(plan)}
 
     progress(f"selftest: differential run, {plan.worlds} worlds")
-    diff = run_differential(plan.catalogue, plan.worlds, seed=plan.seed, workers=plan.workers)
+    diff = run_differential(plan.catalogue, plan.worlds, seed=plan.seed, workers=plan.workers,
+                            executor=executor)
     data["differential"] = {**diff.as_json(), "passed": not diff.failures}
 
     progress("selftest: verdicts and second-solver re-check of every obligation")
@@ -89,7 +92,8 @@ def run(plan: Plan, out_dir: Path, progress=print) -> dict:
     data["crosscheck"] = {**cross.as_json(), "passed": c["disagreements"] == 0}
 
     progress("selftest: seeded mutants")
-    mut = run_catalogue([load_pack(p) for p in plan.mutant_packs], timeout=plan.mutant_timeout)
+    mut = run_catalogue([load_pack(p) for p in plan.mutant_packs], timeout=plan.mutant_timeout,
+                        executor=executor)
     ratio = mut.ratio()
     data["mutants"] = {**mut.as_json(), "passed": ratio is not None and ratio >= 0.90,
                        "survivors": [{"mutant": r.mutant.describe(), "status": r.status, "why": r.by}
