@@ -136,11 +136,14 @@ def slacks(pack: Pack, rule: Rule, bound: int, *, assume: tuple = (), rlimit: in
            timeout: float = 120.0) -> list[Slack]:
     """The slack of each numeric comparison of ``rule``'s expect (a rule that holds)."""
     out = []
-    for index, (text, a_node, op, b_node) in enumerate(comparisons(rule)):
-        ctx = z3.Context()
-        enc = Encoding(pack, bound, ctx)
-        for name in COMPARED:
-            enc.name(name)
+    parts = comparisons(rule)
+    if not parts:
+        return out
+    enc = Encoding(pack, bound, z3.Context())       # one encoding for every part (checks are one-shot)
+    for name in COMPARED:
+        enc.name(name)
+    facts = [enc.given(rule), *lemma_facts(enc, assume)]
+    for index, (text, a_node, op, b_node) in enumerate(parts):
         a, b = enc.expr(a_node, {}), enc.expr(b_node, {})
         unit = _unit(a_node, b_node)
         if op == "==":
@@ -150,7 +153,7 @@ def slacks(pack: Pack, rule: Rule, bound: int, *, assume: tuple = (), rlimit: in
         s = (b - a) if op in ("<=", "<") else (a - b)
         if z3.is_int(s):
             s = z3.ToReal(s)
-        asker = _Asker(enc, [enc.given(rule), *lemma_facts(enc, assume)], rlimit, Budget(timeout))
+        asker = _Asker(enc, facts, rlimit, Budget(timeout))
         grid = LENGTH_GRID if unit == "m" else NUMBER_GRID
         try:
             out.append(attrs.evolve(_least(asker, enc, s, text, unit, grid), index=index))
@@ -202,7 +205,7 @@ def _least(asker: _Asker, enc, s, text: str, unit: str, grid: Fraction) -> Slack
 
 # ---- thresholds -------------------------------------------------------------------------
 def _violation(pack: Pack, rule: Rule, bound: int, world: Scope, rlimit: int, budget: Budget):
-    """A model of ``given and not expect`` in the real world ``world``, or None if there is none."""
+    """Whether some world of the real world ``world`` satisfies ``given and not expect``."""
     ctx = z3.Context()
     enc = Encoding(pack, bound, ctx, world=world)
     asker = _Asker(enc, [enc.given(rule), z3.Not(enc.expect(rule))], rlimit, budget)
@@ -210,7 +213,7 @@ def _violation(pack: Pack, rule: Rule, bound: int, world: Scope, rlimit: int, bu
 
 
 def threshold(pack: Pack, rule: Rule, bound: int, key: str, *, rlimit: int = DEFAULT_RLIMIT,
-              timeout: float = 120.0, minimal: bool = True) -> Threshold:
+              timeout: float = 120.0) -> Threshold:
     """The furthest value of the real world's bound ``key`` (moved alone, the designs keep the
     pack's values) at which ``rule`` still holds up to ``bound`` legs, to ``VARY[key].grid``,
     with the minimal violating world just past it. Proved lemmas are not assumed: they were
