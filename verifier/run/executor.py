@@ -245,7 +245,7 @@ class DaskExecutor(Executor):
         distributed = _distributed()
         _quiet()
         self.cluster = None
-        self.futures: list = []
+        self.futures: set = set()      # submitted and not yet read: what stop() cancels
         self.lost = (distributed.KilledWorker, distributed.comm.CommClosedError)
         try:
             if spec.scheduler:
@@ -268,7 +268,7 @@ class DaskExecutor(Executor):
 
     def submit(self, fn, *args):
         f = self.client.submit(run_task, fn, *args, pure=False, retries=RETRIES)
-        self.futures.append(f)
+        self.futures.add(f)
         return f
 
     def outcome(self, future):
@@ -276,11 +276,13 @@ class DaskExecutor(Executor):
         were lost as often as the scheduler allows, or the connection to it went away)."""
         import concurrent.futures
         try:
-            return future.result()
+            result = future.result()
         except self.lost as exc:
             raise TaskLost(f"the Dask worker running it was lost ({type(exc).__name__}: {exc})") from None
         except (concurrent.futures.CancelledError, OSError) as exc:
             raise TaskLost(f"the Dask cluster did not return it ({type(exc).__name__}: {exc})") from None
+        self.futures.discard(future)   # read: the cluster may release its result now
+        return result
 
     def cancel(self, futures) -> None:
         futures = list(futures)
