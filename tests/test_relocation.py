@@ -33,7 +33,10 @@ def _errors(write_pack, text) -> str:
 
 @pytest.mark.parametrize("world, rules, extra, needle", [
     ('g2_side = "nominal"', rule_toml("r", "true"), "", "set world.groups = 2"),
-    ("groups = 3", rule_toml("r", "true"), "", "world.groups must be 1 or 2"),
+    ("groups = 9", rule_toml("r", "true"), "", "world.groups must be a whole number 1..8"),
+    ("groups = 2\nhistory = 0", rule_toml("r", "true"), "", "world.history must be a whole number 1..8"),
+    ("groups = 3", rule_toml("r", "true"), "[[group]]\nnumber = 4", "needs a number 2..3"),
+    ("groups = 3", rule_toml("r", "g4.found"), "", "needs a route of 4 groups or more"),
     (TWO + '\ng2_orientation = "sideways"', rule_toml("r", "true"), "", "same, opposite, any"),
     ("", rule_toml("r", "g2.lrbg"), "", "set [world] groups = 2"),
     ("", rule_toml("r", "info.nope.accepted"), "", "the pack has no [[info]]"),

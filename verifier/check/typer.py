@@ -179,6 +179,9 @@ def _resolve_name(env: _Env, node: ast.Name) -> ast.Node:
                             "or info_position formula is evaluated for; elsewhere write info.ID.FIELD")
         if parts[1] not in vocab.ITEM:
             raise env.error(node, f"items have no field '{parts[1]}'" + suggest(parts[1], vocab.ITEM))
+        if parts[1] in vocab.ROUTE_ITEM and env.pack.scope.groups < 2:
+            raise env.error(node, f"'{dotted}' says what the onboard knows of the item's group in a route: "
+                            "set [world] groups to 2 or more")
         env.reads.setdefault(dotted, (node.start, node.end - node.start))
         return _typed(node, vocab.ITEM[parts[1]][0], ref=("item", parts[1]))
     if first == "info" and len(parts) >= 2:
@@ -189,14 +192,19 @@ def _resolve_name(env: _Env, node: ast.Name) -> ast.Node:
         field = parts[2]
         if field not in vocab.INFO_FIELDS:
             raise env.error(node, f"information items have no field '{field}'" + suggest(field, vocab.INFO_FIELDS))
+        if field in vocab.ROUTE_ITEM and env.pack.scope.groups < 2:
+            raise env.error(node, f"'{dotted}' says what the onboard knows of the item's group in a route: "
+                            "set [world] groups to 2 or more")
         ty, _, kind, _ = vocab.INFO_FIELDS[field]
         env.reads.setdefault(f"info.*.{field}", (node.start, node.end - node.start))
         if kind == "onboard-output":
             env.deps.add(("onboard", f"info_{field}"))
         env.deps.update(vocab.INFO_DEPENDS.get(field, ()))
         return _typed(node, ty, ref=("info", parts[1], field))
-    if dotted in vocab.TWO_GROUPS and env.pack.scope.groups != 2:
-        raise env.error(node, f"'{dotted}' names the second group: set [world] groups = 2")
+    if dotted in vocab.GLOBAL and vocab.groups_needed(dotted) > env.pack.scope.groups:
+        need = vocab.groups_needed(dotted)
+        raise env.error(node, f"'{dotted}' needs a route of {need} groups or more: set [world] groups = {need}"
+                        + (" (this pack has one)" if env.pack.scope.groups == 1 else f" (this pack has {env.pack.scope.groups})"))
     if dotted in vocab.GLOBAL:
         entry = vocab.GLOBAL[dotted]
         env.reads.setdefault(dotted, (node.start, node.end - node.start))

@@ -33,7 +33,8 @@ from verifier.lang.ast import BOOL, DIRECTION, RUNNING
 
 #: Names whose value does not depend on the legs: inputs of the group, the train and the
 #: passage, and what follows from them alone.
-STATIC = frozenset(n for n in vocab.GLOBAL if n.split(".")[0] in ("lrbg", "train", "passage", "g1"))
+STATIC = frozenset(n for n in vocab.GLOBAL if n.split(".")[0] in ("lrbg", "train", "passage", "g1")
+                   and vocab.groups_needed(n) == 1)
 
 FINITE = {BOOL: (True, False),
           DIRECTION: (vocab.Direction.NOMINAL, vocab.Direction.REVERSE, vocab.Direction.UNKNOWN),
@@ -260,9 +261,10 @@ def plan_for(pack, formulas, *, designs: bool = True) -> Plan:
             b.definition(("onboard", n))
         for n in pack.trackside:
             b.definition(("trackside", n))
-    if pack.scope.groups == 2:   # the state of DESIGN 4.7 has one group
-        b.unsupported.insert(0, "a pack with two groups: the state of a proof for any number of "
-                                "legs does not carry the second group yet (DESIGN 4.8)")
+    if pack.scope.groups >= 2:   # the state of DESIGN 4.7 has one group
+        b.unsupported.insert(0, f"a pack of two groups or more ({pack.scope.groups} here): the state of a proof for any number "
+                                "of legs carries one group, not the current group's number nor the "
+                                "onboard's list of LRBGs (DESIGN 4.8, 4.10)")
     return Plan(tuple(b.families.values()), b.uses, tuple(sorted(b.frozen)),
                 tuple(dict.fromkeys(b.unsupported)))
 

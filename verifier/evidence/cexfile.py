@@ -59,11 +59,11 @@ def rule_hashes(pack: Pack, rule: Rule) -> dict:
 
 def derived_values(st: State) -> dict:
     out = {}
-    two = st.pack.scope.groups == 2
+    groups = st.pack.scope.groups
     for name, entry in sorted(vocab.GLOBAL.items()):
         if entry.kind in ("input", "hidden-input") and name != "legs.count":
             continue
-        if name in vocab.GROUP_NAMES and not two:
+        if (name in vocab.GROUP_NAMES and groups == 1) or vocab.groups_needed(name) > groups:
             continue
         out[name] = plain(st.get(name), entry.ty)
     legs = []

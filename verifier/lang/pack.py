@@ -18,7 +18,7 @@ import attrs
 from verifier.errors import Diagnostic, PackError, control_char, suggest
 from verifier.lang import ast, vocab
 from verifier.lang.parser import ExprSyntaxError, parse, parse_quantity
-from verifier.lang.scope import Bound, Scope
+from verifier.lang.scope import Bound, GroupScope, Scope
 from verifier.lang.source import SourceFile, read_regular
 
 SLUG = re.compile(r"[a-z0-9][a-z0-9-]*")     # always fullmatch: "$" also matches before a final "\n"
@@ -32,7 +32,7 @@ TABLES = {
     "pack": {"name", "title", "legs", "description"},
     "world": {"balises", "locacc", "train_length", "antenna", "leg_distance", "odometry_over",
               "odometry_under", "detection", "odometry_basis", "detection_in_odometry", "groups", "g2_distance", "g2_side",
-              "g2_orientation", "g2_balises", "g2_locacc"},
+              "g2_orientation", "g2_balises", "g2_locacc", "history"},
     "params": None,  # free names
     "let": None,
     "onboard": set(vocab.ONBOARD_OUTPUTS) | set(vocab.INFO_OUTPUTS) | {"q_scale", "rounding"},
@@ -41,7 +41,9 @@ TABLES = {
     "lemma": {"id", "title", "given", "expect", "refs", "note"},
     "implementation": {"onboard", "trackside", "path"},
     "info": {"id", "title", "group", "at", "valid"},
+    "group": {"number", "title", "distance", "orientation", "balises", "locacc"},
 }
+MAX_GROUPS = 8          # N_PIG/N_TOTAL code eight balises; the route's groups are capped alike
 
 
 @attrs.frozen
@@ -187,7 +189,7 @@ def _ratio(c: _Collector, key: tuple, value, *, what: str) -> Fraction | None:
     return None
 
 
-def _load_scope(c: _Collector, table: dict) -> Scope:
+def _load_scope(c: _Collector, table: dict, group_tables=()) -> Scope:
     kw = {}
     for name in ("locacc", "train_length", "antenna", "leg_distance", "balises"):
         if name not in table:
@@ -263,6 +265,7 @@ def _load_scope(c: _Collector, table: dict) -> Scope:
         else:
             kw["detection_in_odometry"] = inside
     _load_second_group(c, table, kw)
+    _load_route(c, table, group_tables, kw)
     scope = Scope(**kw)
     if scope.antenna[0] > scope.train_length[1]:
         c.at(("world", "antenna"), "world.antenna low is longer than the longest train")
@@ -273,8 +276,8 @@ def _load_second_group(c: _Collector, table: dict, kw: dict) -> None:
     """``groups`` and the second group's ranges (DESIGN 4.8)."""
     g2_keys = [k for k in ("g2_distance", "g2_side", "g2_orientation", "g2_balises", "g2_locacc") if k in table]
     groups = table.get("groups", 1)
-    if isinstance(groups, bool) or groups not in (1, 2):
-        c.at(("world", "groups"), f"world.groups must be 1 or 2, got {groups!r}")
+    if isinstance(groups, bool) or not isinstance(groups, int) or not 1 <= groups <= MAX_GROUPS:
+        c.at(("world", "groups"), f"world.groups must be a whole number 1..{MAX_GROUPS}, got {groups!r}")
         return
     kw["groups"] = groups
     if groups == 1:
@@ -320,6 +323,89 @@ def _load_second_group(c: _Collector, table: dict, kw: dict) -> None:
 
 
 F0 = Fraction(0)
+_ORIENTATIONS = ("same", "opposite", "any")
+
+
+def _load_route(c: _Collector, table: dict, raw, kw: dict) -> None:
+    """``history`` and the ``[[group]]`` tables of a route (DESIGN 4.10)."""
+    groups = kw.get("groups", 1)
+    if "history" in table:
+        h = table["history"]
+        if isinstance(h, bool) or not isinstance(h, int) or not 1 <= h <= 8:
+            c.at(("world", "history"), f"world.history must be a whole number 1..8 (the onboard's list of LRBGs), got {h!r}")
+        elif groups == 1:
+            c.at(("world", "history"), "world.history is the onboard's list of LRBGs: set world.groups to 2 or more")
+        else:
+            kw["history"] = h
+    if not isinstance(raw, list):
+        c.at(("group",), "groups are written as [[group]] tables")
+        return
+    later = {k: {} for k in range(3, groups + 1)}
+    seen = set()
+    for i, t in enumerate(raw):
+        base = ("group", i)
+        if not isinstance(t, dict):
+            c.at(base, "a group must be a table")
+            continue
+        _unknown_keys(c, base, t, TABLES["group"], "[[group]]")
+        n = t.get("number")
+        if isinstance(n, bool) or not isinstance(n, int) or not 2 <= n <= groups:
+            c.at(base + ("number",) if "number" in t else base,
+                 f"[[group]] needs a number 2..{groups} (the route's groups after G1; [world] groups = {groups})"
+                 if groups >= 2 else "[[group]] describes a group of a route: set [world] groups to 2 or more")
+            continue
+        if n in seen:
+            c.at(base + ("number",), f"group {n} is described twice")
+            continue
+        seen.add(n)
+        if "title" in t and (not isinstance(t["title"], str) or not _plain(c, base + ("title",), t["title"], "the group title")):
+            if not isinstance(t["title"], str):
+                c.at(base + ("title",), "group title must be a string")
+        fields = {}
+        for name, low, whole in (("distance", F0, False), ("locacc", F0, True)):
+            if name not in t:
+                continue
+            v = t[name]
+            pair = v if isinstance(v, list) else [v, v]
+            if len(pair) != 2:
+                c.at(base + (name,), f"group {name} must be a length or a range [low, high]")
+                continue
+            lo = _length(c, base + (name,), pair[0], what=f"group {n} {name}")
+            hi = _length(c, base + (name,), pair[1], what=f"group {n} {name}")
+            if lo is None or hi is None:
+                continue
+            if lo > hi or lo < 0 or (name == "distance" and lo <= 0):
+                c.at(base + (name,), f"group {n} {name} must be {'above' if name == 'distance' else 'at least'} 0 m, low not above high")
+                continue
+            if whole and (lo.denominator != 1 or hi.denominator != 1 or hi > 63):
+                c.at(base + (name,), f"group {n} locacc must be whole metres within 0..63 m (Q_LOCACC, SUBSET-026 7.5.1.115)")
+                continue
+            fields[name] = (lo, hi)
+        if "balises" in t:
+            v = t["balises"]
+            pair = v if isinstance(v, list) else [v, v]
+            if not (len(pair) == 2 and all(isinstance(x, int) and not isinstance(x, bool) for x in pair)
+                    and 1 <= pair[0] <= pair[1] <= 8):
+                c.at(base + ("balises",), f"group {n} balises must lie within 1..8 (SUBSET-026 7.5.1.82), got {v!r}")
+            else:
+                fields["balises"] = tuple(pair)
+        if "orientation" in t:
+            v = t["orientation"]
+            if v not in _ORIENTATIONS:
+                c.at(base + ("orientation",), f"group {n} orientation must be one of {', '.join(_ORIENTATIONS)}, got {v!r}"
+                     + (suggest(v, _ORIENTATIONS) if isinstance(v, str) else ""))
+            else:
+                fields["orientation"] = v
+        if n == 2:
+            for name, v in fields.items():
+                if f"g2_{name}" in table:
+                    c.at(base + (name,), f"group 2 {name} is also set by world.g2_{name}: keep one")
+                else:
+                    kw[f"g2_{name}"] = v
+        else:
+            later[n] = fields
+    if groups >= 3:
+        kw["later"] = tuple(GroupScope(**later[k]) for k in range(3, groups + 1))
 
 
 def _expr(c: _Collector, key: tuple, value, *, what: str) -> RawExpr | None:
@@ -396,11 +482,11 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
         elif k == "rule":
             if not isinstance(v, list):
                 c.at((k,), "rules are written as [[rule]] tables")
-        elif k in ("lemma", "info"):
-            pass    # checked with the lemmas and the information items below
+        elif k in ("lemma", "info", "group"):
+            pass    # checked with the lemmas, the information items and the scope below
         elif not isinstance(v, dict):
             c.at((k,), f"'{k}' must be a table: [{k}]")
-    tables = {k: (v if isinstance(v, dict) else {}) for k, v in data.items() if k not in ("rule", "lemma", "info")}
+    tables = {k: (v if isinstance(v, dict) else {}) for k, v in data.items() if k not in ("rule", "lemma", "info", "group")}
 
     pack_t = tables.get("pack", {})
     if "pack" not in data:
@@ -426,7 +512,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
         description = ""
 
     _unknown_keys(c, ("world",), tables.get("world", {}), TABLES["world"], "[world]")
-    scope = _load_scope(c, tables.get("world", {}))
+    scope = _load_scope(c, tables.get("world", {}), data.get("group", []))
 
     params = {}
     for k, v in tables.get("params", {}).items():
@@ -462,7 +548,7 @@ def parse_pack_text(text: str, shown: str, sha256: str | None = None) -> RawPack
     infos = _infos(c, src, data.get("info", []), scope, {})
     if infos:     # the item formulas exist only in packs with items (they are mutated, hashed)
         onboard.update(_design(c, "onboard", ob_t, vocab.INFO_OUTPUTS,
-                               vocab.DEFAULT_INFO_TWO if scope.groups == 2 else vocab.DEFAULT_INFO_ONE))
+                               vocab.DEFAULT_INFO_TWO if scope.groups >= 2 else vocab.DEFAULT_INFO_ONE))
     else:
         for k in vocab.INFO_OUTPUTS:
             if k in ob_t:
@@ -546,9 +632,9 @@ def _infos(c: _Collector, src: SourceFile, raw, scope: Scope, seen: dict) -> lis
         if isinstance(iid, str):
             seen[iid] = i
         group = t.get("group", 1)
-        if group not in (1, 2) or isinstance(group, bool) or (group == 2 and scope.groups != 2):
-            c.at(base + ("group",), f"info group must be 1{' or 2' if scope.groups == 2 else ''}, got {group!r}"
-                 + ("" if scope.groups == 2 else " (a second group needs [world] groups = 2)"))
+        if isinstance(group, bool) or not isinstance(group, int) or not 1 <= group <= scope.groups:
+            c.at(base + ("group",), (f"info group must be 1..{scope.groups}" if scope.groups > 1 else "info group must be 1")
+                 + f", got {group!r}" + ("" if scope.groups > 1 else " (another group needs [world] groups = 2 or more)"))
             ok = False
         at = _length(c, base + ("at",), t["at"], what="info at") if "at" in t else None
         if at is None or at < 0:

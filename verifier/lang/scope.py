@@ -45,6 +45,16 @@ class Scope:
     g2_orientation: str = "any"                 # G2's nominal direction against G1's: same, opposite, any
     g2_balises: tuple = (1, 8)
     g2_locacc: tuple = (F(0), F(63))
+    # a route of groups (DESIGN 4.10): G3 .. GN ([[group]] tables), and the length of the
+    # onboard's list of LRBGs (eight: from memory)
+    later: tuple = ()                           # GroupScope of G3, G4, ...
+    history: int = 8
+
+    def group(self, k: int) -> "GroupScope":
+        """The scope of group ``k`` (2..groups)."""
+        if k == 2:
+            return GroupScope(self.g2_distance, self.g2_orientation, self.g2_balises, self.g2_locacc)
+        return self.later[k - 3]
 
     def constants(self) -> dict:
         """The ``world.*`` names and their values, with their types."""
@@ -61,11 +71,14 @@ class Scope:
             b = getattr(self, key)
             out[f"world.{key}.fixed"] = (LENGTH, b.fixed)
             out[f"world.{key}.rate"] = (NUMBER, b.rate)
-        if self.groups == 2:
-            for key in ("g2_distance", "g2_locacc"):
-                lo, hi = getattr(self, key)
-                out[f"world.{key}.low"] = (LENGTH, lo)
-                out[f"world.{key}.high"] = (LENGTH, hi)
+        for k in range(2, self.groups + 1):
+            g = self.group(k)
+            for key in ("distance", "locacc"):
+                lo, hi = getattr(g, key)
+                out[f"world.g{k}_{key}.low"] = (LENGTH, lo)
+                out[f"world.g{k}_{key}.high"] = (LENGTH, hi)
+        if self.groups >= 2:
+            out["world.history"] = (COUNT, F(self.history))
         return out
 
     def as_json(self) -> dict:
@@ -83,10 +96,28 @@ class Scope:
             "detection_in_odometry": self.detection_in_odometry,
             # a one-group scope keeps the form it always had (its files and hashes do not change)
             **({} if self.groups == 1 else {
-                "groups": 2, "g2_distance": [q(x) for x in self.g2_distance], "g2_side": self.g2_side,
+                "groups": self.groups, "g2_distance": [q(x) for x in self.g2_distance], "g2_side": self.g2_side,
                 "g2_orientation": self.g2_orientation, "g2_balises": list(self.g2_balises),
                 "g2_locacc": [q(x) for x in self.g2_locacc]}),
+            # a route's later groups and a list shorter than eight (a two-group scope keeps its form)
+            **({} if not self.later else {"later": [g.as_json() for g in self.later]}),
+            **({} if self.history == 8 else {"history": self.history}),
         }
+
+
+@attrs.frozen
+class GroupScope:
+    """The ranges of one later group of a route (DESIGN 4.10): its engineered distance from the
+    group before it, its orientation against G1, its balises and its Q_LOCACC."""
+
+    distance: tuple = (F(50), F(3000))
+    orientation: str = "any"
+    balises: tuple = (1, 8)
+    locacc: tuple = (F(0), F(63))
+
+    def as_json(self) -> dict:
+        return {"distance": [q(x) for x in self.distance], "orientation": self.orientation,
+                "balises": list(self.balises), "locacc": [q(x) for x in self.locacc]}
 
 
 # The [world] bounds a margin may move (``verifier margin --vary KEY``): for each, whether a

@@ -8,6 +8,8 @@ To add a name: add it here (type, readers, one-line meaning), then give it a val
 
 from __future__ import annotations
 
+import re
+
 import enum
 
 import attrs
@@ -134,26 +136,63 @@ GLOBAL = {e.name: e for e in [
     _e("g1.linked", BOOL, OB, "input", "linking announced G1"),
     _e("g1.locacc", LENGTH, BOTH, "input", "Q_LOCACC of G1"),
     _e("g1.offset", LENGTH, NOBODY, "hidden-input", "G1's real reference mark minus its engineered location"),
-    _e("g2.distance", LENGTH, TS, "input", "engineered distance from G1's reference mark to G2's (line data)"),
-    _e("g2.side", DIRECTION, TS, "input", "the way from G1 to G2, in G1's frame"),
-    _e("g2.orientation", DIRECTION, TS, "input", "G2's nominal direction in G1's frame: nominal = the same way as G1, reverse = opposite"),
-    _e("g2.balises", COUNT, OB, "input", "balises in G2"),
-    _e("g2.read", COUNT, OB, "input", "balises of G2 read when it is found"),
-    _e("g2.linked", BOOL, OB, "input", "linking announced G2: D_LINK, the direction of passage and its Q_LOCACC"),
-    _e("g2.locacc", LENGTH, BOTH, "input", "Q_LOCACC of G2"),
-    _e("g2.offset", LENGTH, NOBODY, "hidden-input", "G2's real reference mark minus its engineered location, in G2's frame"),
-    _e("g2.found", BOOL, OB, "input", "the train detects G2 (at the end of leg g2.at)"),
-    _e("g2.at", COUNT, OB, "input", "the leg (counted from G1's passage) at whose end G2 is detected; 0 when not found"),
-    _e("g2.detect_error", LENGTH, NOBODY, "hidden-input", "error locating G2's mark, along the movement (positive: the antenna further along than believed)"),
-    _e("g2.in_window", BOOL, OB, "derived", "a linked G2 was found inside its expectation window, D_LINK -/+ its Q_LOCACC widened by the estimate's confidence interval (SUBSET-026 3.4.4.4.3)"),
-    _e("g2.lrbg", BOOL, BOTH, "derived", "G2 became the LRBG: found and, if linked, in its window and passed the announced way, else read with two balises"),
-    _e("g2.link_distance", LENGTH, OB, "derived", "D_LINK as linking gives it (g2.distance when linked and the passage over G1 is known, else 0 m)"),
-    _e("g2.link_side", DIRECTION, OB, "derived", "the way to G2 as linking gives it (unknown without usable linking)"),
-    _e("g2.link_orientation", DIRECTION, OB, "derived", "G2's orientation in G1's frame as linking gives it (unknown without usable linking)"),
+    # the route (DESIGN 4.10): the onboard's list of LRBGs and what linking gives of the current LRBG
+    _e("g1.remembered", BOOL, BOTH, "derived", "G1 is in the onboard's list of LRBGs (the last world.history groups that became the LRBG)"),
+    _e("g1.link_position", LENGTH, OB, "derived", "G1's mark in G1's frame: 0 m (the reference of linking)"),
+    _e("g1.link_orientation", DIRECTION, OB, "derived", "G1's nominal direction in its own frame: nominal"),
+    _e("lrbg.previous", COUNT, BOTH, "derived", "the number of the group that was the LRBG before the current one (0 when none)"),
+    _e("lrbg.remembered", COUNT, BOTH, "derived", "how many groups the onboard's list of LRBGs holds (1..world.history)"),
+    _e("lrbg.link_position", LENGTH, OB, "derived", "the current LRBG's mark in G1's frame as linking gives it (0 m for G1, and without usable linking)"),
+    _e("lrbg.link_orientation", DIRECTION, OB, "derived", "the current LRBG's nominal direction in G1's frame as linking gives it (nominal for G1; unknown without usable linking)"),
 ]}
 
-#: Names only a pack with [world] groups = 2 may use.
-TWO_GROUPS = frozenset(n for n in GLOBAL if n.startswith("g2."))
+
+def _later_group(k: int) -> list:
+    """The names of group ``k`` of a route (DESIGN 4.8, 4.10): G2's, and each later group's."""
+    before = "G1" if k == 2 else f"G{k - 1}"
+    return [
+        _e(f"g{k}.distance", LENGTH, TS, "input", f"engineered distance from {before}'s reference mark to G{k}'s (line data)"),
+        _e(f"g{k}.side", DIRECTION, TS, "input", f"the way from {before} to G{k}, in G1's frame" + ("" if k == 2 else " (a route runs one way: g2.side)")),
+        _e(f"g{k}.orientation", DIRECTION, TS, "input", f"G{k}'s nominal direction in G1's frame: nominal = the same way as G1, reverse = opposite"),
+        _e(f"g{k}.balises", COUNT, OB, "input", f"balises in G{k}"),
+        _e(f"g{k}.read", COUNT, OB, "input", f"balises of G{k} read when it is found"),
+        _e(f"g{k}.linked", BOOL, OB, "input", f"linking announced G{k}: D_LINK, the direction of passage and its Q_LOCACC"),
+        _e(f"g{k}.locacc", LENGTH, BOTH, "input", f"Q_LOCACC of G{k}"),
+        _e(f"g{k}.offset", LENGTH, NOBODY, "hidden-input", f"G{k}'s real reference mark minus its engineered location, in G{k}'s frame"),
+        _e(f"g{k}.found", BOOL, OB, "input", f"the train detects G{k} (at the end of leg g{k}.at)"),
+        _e(f"g{k}.at", COUNT, OB, "input", f"the leg (counted from G1's passage) at whose end G{k} is detected; 0 when not found"),
+        _e(f"g{k}.detect_error", LENGTH, NOBODY, "hidden-input", f"error locating G{k}'s mark, along the movement (positive: the antenna further along than believed)"),
+        _e(f"g{k}.in_window", BOOL, OB, "derived", f"a linked G{k} was found inside its expectation window, D_LINK -/+ its Q_LOCACC widened by the estimate's confidence interval (SUBSET-026 3.4.4.4.3)"),
+        _e(f"g{k}.lrbg", BOOL, BOTH, "derived", f"G{k} became the LRBG: found and, if linked, in its window and passed the announced way, else read with two balises"),
+        _e(f"g{k}.link_distance", LENGTH, OB, "derived", f"D_LINK as linking gives it (g{k}.distance when linked and the passage over G1 is known, else 0 m)"),
+        _e(f"g{k}.link_side", DIRECTION, OB, "derived", f"the way to G{k} as linking gives it (unknown without usable linking)"),
+        _e(f"g{k}.link_orientation", DIRECTION, OB, "derived", f"G{k}'s orientation in G1's frame as linking gives it (unknown without usable linking)"),
+        _e(f"g{k}.remembered", BOOL, BOTH, "derived", f"G{k} is in the onboard's list of LRBGs (DESIGN 4.10)"),
+        _e(f"g{k}.link_position", LENGTH, OB, "derived", f"G{k}'s mark in G1's frame as linking gives it: along(g2.side, the linked distances up to G{k}); 0 m without usable linking"),
+    ]
+
+
+for _k in range(2, 9):
+    GLOBAL.update({e.name: e for e in _later_group(_k)})
+
+#: The route's names (DESIGN 4.10) that a pack of one group may not use.
+_ROUTE = frozenset({"g1.remembered", "g1.link_position", "g1.link_orientation", "lrbg.previous",
+                    "lrbg.remembered", "lrbg.link_position", "lrbg.link_orientation"})
+
+
+def groups_needed(name: str) -> int:
+    """The least [world] groups under which a vocabulary name exists."""
+    m = re.match(r"g(\d)\.", name)
+    if m and int(m.group(1)) >= 2:
+        return int(m.group(1))
+    return 2 if name in _ROUTE else 1
+
+
+#: Names the model gained with routes (DESIGN 4.10): a two-group file written before lacks them.
+ADDED_WITH_ROUTE = _ROUTE | frozenset(n for n in GLOBAL if n.endswith((".remembered", ".link_position")))
+
+#: Names only a pack with [world] groups = 2 or more may use.
+TWO_GROUPS = frozenset(n for n in GLOBAL if groups_needed(n) >= 2)
 def entry(name: str) -> Entry:
     """The Entry of a name as the checker records reads: vocabulary names, ``leg.F``,
     ``item.F`` (an info formula's item) and ``info.*.F`` (an information item's field)."""
@@ -169,11 +208,11 @@ def entry(name: str) -> Entry:
 
 def names_for(groups: int) -> list:
     """The vocabulary names a pack with ``groups`` groups may use, in table order."""
-    return [n for n in GLOBAL if groups == 2 or n not in TWO_GROUPS]
+    return [n for n in GLOBAL if groups_needed(n) <= groups]
 
 
 #: Names written into evidence files only for two-group packs (one-group files keep their form).
-GROUP_NAMES = frozenset(n for n in GLOBAL if n.startswith(("g1.", "g2.", "journey.")) or n in (
+GROUP_NAMES = frozenset(n for n in GLOBAL if re.match(r"g\d\.|journey\.", n) or n in _ROUTE or n in (
     "lrbg.group", "lrbg.two_groups", "report.two_groups", "report.prv_lrbg"))
 
 # Per-leg names: leg.FIELD inside a quantifier, legs[i].FIELD outside.
@@ -206,7 +245,13 @@ ITEM = {
     "for_nominal": (BOOL, "the item applies to a train facing the reference group's nominal direction"),
     "for_reverse": (BOOL, "the item applies to a train facing its reverse direction"),
     "location": (LENGTH, "the item's place in its reference group's frame for a one-way item (at, negative when valid reverse only); a both-ways item lies at `at` in the direction the train faces, and this field holds at"),
+    # the item's group as the onboard knows it (DESIGN 4.10; with two groups or more)
+    "remembered": (BOOL, "the item's group is in the onboard's list of LRBGs"),
+    "link_position": (LENGTH, "the item's group's mark in G1's frame as linking gives it (0 m for G1, and without usable linking)"),
+    "link_orientation": (DIRECTION, "the item's group's nominal direction in G1's frame as linking gives it (nominal for G1, unknown without usable linking)"),
 }
+#: Item fields that exist only with two groups or more, and that change with the world.
+ROUTE_ITEM = frozenset({"remembered", "link_position", "link_orientation"})
 # Per item, as info.ID.FIELD: the item's data (read by both designs), where it really is in the
 # current LRBG's frame (hidden), and the onboard's decisions.
 INFO_FIELDS = {
@@ -238,24 +283,27 @@ DEFAULT_INFO_ONE = {
     "info_position": ("if item.for_nominal and item.for_reverse then (if est.orientation == unknown then 0 m else along(est.orientation, item.at)) "
                       "else item.location"),
 }
-# With two groups an item of the other group is re-referenced by linking (D_LINK, the way to G2
-# and G2's orientation), and only used when linking gives them; a group referred to the
-# previous LRBG has no co-ordinate system of its own, so its one-way items are rejected
-# (3.6.3.1.4.2).
-_REL = "(if item.group == lrbg.group or g2.link_orientation == nominal then est.orientation else flip(est.orientation))"
+# With two groups or more (DESIGN 4.10) an item is used only while its group is in the onboard's
+# list of LRBGs; an item of another group of the list is re-referred to the current LRBG through
+# the chain of linked distances (both groups' marks in G1's frame, as linking gives them) and
+# used only when linking gives both; a group referred to the previous LRBG has no co-ordinate
+# system of its own, so its one-way items are rejected (3.6.3.1.4.2).
+_SAME = "(item.group == lrbg.group or item.link_orientation == lrbg.link_orientation)"
+_REL = f"(if {_SAME} then est.orientation else flip(est.orientation))"
 # the item's group mark in the current LRBG's frame (0 m for its own group)
-_MARK = ("(if item.group == lrbg.group then 0 m else if lrbg.group == 2 then "
-         "-along(g2.link_orientation, along(g2.link_side, g2.link_distance)) else along(g2.link_side, g2.link_distance))")
+_MARK = ("(if item.group == lrbg.group then 0 m else "
+         "along(lrbg.link_orientation, item.link_position - lrbg.link_position))")
 DEFAULT_INFO_TWO = {
-    "info_accepted": ("(not lrbg.two_groups or (item.for_nominal and item.for_reverse)) and "
-                      "(item.group == lrbg.group or g2.link_side != unknown) and ((item.for_nominal and item.for_reverse) or "
+    "info_accepted": ("item.remembered and (not lrbg.two_groups or (item.for_nominal and item.for_reverse)) and "
+                      "(item.group == lrbg.group or (item.link_orientation != unknown and lrbg.link_orientation != unknown)) and "
+                      "((item.for_nominal and item.for_reverse) or "
                       f"(item.for_nominal and {_REL} == nominal) or "
                       f"(item.for_reverse and {_REL} == reverse))"),
     # a both-ways item `at` from its group's mark along the train's orientation; a one-way item
-    # at its place in its group's frame, turned by linking's orientation for the other group
+    # at its place in its group's frame, turned by the two groups' orientations for another group
     "info_position": ("if item.for_nominal and item.for_reverse and est.orientation == unknown then 0 m "
                       f"else {_MARK} + (if item.for_nominal and item.for_reverse then along(est.orientation, item.at) "
-                      "else along(if item.group == lrbg.group then nominal else g2.link_orientation, item.location))"),
+                      f"else along(if {_SAME} then nominal else reverse, item.location))"),
 }
 
 # The designs under assessment when a pack does not override them (DESIGN 4.4, 4.5), written

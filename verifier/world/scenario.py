@@ -49,12 +49,11 @@ def world_to_data(w: World) -> dict:
         "legs": [{"cab_change": leg.cab_change, "running": leg.running.word,
                   "distance": fmt(leg.distance), "odometer": fmt(leg.odometer)} for leg in w.legs],
     }
-    if w.g2 is not None:
-        g = w.g2
-        out["g2"] = {"distance": fmt(g.distance), "side": g.side.word, "orientation": g.orientation.word,
-                     "balises": g.balises, "read": g.read, "linked": g.linked, "locacc": fmt(g.locacc),
-                     "offset": fmt(g.offset), "found": g.found, "at": g.at,
-                     "detect_error": fmt(g.detect_error)}
+    for k, g in enumerate(w.route, 2):
+        out[f"g{k}"] = {"distance": fmt(g.distance), "side": g.side.word, "orientation": g.orientation.word,
+                        "balises": g.balises, "read": g.read, "linked": g.linked, "locacc": fmt(g.locacc),
+                        "offset": fmt(g.offset), "found": g.found, "at": g.at,
+                        "detect_error": fmt(g.detect_error)}
     return out
 
 
@@ -70,12 +69,17 @@ def world_from_flat(d: dict) -> World:
         offset=d["offset"], length=d["length"], antenna=d["antenna"],
         direction=Direction[d["direction"].upper()], running=Running(d["running"]),
         detect_error=d["detect_error"], legs=legs_from_flat(d["legs"]),
-        g2=None if d.get("g2") is None else Group2(
-            distance=d["g2"]["distance"], side=Direction[d["g2"]["side"].upper()],
-            orientation=Direction[d["g2"]["orientation"].upper()], balises=d["g2"]["balises"],
-            read=d["g2"]["read"], linked=d["g2"]["linked"], locacc=d["g2"]["locacc"],
-            offset=d["g2"]["offset"], found=d["g2"]["found"], at=d["g2"]["at"],
-            detect_error=d["g2"]["detect_error"]))
+        g2=_flat_group(d.get("g2")),
+        later=tuple(_flat_group(d[f"g{k}"]) for k in range(3, 9) if d.get(f"g{k}") is not None))
+
+
+def _flat_group(g: dict | None) -> Group2 | None:
+    if g is None:
+        return None
+    return Group2(distance=g["distance"], side=Direction[g["side"].upper()],
+                  orientation=Direction[g["orientation"].upper()], balises=g["balises"],
+                  read=g["read"], linked=g["linked"], locacc=g["locacc"], offset=g["offset"],
+                  found=g["found"], at=g["at"], detect_error=g["detect_error"])
 
 
 _KEYS = {"lrbg": {"balises", "read", "linked", "locacc", "offset"},
@@ -88,9 +92,9 @@ def world_from_data(data, where: str = "world") -> World:
     """Parse a scenario; raise ValueError naming the field at fault."""
     if not isinstance(data, dict):
         raise ValueError(f"{where} must be a table")
-    extra = set(data) - set(_KEYS) - {"legs", "g2"}
+    extra = set(data) - set(_KEYS) - {"legs"} - {f"g{k}" for k in range(2, 9)}
     if extra:
-        raise ValueError(f"{where}: unknown key '{sorted(extra)[0]}' (keys: lrbg, train, passage, legs, g2)")
+        raise ValueError(f"{where}: unknown key '{sorted(extra)[0]}' (keys: lrbg, train, passage, legs, g2 .. g8)")
     kw: dict = {}
     for table, keys in _KEYS.items():
         t = data.get(table, {})
@@ -156,6 +160,17 @@ def world_from_data(data, where: str = "world") -> World:
     kw["legs"] = tuple(out)
     if "g2" in data:
         kw["g2"] = _group2_from_data(data["g2"], f"{where}.g2", count, flag, word)
+    later = []
+    for k in range(3, 9):
+        if f"g{k}" not in data:
+            break
+        if "g2" not in data:
+            raise ValueError(f"{where}.g{k}: a route's later groups follow G2 (write g2 first)")
+        later.append(_group2_from_data(data[f"g{k}"], f"{where}.g{k}", count, flag, word))
+    rest = sorted(k for k in data if k.startswith("g") and k[1:].isdigit() and int(k[1:]) > len(later) + 2)
+    if rest:
+        raise ValueError(f"{where}.{rest[0]}: the route's groups are numbered without a gap from g2")
+    kw["later"] = tuple(later)
     return World(**kw)
 
 
@@ -175,16 +190,16 @@ def _group2_from_data(t, where: str, count, flag, word) -> Group2:
             kw[key] = parse_length(t[key], f"{where}.{key}")
     for key in ("balises", "read", "at"):
         if key in t:
-            kw[key] = count(t[key], f"g2.{key}")
+            kw[key] = count(t[key], f"{where}.{key}")
     for key in ("linked", "found"):
         if key in t:
-            kw[key] = flag(t[key], f"g2.{key}")
+            kw[key] = flag(t[key], f"{where}.{key}")
     for key in ("side", "orientation"):
         if key in t:
             v = t[key]
             if key == "orientation" and v in ("same", "opposite"):     # the pack's [world] words
                 v = "nominal" if v == "same" else "reverse"
-            kw[key] = word(v, f"g2.{key}", Direction)
+            kw[key] = word(v, f"{where}.{key}", Direction)
             if kw[key] is Direction.UNKNOWN:
                 raise ValueError(f"{where}.{key} must be nominal or reverse"
                                  + (" (or same, opposite)" if key == "orientation" else "")

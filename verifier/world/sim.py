@@ -47,9 +47,16 @@ class World:
     detect_error: Fraction = F(0)
     legs: tuple = ()
     g2: "Group2 | None" = None      # the second group of a two-group pack (DESIGN 4.8)
+    later: tuple = ()               # G3 .. GN of a route (DESIGN 4.10), each a Group2
     # the group's directions are referred to the previous LRBG (a single-balise group without
     # linking, the position report based on two groups: SUBSET-026 3.4.2.3.3.2, 7.4.3.2)
     prv: bool = False
+    prv_group: int = 1              # the previous LRBG's number when ``prv`` (DESIGN 4.10)
+
+    @property
+    def route(self) -> tuple:
+        """G2 .. GN (empty with one group)."""
+        return () if self.g2 is None else (self.g2,) + self.later
 
 
 @attrs.frozen
@@ -119,8 +126,8 @@ def scope_problems(world: World, scope: Scope, bound: int, design: Scope | None 
         out.append("passage.direction must be nominal or reverse")
     if abs(world.detect_error) > scope.detection:
         out.append(f"|passage.detect_error| above world.detection {scope.detection} m")
-    if (world.g2 is None) != (scope.groups == 1):
-        out.append("a two-group pack's worlds have a second group, and only they" )
+    if len(world.route) != scope.groups - 1:
+        out.append(f"the pack has {counted(scope.groups, 'group')}, the world {len(world.route) + 1}")
     if len(world.legs) > bound:
         out.append(f"{counted(len(world.legs), 'leg')}, above the bound {bound}")
     for i, leg in enumerate(world.legs, 1):
@@ -130,12 +137,18 @@ def scope_problems(world: World, scope: Scope, bound: int, design: Scope | None 
             out.append(f"legs[{i}].odometer is negative")
     # the prefix-closed reading error bound (DESIGN 4.1); with a relocation, up to the detection
     # of G2 here, then from G2 on (the rest of the world as seen from G2, DESIGN 4.8)
-    if world.g2 is not None and scope.groups == 2:
-        out += _second_group_problems(world, scope)
+    if world.route and len(world.route) == scope.groups - 1:
+        for k in range(2, scope.groups + 1):
+            out += _group_problems(world, scope, k)
+        found = [(g.at, k) for k, g in enumerate(world.route, 2) if g.found]
+        if [k for _, k in sorted(found)] != [k for _, k in found] or len({a for a, _ in found}) != len(found):
+            out.append("the route's groups are found in their order, at different legs (DESIGN 4.10)")
         h = handover(world, design or scope)
         if h.accepted:
-            out += _reading_problems(world.detect_error, world.legs[:world.g2.at], scope)
-            out += [f"after G2: {p}" for p in _reading_problems(h.current.detect_error, h.current.legs, scope)]
+            for i, stage in enumerate(h.stages):
+                end = h.stages[i + 1].start - stage.start if i + 1 < len(h.stages) else len(stage.world.legs)
+                problems = _reading_problems(stage.world.detect_error, stage.world.legs[:end], scope)
+                out += [p if stage.group == 1 else f"after G{stage.group}: {p}" for p in problems]
             return out
     out += _reading_problems(world.detect_error, world.legs, scope)
     return out
@@ -164,99 +177,155 @@ def _reading_problems(d: Fraction, legs, scope: Scope) -> list[str]:
     return out
 
 
-def _second_group_problems(world: World, scope: Scope) -> list[str]:
-    g, out = world.g2, []
-    lo, hi = scope.g2_distance
+def _group_problems(world: World, scope: Scope, k: int) -> list[str]:
+    """Why later group ``k`` is outside the scope (DESIGN 4.8, 4.10)."""
+    g, out, gs, n = world.route[k - 2], [], scope.group(k), f"g{k}"
+    lo, hi = gs.distance
     if not lo <= g.distance <= hi:
-        out.append(f"g2.distance {g.distance} m outside {lo}..{hi} m")
-    for name, v, allowed in (("g2.side", g.side, {"nominal": {NOM}, "reverse": {REV}, "any": {NOM, REV}}[scope.g2_side]),
-                             ("g2.orientation", g.orientation,
-                              {"same": {NOM}, "opposite": {REV}, "any": {NOM, REV}}[scope.g2_orientation])):
+        out.append(f"{n}.distance {g.distance} m outside {lo}..{hi} m")
+    sides = {"nominal": {NOM}, "reverse": {REV}, "any": {NOM, REV}}[scope.g2_side]
+    if k > 2:
+        sides = {world.g2.side}
+    for name, v, allowed in ((f"{n}.side", g.side, sides),
+                             (f"{n}.orientation", g.orientation,
+                              {"same": {NOM}, "opposite": {REV}, "any": {NOM, REV}}[gs.orientation])):
         if v not in allowed:
-            out.append(f"{name} {v.word} outside the scope")
-    if not scope.g2_balises[0] <= g.balises <= scope.g2_balises[1] or not 1 <= g.read <= g.balises:
-        out.append(f"g2.balises {g.balises} or g2.read {g.read} outside the scope")
-    if g.locacc.denominator != 1 or not scope.g2_locacc[0] <= g.locacc <= scope.g2_locacc[1]:
-        out.append(f"g2.locacc {g.locacc} m not a whole metre in the scope")
+            out.append(f"{name} {v.word} outside the scope" + (" (a route runs one way: g2.side)" if k > 2 and name.endswith("side") else ""))
+    if not gs.balises[0] <= g.balises <= gs.balises[1] or not 1 <= g.read <= g.balises:
+        out.append(f"{n}.balises {g.balises} or {n}.read {g.read} outside the scope")
+    if g.locacc.denominator != 1 or not gs.locacc[0] <= g.locacc <= gs.locacc[1]:
+        out.append(f"{n}.locacc {g.locacc} m not a whole metre in the scope")
     if abs(g.offset) > g.locacc:
-        out.append("|g2.offset| above g2.locacc")
+        out.append(f"|{n}.offset| above {n}.locacc")
     if abs(g.detect_error) > scope.detection:
-        out.append("|g2.detect_error| above world.detection")
+        out.append(f"|{n}.detect_error| above world.detection")
     if not g.found:
         if g.at != 0 or g.detect_error != 0:
-            out.append("a group not found has g2.at 0 and no detection error")
+            out.append(f"a group not found has {n}.at 0 and no detection error")
         return out
     if not 1 <= g.at <= len(world.legs):
-        out.append(f"g2.at {g.at} is not a leg of the world")
+        out.append(f"{n}.at {g.at} is not a leg of the world")
         return out
     snap = start(world)
     for leg in world.legs[:g.at]:
         snap, _ = advance(snap, leg)
     antenna = snap.front - snap.orientation * world.antenna
-    mark = sign(g.side) * g.distance + sign(g.orientation) * g.offset
+    mark = marks(world)[k - 1] + sign(g.orientation) * g.offset
     if not world.legs[g.at - 1].distance > max(F(0), g.detect_error):
-        out.append(f"G2 is found at the end of leg {g.at}, which must move the antenna onto it "
+        out.append(f"G{k} is found at the end of leg {g.at}, which must move the antenna onto it "
                    "(more than 0 m, and more than the detection error)")
     if antenna != mark + snap.motion * g.detect_error:
-        out.append(f"G2 found at the end of leg {g.at}, but the antenna is at {_m(antenna)}, not at G2's "
+        out.append(f"G{k} found at the end of leg {g.at}, but the antenna is at {_m(antenna)}, not at G{k}'s "
                    f"mark {_m(mark)} with the detection error")
     return out
 
 
 @attrs.frozen
+class Stage:
+    """One LRBG of a journey (DESIGN 4.10): the group, the world as it sees it (its passage and
+    every leg after its detection), where it lies and which way its frame points in G1's frame,
+    and how many legs from G1's passage came before its detection."""
+
+    group: int
+    world: World
+    origin: Fraction = F(0)
+    frame: int = 1
+    start: int = 0
+
+
+@attrs.frozen
 class Handover:
-    """What the second group does to a world (DESIGN 4.8)."""
+    """What the route's later groups do to a world (DESIGN 4.8, 4.10)."""
 
     in_window: bool               # a linked G2 was found inside its expectation window
-    accepted: bool                # G2 became the LRBG (at the end of leg g2.at)
-    current: World                # the world as the current LRBG sees it: G2's passage and the legs after it
-    frame: int = 1                # sign of the current G2 frame's nominal direction in G1's frame
+    accepted: bool                # a later group became the LRBG (the current LRBG is not G1)
+    current: World                # the world as the current LRBG sees it: its passage and the legs after it
+    frame: int = 1                # sign of the current LRBG frame's nominal direction in G1's frame
+    stages: tuple = ()            # every LRBG of the journey, G1 first (Stage)
+    windows: tuple = ()           # per later group G2 .. GN: found inside its expectation window
+    lrbgs: tuple = ()             # per later group: became the LRBG
+    history: tuple = (1,)         # the onboard's list of LRBGs, oldest first
+
+    @property
+    def group(self) -> int:
+        return self.stages[-1].group if self.stages else 1
+
+    @property
+    def origin(self) -> Fraction:
+        return self.stages[-1].origin if self.stages else F(0)
+
+    @property
+    def previous(self) -> int:
+        return self.stages[-2].group if len(self.stages) >= 2 else 0
+
+
+def marks(world: World) -> list:
+    """The engineered mark of every group in G1's frame: [0, x2, x3, ...] (DESIGN 4.10: a route
+    runs one way, the way from G1 to G2)."""
+    out, x = [F(0)], F(0)
+    for g in world.route:
+        x += sign(world.g2.side) * g.distance
+        out.append(x)
+    return out
 
 
 def handover(world: World, scope: Scope) -> Handover:
-    """Whether G2 becomes the LRBG, and the world from then on (DESIGN 4.8): a linked G2 in its
-    window and passed the announced way (SUBSET-026 3.4.4.4.3, 3.4.4.4.7); an unlinked one, or
-    any when the direction over G1 is unknown (no linking can be used), with two balises read
-    (3.4.4.3.2); a single-balise G2 without usable linking always, its directions referred to
-    the move from G1 towards it (the report based on two groups, 3.4.2.3.3.1, 3.4.2.3.3.2), or
-    unknown when the train finds it running towards G1 (3.4.2.3.3.4)."""
-    g = world.g2
-    if g is None or not g.found or not 1 <= g.at <= len(world.legs):
-        return Handover(False, False, world)
-    snap = start(world)
-    for leg in world.legs[:g.at]:
-        snap, _ = advance(snap, leg)
-    in_window = False
-    linking = g.linked and known(world)
-    prv = False
-    frame = sign(g.orientation)
-    if linking:
-        est_front = sign(world.direction) * snap.est_front_passage
-        est_antenna = est_front - snap.orientation * world.antenna
-        u = sign(g.side) * est_antenna                 # estimated distance from G1 towards G2
-        margin = world.locacc
-        lo = u - margin - _bound_over(scope, snap.measured)
-        hi = u + margin + _bound_under(scope, snap.measured)
-        in_window = hi >= g.distance - g.locacc and lo <= g.distance + g.locacc
-        accepted = in_window and snap.motion == sign(g.side)
-    elif g.balises == 1:
-        # the move from G1 towards G2 is the direction reference; a train running towards G1
-        # when it finds G2 runs against the way it last passed G1: all directions unknown
-        accepted = True
-        prv = snap.motion == sign(g.side)
-        if prv:
-            frame = sign(g.side)
-    else:
-        accepted = g.read >= 2
-    if not accepted:
-        return Handover(in_window, False, world)
-    leg = world.legs[g.at - 1]
-    current = World(balises=g.balises, read=g.read, linked=g.linked and (linking or g.balises > 1),
-                    locacc=g.locacc, offset=g.offset,
-                    length=world.length, antenna=world.antenna,
-                    direction=direction_of(frame * snap.motion), running=leg.running,
-                    detect_error=g.detect_error, legs=world.legs[g.at:], prv=prv)
-    return Handover(in_window, True, current, frame)
+    """Which groups become the LRBG, and the world from then on (DESIGN 4.8, 4.10). Each found
+    group is judged from the current LRBG: a linked one in its window and passed the announced
+    way (SUBSET-026 3.4.4.4.3, 3.4.4.4.7); an unlinked one, or any when linking cannot be used,
+    with two balises read (3.4.4.3.2); a single-balise one without usable linking always, its
+    directions referred to the move from the current LRBG towards it (the report based on two
+    groups, 3.4.2.3.3.1, 3.4.2.3.3.2), or unknown when the train finds it running the other way
+    (3.4.2.3.3.4)."""
+    xs = marks(world)
+    stages = [Stage(1, world)]
+    windows, lrbgs = [], []
+    known1 = known(world)
+    for k, g in enumerate(world.route, 2):
+        cur = stages[-1]
+        local = g.at - cur.start
+        if not g.found or not 1 <= local <= len(cur.world.legs):
+            windows.append(False)
+            lrbgs.append(False)
+            continue
+        snap = start(cur.world)
+        for leg in cur.world.legs[:local]:
+            snap, _ = advance(snap, leg)
+        e = cur.frame * (xs[k - 1] - cur.origin)       # GK's engineered mark in the current frame
+        way = 1 if e > 0 else -1                        # from the current LRBG towards GK
+        linking = (g.linked and known1 and known(cur.world)
+                   and (cur.group == 1 or world.route[cur.group - 2].linked))
+        in_window, prv, frame = False, False, sign(g.orientation)
+        if linking:
+            est_front = sign(cur.world.direction) * snap.est_front_passage
+            est_antenna = est_front - snap.orientation * world.antenna
+            u = way * est_antenna                       # estimated distance from the LRBG towards GK
+            lo = u - cur.world.locacc - _bound_over(scope, snap.measured)
+            hi = u + cur.world.locacc + _bound_under(scope, snap.measured)
+            in_window = hi >= abs(e) - g.locacc and lo <= abs(e) + g.locacc
+            accepted = in_window and snap.motion == way
+        elif g.balises == 1:
+            accepted = True
+            prv = snap.motion == way
+            if prv:
+                frame = cur.frame * way
+        else:
+            accepted = g.read >= 2
+        windows.append(in_window)
+        lrbgs.append(accepted)
+        if not accepted:
+            continue
+        leg = cur.world.legs[local - 1]
+        view = World(balises=g.balises, read=g.read, linked=g.linked and (linking or g.balises > 1),
+                     locacc=g.locacc, offset=g.offset, length=world.length, antenna=world.antenna,
+                     direction=direction_of(frame * cur.frame * snap.motion), running=leg.running,
+                     detect_error=g.detect_error, legs=cur.world.legs[local:], prv=prv,
+                     prv_group=cur.group)
+        stages.append(Stage(k, view, xs[k - 1], frame, g.at))
+    history = tuple(st.group for st in stages)[-scope.history:]
+    last = stages[-1]
+    return Handover(bool(windows and windows[0]), len(stages) > 1, last.world, last.frame,
+                    tuple(stages), tuple(windows), tuple(lrbgs), history)
 
 
 def _bound_over(scope: Scope, measured: Fraction) -> Fraction:
@@ -473,22 +542,35 @@ def snapshot_values(snap: Snapshot, scope: Scope) -> dict:
 
 
 def group_values(world: World, h: Handover) -> dict:
-    """The names of the groups (DESIGN 4.8): which is the LRBG, G1's inputs, G2's."""
-    out = {"lrbg.group": F(2 if h.accepted else 1), "journey.legs": F(len(world.legs)),
+    """The names of the groups (DESIGN 4.8, 4.10): which is the LRBG, the onboard's list, G1's
+    inputs, each later group's and what linking gives of it."""
+    out = {"lrbg.group": F(h.group), "journey.legs": F(len(world.legs)),
            "g1.balises": F(world.balises), "g1.read": F(world.read), "g1.linked": world.linked,
            "g1.locacc": world.locacc, "g1.offset": world.offset}
-    g = world.g2
-    if g is not None:
-        linked = g.linked and known(world)
+    if not world.route:
+        return out
+    known1 = known(world)
+    xs = marks(world)
+    out.update({"g1.remembered": 1 in h.history, "g1.link_position": F(0), "g1.link_orientation": NOM,
+                "lrbg.previous": F(h.previous), "lrbg.remembered": F(len(h.history))})
+    for k, g in enumerate(world.route, 2):
+        linked = g.linked and known1
+        n = f"g{k}"
         out.update({
-            "g2.distance": g.distance, "g2.side": g.side, "g2.orientation": g.orientation,
-            "g2.balises": F(g.balises), "g2.read": F(g.read), "g2.linked": g.linked,
-            "g2.locacc": g.locacc, "g2.offset": g.offset, "g2.found": g.found, "g2.at": F(g.at),
-            "g2.detect_error": g.detect_error, "g2.in_window": h.in_window, "g2.lrbg": h.accepted,
-            "g2.link_distance": g.distance if linked else F(0),
-            "g2.link_side": g.side if linked else UNK,
-            "g2.link_orientation": g.orientation if linked else UNK,
+            f"{n}.distance": g.distance, f"{n}.side": g.side, f"{n}.orientation": g.orientation,
+            f"{n}.balises": F(g.balises), f"{n}.read": F(g.read), f"{n}.linked": g.linked,
+            f"{n}.locacc": g.locacc, f"{n}.offset": g.offset, f"{n}.found": g.found, f"{n}.at": F(g.at),
+            f"{n}.detect_error": g.detect_error, f"{n}.in_window": h.windows[k - 2],
+            f"{n}.lrbg": h.lrbgs[k - 2],
+            f"{n}.link_distance": g.distance if linked else F(0),
+            f"{n}.link_side": g.side if linked else UNK,
+            f"{n}.link_orientation": g.orientation if linked else UNK,
+            f"{n}.remembered": k in h.history,
+            f"{n}.link_position": xs[k - 1] if linked else F(0),
         })
+    j = h.group
+    out["lrbg.link_position"] = out[f"g{j}.link_position"]
+    out["lrbg.link_orientation"] = out[f"g{j}.link_orientation"]
     return out
 
 
@@ -579,6 +661,11 @@ class _Values:
     def info_value(self, info_id: str, field: str):
         item = self.pack.info(info_id)
         data = item_data(item)
+        if self.world.route:        # what the onboard knows of the item's group (DESIGN 4.10)
+            n = f"g{item.group}"
+            data.update({"remembered": self.get(f"{n}.remembered"),
+                         "link_position": self.get(f"{n}.link_position"),
+                         "link_orientation": self.get(f"{n}.link_orientation")})
         if field in data:
             return data[field]
         if field == "real":
@@ -597,25 +684,21 @@ class _Values:
     def _info_real(self, item) -> Fraction:
         """Where the item is, in the current LRBG's frame, from the line data. An item valid
         both ways lies ``at`` from its group in the direction the train really faces
-        (SUBSET-026 3.6.3.1.3, 3.6.4.2.3); a one-way item at its place in its group's frame."""
-        group = int(self.get("lrbg.group"))
+        (SUBSET-026 3.6.3.1.3, 3.6.4.2.3); a one-way item at its place in its group's frame
+        (its engineered orientation; DESIGN 4.9, 4.10)."""
         o = sign(self.get("actual.orientation"))       # in the current LRBG's frame
-        g = self.world.g2
-        if g is None:
+        w = self.world
+        if not w.route:
             return o * item.at if item.for_nominal and item.for_reverse else item.location
-        x2, s2 = sign(g.side) * g.distance, sign(g.orientation)
-        f = getattr(self, "handover", None)
-        f2 = f.frame if f is not None and f.accepted else s2      # the current G2 frame in G1's
-        if group == 1:
-            o1 = o                                      # orientation in G1's frame
-        else:
-            o1 = f2 * o
+        h = getattr(self, "handover", None) or Handover(False, False, w, stages=(Stage(1, w),))
+        f, x0 = h.frame, h.origin                       # the current frame in G1's
+        xa = marks(w)[item.group - 1]
+        sa = 1 if item.group == 1 else sign(w.route[item.group - 2].orientation)
         if item.for_nominal and item.for_reverse:
-            loc = (o1 if item.group == 1 else s2 * o1) * item.at   # in the item group's line frame
+            x = xa + f * o * item.at                    # `at` ahead of its group, along the orientation
         else:
-            loc = item.location
-        x = loc if item.group == 1 else x2 + s2 * loc           # in G1's frame
-        return x if group == 1 else f2 * (x - x2)
+            x = xa + sa * item.location
+        return f * (x - x0)
 
     def leg_at(self, index: int, field: str):
         raise NotImplementedError
@@ -645,46 +728,62 @@ class State(_Values):
     def journey_raw(self) -> list:
         """Every leg since G1's passage with its fields in the frame of the group that was the
         LRBG during it: [(Leg, fields, group)]."""
-        if not self.handover.accepted:
+        h = self.handover
+        if not h.accepted:
             return [(leg, f, 1) for leg, f in zip(self.world.legs, self.legs)]
-        out, snap = [], start(self.world)
-        for leg in self.world.legs[:self.world.g2.at]:
-            snap, f = advance(snap, leg)
-            out.append((leg, f, 1))
-        return out + [(leg, f, 2) for leg, f in zip(self.current.legs, self.legs)]
+        out = []
+        for i, stage in enumerate(h.stages[:-1]):
+            snap = start(stage.world)
+            for leg in stage.world.legs[:h.stages[i + 1].start - stage.start]:
+                snap, f = advance(snap, leg)
+                out.append((leg, f, stage.group))
+        return out + [(leg, f, h.group) for leg, f in zip(self.current.legs, self.legs)]
+
+    def _stage(self, group: int) -> Stage:
+        return next(s for s in self.handover.stages if s.group == group)
 
     @property
     def journey(self) -> list:
         """Every leg since G1's passage with its fields in the frame of the current LRBG, and
         the group that was the LRBG during it: [(Leg, fields, group)]. Legs before a relocation
-        are seen from G2 (DESIGN 4.8); without one this is the legs with ``self.legs``."""
-        if not self.handover.accepted:
+        are seen from the current LRBG (DESIGN 4.8, 4.10); without one this is the legs with
+        ``self.legs``."""
+        h = self.handover
+        if not h.accepted:
             return self.journey_raw()
-        g = self.world.g2
-        x2, s2 = sign(g.side) * g.distance, self.handover.frame
         out = []
         for leg, f, group in self.journey_raw():
-            if group == 1:      # seen from G2: positions and directions in its frame
+            if group != h.group:    # seen from the current LRBG: positions and directions in its frame
+                st = self._stage(group)
+                turn = st.frame * h.frame
                 f = dict(f)
                 for k in ("actual_front", "est_front"):
-                    f[k] = s2 * (f[k] - x2)
+                    f[k] = h.frame * (st.origin + st.frame * f[k] - h.origin)
                 for k in ("orientation", "motion", "actual_orientation", "actual_motion"):
                     if f[k] is not UNK:
-                        f[k] = direction_of(s2 * sign(f[k]))
+                        f[k] = direction_of(turn * sign(f[k]))
             out.append((leg, f, group))
         return out
 
+    def other_groups(self) -> list:
+        """Every group that is not the current LRBG, in the current LRBG's frame: [(name,
+        position, sign of its nominal direction, balises)]; empty with one group."""
+        w, h = self.world, self.handover
+        out = []
+        for k, x in enumerate(marks(w), 1):
+            if k == h.group or not w.route:
+                continue
+            s = 1 if k == 1 else sign(w.route[k - 2].orientation)
+            if k != 1 and any(st.group == k for st in h.stages):
+                s = self._stage(k).frame          # a group referred to a move keeps that frame
+            out.append((f"G{k}", h.frame * (x - h.origin), h.frame * s,
+                        w.balises if k == 1 else w.route[k - 2].balises))
+        return out
+
     def other_group(self) -> tuple | None:
-        """The group that is not the LRBG, in the current LRBG's frame: (name, position, sign of
-        its nominal direction, balises); None with one group."""
-        g = self.world.g2
-        if g is None:
-            return None
-        x2, s2 = sign(g.side) * g.distance, sign(g.orientation)
-        if self.handover.accepted:
-            f2 = self.handover.frame
-            return ("G1", f2 * (0 - x2), f2, self.world.balises)
-        return ("G2", x2, s2, g.balises)
+        """The first group that is not the LRBG (see :meth:`other_groups`); None with one group."""
+        others = self.other_groups()
+        return others[0] if others else None
 
     def quantify(self, node: ast.Quant, env: dict):
         results = [evaluate(node.body, self, {**env, node.var: leg}) for leg in self.legs]
