@@ -252,6 +252,11 @@ ITEM = {
 }
 #: Item fields that exist only with two groups or more, and that change with the world.
 ROUTE_ITEM = frozenset({"remembered", "link_position", "link_orientation"})
+
+
+def info_fields_for(groups: int) -> list:
+    """The ``info.ID.FIELD`` fields a pack of ``groups`` groups has, in table order."""
+    return [f for f in INFO_FIELDS if groups >= 2 or f not in ROUTE_ITEM]
 # Per item, as info.ID.FIELD: the item's data (read by both designs), where it really is in the
 # current LRBG's frame (hidden), and the onboard's decisions.
 INFO_FIELDS = {

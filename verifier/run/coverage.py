@@ -54,7 +54,7 @@ def summary(pack: Pack, legs=None, induction_depth: int = 4, rules=None, tested=
     out["world"] = pack.scope.as_json()
     out["groups"] = pack.scope.groups
     out["information_items"] = len(pack.infos)
-    item_defaults = DEFAULT_INFO_TWO if pack.scope.groups == 2 else DEFAULT_INFO_ONE
+    item_defaults = DEFAULT_INFO_TWO if pack.scope.groups >= 2 else DEFAULT_INFO_ONE
     out["onboard"] = {
         "q_scale": pack.q_scale, "rounding": pack.rounding,
         "own_formulas": sorted(k for k, f in pack.onboard.items()
@@ -93,10 +93,15 @@ def parts(scope: dict) -> list[tuple[str, str]]:
     world = (f"train {_range(w['train_length'])}, antenna {_range(w['antenna'])} behind the front, "
              f"each leg {_range(w['leg_distance'])}, {_range(w['balises'], '')} balises, "
              f"Q_LOCACC {_range(w['locacc'])}")
-    if groups == 2:
+    if groups >= 2:
         world += (f"; G2 at {_range(w['g2_distance'])} ({w['g2_side']} side, orientation "
                   f"{w['g2_orientation']}), {_range(w['g2_balises'], '')} balises, "
                   f"Q_LOCACC {_range(w['g2_locacc'])}")
+    for k, g in enumerate(w.get("later", []), 3):      # a route (DESIGN 4.10)
+        world += (f"; G{k} {_range(g['distance'])} on from G{k - 1} (orientation {g['orientation']}), "
+                  f"{_range(g['balises'], '')} balises, Q_LOCACC {_range(g['locacc'])}")
+    if groups >= 2:
+        world += f"; the onboard remembers the last {w.get('history', 8)} LRBGs"
     o, u = w["odometry_over"], w["odometry_under"]
     o, u = w["odometry_over"], w["odometry_under"]
     odo = (f"over-reading {o['fixed']} m + {_pct(o['rate'])}, under-reading {u['fixed']} m + "

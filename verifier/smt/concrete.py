@@ -20,7 +20,7 @@ import z3
 from verifier.check.model import Pack
 from verifier.lang import ast
 from verifier.lang.numbers import counted
-from verifier.lang.vocab import GLOBAL, INFO_FIELDS, LEG, names_for
+from verifier.lang.vocab import GLOBAL, INFO_FIELDS, LEG, info_fields_for, names_for
 from verifier.smt import solve
 from verifier.smt.encode import Encoding
 from verifier.smt.solve import COMPARED, read_world, to_fraction
@@ -73,7 +73,8 @@ class Evaluator:
         for name in names_for(pack.scope.groups):
             self.terms.append(("name", name, GLOBAL[name].ty, enc.name(name)))
         for item in pack.infos:      # trackside information items (DESIGN 4.9)
-            for field, (ty, *_rest) in INFO_FIELDS.items():
+            for field in info_fields_for(pack.scope.groups):
+                ty = INFO_FIELDS[field][0]
                 self.terms.append(("name", f"info.{item.id}.{field}", ty, enc.info_term(item.id, field)))
         for i in range(1, bound + 1):
             for field, entry in LEG.items():
@@ -111,15 +112,17 @@ class Evaluator:
              I["passage.running"] == z3.BoolVal(world["running"] == "forward", ctx),
              I["passage.detect_error"] == real(world["detect_error"]),
              I["legs.count"] == len(legs)]
-        g = world.get("g2")
-        if g is not None:
-            code = {"nominal": 1, "reverse": -1}
-            a += [I["g2.distance"] == real(g["distance"]), I["g2.side"] == code[g["side"]],
-                  I["g2.orientation"] == code[g["orientation"]], I["g2.balises"] == int(g["balises"]),
-                  I["g2.read"] == int(g["read"]), I["g2.linked"] == z3.BoolVal(bool(g["linked"]), ctx),
-                  z3.ToReal(I["g2.locacc"]) == real(g["locacc"]), I["g2.offset"] == real(g["offset"]),
-                  I["g2.found"] == z3.BoolVal(bool(g["found"]), ctx), I["g2.at"] == int(g["at"]),
-                  I["g2.detect_error"] == real(g["detect_error"])]
+        code = {"nominal": 1, "reverse": -1}
+        for k in range(2, 9):       # the route's later groups (DESIGN 4.8, 4.10)
+            g, n = world.get(f"g{k}"), f"g{k}"
+            if g is None:
+                break
+            a += [I[f"{n}.distance"] == real(g["distance"]), I[f"{n}.side"] == code[g["side"]],
+                  I[f"{n}.orientation"] == code[g["orientation"]], I[f"{n}.balises"] == int(g["balises"]),
+                  I[f"{n}.read"] == int(g["read"]), I[f"{n}.linked"] == z3.BoolVal(bool(g["linked"]), ctx),
+                  z3.ToReal(I[f"{n}.locacc"]) == real(g["locacc"]), I[f"{n}.offset"] == real(g["offset"]),
+                  I[f"{n}.found"] == z3.BoolVal(bool(g["found"]), ctx), I[f"{n}.at"] == int(g["at"]),
+                  I[f"{n}.detect_error"] == real(g["detect_error"])]
         for i, leg in enumerate(legs, 1):
             a += [I[f"legs.{i}.cab_change"] == z3.BoolVal(bool(leg["cab_change"]), ctx),
                   I[f"legs.{i}.running"] == z3.BoolVal(leg["running"] == "forward", ctx),

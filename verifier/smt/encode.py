@@ -257,7 +257,7 @@ class Terms:
         o, op, motion, est_p = st["o"], st["op"], st["motion"], st["est_p"]
         measured = self.define("est.travelled", st["measured"])
         cabs, travelled = st["cabs"], st["travelled"]
-        self.terms.update({k: v for k, v in S.items() if k not in ("known", "frame", "prv", "two_groups")})
+        self.terms.update({k: v for k, v in S.items() if k not in ("known", "frame", "prv", "prv_group", "two_groups")})
         self.terms.update({
             "legs.count": count,
             "cab_changes": z3.Sum(cabs) if cabs else self.ival(0),
@@ -274,28 +274,52 @@ class Terms:
             "est.bound_under": self._bounds_at(measured)[1],
             "lrbg.two_groups": S["two_groups"],
             "report.two_groups": S["two_groups"],
-            "report.prv_lrbg": z3.If(S["prv"], 1, 0),
+            "report.prv_lrbg": z3.If(S["prv"], S.get("prv_group", self.ival(1)), 0),
         })
         self.known = known
 
-    def _group_names(self, S1: dict, G: dict | None, count) -> None:
-        """lrbg.group, journey.legs, g1.* and (two groups) g2.*."""
-        T = self.terms
+    def _group_names(self, S1: dict, Gs: list, count) -> None:
+        """lrbg.group, journey.legs, g1.* and, with a route, every later group's names, the
+        onboard's list of LRBGs and what linking gives (DESIGN 4.8, 4.10)."""
+        T, num = self.terms, self.num
         T.update({"journey.legs": count, "g1.balises": S1["lrbg.balises"], "g1.read": S1["lrbg.read"],
                   "g1.linked": S1["lrbg.linked"], "g1.locacc": S1["lrbg.locacc"],
                   "g1.offset": S1["lrbg.offset"]})
-        if G is None:
+        if not Gs:
             T["lrbg.group"] = self.ival(1)
             return
-        linking = z3.And(G["linked"], self.known_first)
-        T.update({"lrbg.group": z3.If(G["lrbg"], 2, 1), "g2.lrbg": G["lrbg"],
-                  "g2.in_window": G["in_window"], "g2.locacc": z3.ToReal(G["locacc"]),
-                  "g2.link_distance": z3.If(linking, G["distance"], self.num(0)),
-                  "g2.link_side": z3.If(linking, G["side"], 0),
-                  "g2.link_orientation": z3.If(linking, G["orientation"], 0)})
-        for k in ("distance", "side", "orientation", "balises", "read", "linked", "offset",
-                  "found", "at", "detect_error"):
-            T[f"g2.{k}"] = G[k]
+        R = self._route
+        H = self.pack.scope.history
+        became = [z3.BoolVal(True, self.ctx)] + [G["lrbg"] for G in Gs]
+        ones = [z3.If(b, 1, 0) for b in became]
+        # the list holds the last `history` LRBGs, the current one included (DESIGN 4.10)
+        remembered = [self.define(f"g{k}.remembered", z3.And(became[k - 1], z3.Sum(ones[k:]) <= H - 1)
+                                  if k < len(became) else became[k - 1], "bool")
+                      for k in range(1, len(became) + 1)]
+        T.update({"lrbg.group": R["group"], "lrbg.previous": R["previous"],
+                  "lrbg.remembered": self.define("lrbg.remembered", z3.If(z3.Sum(ones) <= H, z3.Sum(ones), H), "int"),
+                  "g1.remembered": remembered[0], "g1.link_position": num(0), "g1.link_orientation": self.ival(1)})
+        positions, orientations = [num(0)], [self.ival(1)]
+        for k, G in enumerate(Gs, 2):
+            n = f"g{k}"
+            linking = z3.And(G["linked"], self.known_first)
+            T.update({f"{n}.lrbg": G["lrbg"], f"{n}.in_window": G["in_window"],
+                      f"{n}.locacc": z3.ToReal(G["locacc"]),
+                      f"{n}.link_distance": z3.If(linking, G["distance"], num(0)),
+                      f"{n}.link_side": z3.If(linking, G["side"], 0),
+                      f"{n}.link_orientation": z3.If(linking, G["orientation"], 0),
+                      f"{n}.remembered": remembered[k - 1],
+                      f"{n}.link_position": z3.If(linking, R["marks"][k - 1], num(0))})
+            for f in ("distance", "side", "orientation", "balises", "read", "linked", "offset",
+                      "found", "at", "detect_error"):
+                T[f"{n}.{f}"] = G[f]
+            positions.append(T[f"{n}.link_position"])
+            orientations.append(T[f"{n}.link_orientation"])
+        pos, ori = positions[0], orientations[0]
+        for k in range(2, len(positions) + 1):
+            pos = z3.If(R["group"] == k, positions[k - 1], pos)
+            ori = z3.If(R["group"] == k, orientations[k - 1], ori)
+        T["lrbg.link_position"], T["lrbg.link_orientation"] = pos, ori
 
     # ---- the wire (DESIGN 4.4) ----------------------------------------------------------
     # The step is an Int c (0: 10 cm, 1: 1 m, 2: 10 m). Whether a step fits is written as
@@ -426,9 +450,15 @@ class Terms:
     # ---- trackside information items (DESIGN 4.9) -------------------------------------------
     def item_terms(self, item) -> dict:
         location = -item.at if (item.for_reverse and not item.for_nominal) else item.at
-        return {"group": self.ival(item.group), "at": self.num(item.at),
-                "for_nominal": z3.BoolVal(item.for_nominal, self.ctx),
-                "for_reverse": z3.BoolVal(item.for_reverse, self.ctx), "location": self.num(location)}
+        out = {"group": self.ival(item.group), "at": self.num(item.at),
+               "for_nominal": z3.BoolVal(item.for_nominal, self.ctx),
+               "for_reverse": z3.BoolVal(item.for_reverse, self.ctx), "location": self.num(location)}
+        if self.pack.scope.groups >= 2:     # what the onboard knows of the item's group (DESIGN 4.10)
+            n = f"g{item.group}"
+            out.update({"remembered": self.terms[f"{n}.remembered"],
+                        "link_position": self.terms[f"{n}.link_position"],
+                        "link_orientation": self.terms[f"{n}.link_orientation"]})
+        return out
 
     def info_term(self, info_id: str, field: str):
         item = self.pack.info(info_id)
@@ -451,18 +481,15 @@ class Terms:
             o = self.name("actual.orientation")          # in the current LRBG's frame
             if self.pack.scope.groups == 1:
                 return self.along(o, data["at"]) if both else data["location"]
-            T = self.terms
-            x2 = self.along(T["g2.side"], T["g2.distance"])
-            s2, f2 = T["g2.orientation"], self._g2["frame"]
-            cur2 = self.name("lrbg.group") == 2
-            o1 = z3.If(cur2, z3.If(f2 == 1, o, -o), o)   # the orientation in G1's frame
-            if both:
-                in_g1 = self.along(o1, data["at"])        # `at` ahead of the item's group
-                x = in_g1 if item.group == 1 else x2 + in_g1
+            R = self._route
+            f, x0 = R["frame"], R["origin"]            # the current frame in G1's
+            xa = R["marks"][item.group - 1]
+            if both:                                    # `at` ahead of its group, along the orientation
+                x = xa + self.along(f, self.along(o, data["at"]))
             else:
-                loc = data["location"]
-                x = loc if item.group == 1 else x2 + self.along(s2, loc)
-            real = self.define(f"info.{info_id}.real", z3.If(cur2, self.along(f2, x - x2), x))
+                sa = 1 if item.group == 1 else self.terms[f"g{item.group}.orientation"]
+                x = xa + (data["location"] if item.group == 1 else self.along(sa, data["location"]))
+            real = self.define(f"info.{info_id}.real", self.along(f, x - x0))
             self._memo[("real", info_id)] = real
             return real
         key = (("onboard", f"info_{field}"), info_id)
@@ -613,13 +640,12 @@ class Encoding(Terms):
             self.world = world
         self.K = bound
         self.inputs: dict = {}         # input name -> z3 constant (for models and the ladder)
-        two = pack.scope.groups == 2
+        groups = pack.scope.groups
         S = self._static()
         count = self.int("legs.count")
         self.inputs["legs.count"] = count
         self.constraints += [count >= 0, count <= bound]
-        if two:
-            G = self._second_inputs()
+        Gs = [self._group_inputs(k) for k in range(2, groups + 1)]
         st = self._first(S)
         track, phys = [st], []
         for i in range(1, bound + 1):
@@ -630,119 +656,161 @@ class Encoding(Terms):
             active = count >= i
             # an inactive leg is fixed, so that models (and minimal worlds) are canonical
             self.constraints.append(z3.Implies(z3.Not(active), z3.And(z3.Not(cab), fwd, dist == 0, odo == 0)))
+            # G1's reading bound holds while G1 is the LRBG: up to the first hand-over
             st, fields = self._step(S, st, (cab, fwd, dist, odo), active=active,
                                     index=self.ival(i), tag=str(i),
-                                    bounded_if=z3.Or(z3.Not(G["lrbg"]), G["at"] >= i) if two else None)
+                                    bounded_if=z3.And([z3.Implies(G["lrbg"], G["at"] >= i) for G in Gs]) if Gs else None)
             track.append(st)
             phys.append((cab, fwd, dist, odo))
             self.legs.append(fields)
         self._passage_bound(S)
-        if not two:
+        self._route = {"frame": self.ival(1), "origin": self.num(0), "marks": [self.num(0)]}
+        if not Gs:
             self._names(S, st, count)
-            self._group_names(S, None, count)
+            self._group_names(S, [], count)
             return
-        S2, count2 = self._handover(S, G, track, phys, count)
-        self._g2 = G
-        st2 = self._first(S2, tag="c")
-        self._passage_bound(S2)
-        self.legs = []
-        off = z3.If(G["lrbg"], G["at"], 0)
-        default = (z3.BoolVal(False, ctx), z3.BoolVal(True, ctx), self.num(0), self.num(0))
-        for j in range(1, bound + 1):
-            leg = []
-            for f in range(4):
-                chosen = default[f]
-                for i in range(bound, j, -1):      # leg j after G2 is the physical leg at + j
-                    chosen = z3.If(off + j == i, phys[i - 1][f], chosen)
-                leg.append(z3.If(G["lrbg"], chosen, phys[j - 1][f]))
-            st2, fields = self._step(S2, st2, tuple(leg), active=count2 >= j, index=self.ival(j),
-                                     tag=f"c{j}", bounded_if=G["lrbg"])
-            self.legs.append(fields)
-        self._names(S2, st2, count2)
-        self._group_names(S, G, count)
+        self._marks(Gs)
+        cur = {"S": S, "track": track, "off": self.ival(0), "origin": self.num(0),
+               "frame": self.ival(1), "group": self.ival(1), "previous": self.ival(0),
+               "linked": z3.BoolVal(True, ctx), "count": count, "st": st, "legs": self.legs}
+        for k, G in enumerate(Gs, 2):
+            cur = self._handover(k, G, Gs, cur, track, phys, count)
+        self.legs = cur["legs"]
+        self._route.update({"frame": cur["frame"], "origin": cur["origin"], "group": cur["group"],
+                            "previous": cur["previous"]})
+        self._names(cur["S"], cur["st"], cur["count"])
+        self._group_names(S, Gs, count)
 
-    # ---- the second group (DESIGN 4.8) ----------------------------------------------------
-    def _second_inputs(self) -> dict:
-        sc, C, num = self.world, self.constraints, self.num
-        g = {"distance": self.real("g2.distance"), "side": self.int("g2.side"),
-             "orientation": self.int("g2.orientation"), "balises": self.int("g2.balises"),
-             "read": self.int("g2.read"), "linked": self.boolean("g2.linked"),
-             "locacc": self.int("g2.locacc"), "offset": self.real("g2.offset"),
-             "found": self.boolean("g2.found"), "at": self.int("g2.at"),
-             "detect_error": self.real("g2.detect_error")}
-        self.inputs.update({f"g2.{k}": v for k, v in g.items()})
+    # ---- the route's later groups (DESIGN 4.8, 4.10) ------------------------------------------
+    def _group_inputs(self, k: int) -> dict:
+        sc, C, num, n = self.world, self.constraints, self.num, f"g{k}"
+        gs = sc.group(k)
+        g = {"distance": self.real(f"{n}.distance"), "side": self.int(f"{n}.side"),
+             "orientation": self.int(f"{n}.orientation"), "balises": self.int(f"{n}.balises"),
+             "read": self.int(f"{n}.read"), "linked": self.boolean(f"{n}.linked"),
+             "locacc": self.int(f"{n}.locacc"), "offset": self.real(f"{n}.offset"),
+             "found": self.boolean(f"{n}.found"), "at": self.int(f"{n}.at"),
+             "detect_error": self.real(f"{n}.detect_error")}
+        self.inputs.update({f"{n}.{f}": v for f, v in g.items()})
         acc = z3.ToReal(g["locacc"])
-        side = {"nominal": [g["side"] == 1], "reverse": [g["side"] == -1],
-                "any": [z3.Or(g["side"] == 1, g["side"] == -1)]}[sc.g2_side]
+        if k == 2:
+            side = {"nominal": [g["side"] == 1], "reverse": [g["side"] == -1],
+                    "any": [z3.Or(g["side"] == 1, g["side"] == -1)]}[sc.g2_side]
+        else:               # a route runs one way (DESIGN 4.10)
+            side = [g["side"] == self.inputs["g2.side"]]
         orient = {"same": [g["orientation"] == 1], "opposite": [g["orientation"] == -1],
-                  "any": [z3.Or(g["orientation"] == 1, g["orientation"] == -1)]}[sc.g2_orientation]
+                  "any": [z3.Or(g["orientation"] == 1, g["orientation"] == -1)]}[gs.orientation]
         C += side + orient + [
-            g["distance"] >= num(sc.g2_distance[0]), g["distance"] <= num(sc.g2_distance[1]),
-            g["balises"] >= sc.g2_balises[0], g["balises"] <= sc.g2_balises[1],
+            g["distance"] >= num(gs.distance[0]), g["distance"] <= num(gs.distance[1]),
+            g["balises"] >= gs.balises[0], g["balises"] <= gs.balises[1],
             g["read"] >= 1, g["read"] <= g["balises"],
-            g["locacc"] >= int(sc.g2_locacc[0]), g["locacc"] <= int(sc.g2_locacc[1]),
+            g["locacc"] >= int(gs.locacc[0]), g["locacc"] <= int(gs.locacc[1]),
             g["offset"] >= -acc, g["offset"] <= acc]
         self.bounded("world.detection", g["detect_error"] >= -num(sc.detection),
                      g["detect_error"] <= num(sc.detection))
         C += [
             z3.Implies(z3.Not(g["found"]), z3.And(g["at"] == 0, g["detect_error"] == 0)),
             z3.Implies(g["found"], z3.And(g["at"] >= 1, g["at"] <= self.inputs["legs.count"]))]
-        g["lrbg"] = self.boolean(self.prefix + "g2.lrbg")   # defined by _handover
+        if k > 2:           # found in route order, at different legs (DESIGN 4.10)
+            for j in range(2, k):
+                before = self.inputs[f"g{j}.at"]
+                C.append(z3.Implies(z3.And(g["found"], self.inputs[f"g{j}.found"]), before < g["at"]))
+        g["lrbg"] = self.boolean(self.prefix + f"{n}.lrbg")   # defined by _handover
         return g
 
-    def _handover(self, S: dict, G: dict, track: list, phys: list, count) -> tuple:
-        """Where G2 is found, whether it becomes the LRBG, and the inputs of the world as the
-        current LRBG sees it (G2's passage; the legs after it are chosen by the caller)."""
-        sc, C, num = self.pack.scope, self.constraints, self.num
+    def _marks(self, Gs: list) -> None:
+        """Every group's engineered mark in G1's frame: the route runs the way of g2.side."""
+        total = self.num(0)
+        for k, G in enumerate(Gs, 2):
+            total = total + G["distance"]
+            self._route["marks"].append(self.define(f"g{k}.mark", self.along(Gs[0]["side"], total)))
+
+    def _handover(self, k: int, G: dict, Gs: list, cur: dict, track: list, phys: list, count) -> dict:
+        """Where group ``k`` is found, whether it becomes the LRBG as judged from the current
+        LRBG ``cur``, and the world as the LRBG after it sees it (DESIGN 4.8, 4.10)."""
+        C, num, n, K = self.constraints, self.num, f"g{k}", len(phys)
+        S = cur["S"]
         antenna = S["train.antenna"]
-        mark = self.along(G["side"], G["distance"]) + self.along(G["orientation"], G["offset"])
-        known1 = self.known_first
-        wins, m_at, fwd_at = [], self.ival(0), z3.BoolVal(True, self.ctx)
-        for i in range(len(phys), 0, -1):
+        x = self._route["marks"][k - 1]
+        mark = x + self.along(G["orientation"], G["offset"])
+        # the physical detection, on G1's track (G1's frame)
+        fwd_at = z3.BoolVal(True, self.ctx)
+        for i in range(K, 0, -1):
             st = track[i]
             here = z3.And(G["found"], G["at"] == i)
             real_antenna = st["front"] - self.along(st["o"], antenna)
             C.append(z3.Implies(here, real_antenna == mark + self.along(st["motion"], G["detect_error"])))
-            # the leg moves the antenna onto G2 (DESIGN 4.8)
+            # the leg moves the antenna onto the group (DESIGN 4.8)
             C.append(z3.Implies(here, z3.And(phys[i - 1][2] > 0, phys[i - 1][2] > G["detect_error"])))
-            est_antenna = self.along(S["passage.direction"], st["est_p"]) - self.along(st["o"], antenna)
-            u = self.along(G["side"], est_antenna)
-            margin = S["lrbg.locacc"]
-            b_over, b_under = self._bounds_at(st["measured"])
-            lo = u - margin - b_over
-            hi = u + margin + b_under
-            acc = z3.ToReal(G["locacc"])
-            wins.append(z3.And(here, hi >= G["distance"] - acc, lo <= G["distance"] + acc))
-            m_at = z3.If(G["at"] == i, st["motion"], m_at)
             fwd_at = z3.If(G["at"] == i, phys[i - 1][1], fwd_at)
-        linking = z3.And(G["linked"], known1)
-        in_window = self.define("g2.in_window", z3.And(linking, z3.Or(wins)) if wins else z3.BoolVal(False, self.ctx), "bool")
-        # a single-balise G2 without usable linking becomes the LRBG, its directions referred to
-        # the move from G1 towards it, unknown when found running towards G1 (SUBSET-026
-        # 3.4.2.3.3.1, 3.4.2.3.3.2, 3.4.2.3.3.4)
+        # judged from the current LRBG: its estimate at the end of leg g.at
+        e = self.define(f"{n}.from_lrbg", self.along(cur["frame"], x - cur["origin"]))
+        way = z3.If(e > 0, 1, -1)
+        dist = z3.If(e > 0, e, -e)
+        acc = z3.ToReal(G["locacc"])
+        wins, m_at = [], self.ival(0)
+        local = G["at"] - cur["off"]
+        for j in range(K, 0, -1):
+            st = cur["track"][j]
+            here = z3.And(G["found"], local == j)
+            est_antenna = self.along(S["passage.direction"], st["est_p"]) - self.along(st["o"], antenna)
+            u = self.along(way, est_antenna)
+            b_over, b_under = self._bounds_at(st["measured"])
+            lo = u - S["lrbg.locacc"] - b_over
+            hi = u + S["lrbg.locacc"] + b_under
+            wins.append(z3.And(here, hi >= dist - acc, lo <= dist + acc))
+            m_at = z3.If(local == j, st["motion"], m_at)
+        linking = z3.And(G["linked"], self.known_first, S["known"], z3.Or(cur["group"] == 1, cur["linked"]))
+        in_window = self.define(f"{n}.in_window", z3.And(linking, z3.Or(wins)) if wins else z3.BoolVal(False, self.ctx), "bool")
+        # a single-balise group without usable linking becomes the LRBG, its directions referred
+        # to the move from the current LRBG towards it, unknown when found running the other way
+        # (SUBSET-026 3.4.2.3.3.1, 3.4.2.3.3.2, 3.4.2.3.3.4)
         single = G["balises"] == 1
-        accepted = z3.If(linking, z3.And(in_window, m_at == G["side"]), z3.Or(single, G["read"] >= 2))
+        accepted = z3.If(linking, z3.And(in_window, m_at == way), z3.Or(single, G["read"] >= 2))
         C.append(G["lrbg"] == z3.And(G["found"], accepted))
         G["in_window"] = in_window
         r = G["lrbg"]
-        prv = self.define("g2.prv", z3.And(r, z3.Not(linking), single, m_at == G["side"]), "bool")
-        G["prv"] = prv
-        # the current G2 frame: its own orientation, or the way from G1 to it (two groups)
-        f2 = z3.If(prv, G["side"], G["orientation"])
-        G["frame"] = f2
-        d2 = z3.If(f2 == 1, m_at, -m_at)
+        prv = self.define(f"{n}.prv", z3.And(r, z3.Not(linking), single, m_at == way), "bool")
+        # the new LRBG's frame in G1's: its own orientation, or the move towards it (two groups)
+        fk = z3.If(prv, self.along(cur["frame"], way), G["orientation"])
+        d = self.along(fk, self.along(cur["frame"], m_at))
         S2 = {"lrbg.balises": z3.If(r, G["balises"], S["lrbg.balises"]),
               "lrbg.read": z3.If(r, G["read"], S["lrbg.read"]),
               "lrbg.linked": z3.If(r, z3.And(G["linked"], z3.Or(linking, z3.Not(single))), S["lrbg.linked"]),
-              "prv": prv,
+              "prv": z3.If(r, prv, S["prv"]),
+              "prv_group": z3.If(r, cur["group"], S.get("prv_group", self.ival(1))),
               "lrbg.locacc": z3.If(r, z3.ToReal(G["locacc"]), S["lrbg.locacc"]),
               "lrbg.offset": z3.If(r, G["offset"], S["lrbg.offset"]),
               "train.length": S["train.length"], "train.antenna": S["train.antenna"],
-              "passage.direction": z3.If(r, d2, S["passage.direction"]),
+              "passage.direction": z3.If(r, d, S["passage.direction"]),
               "passage.running": z3.If(r, fwd_at, S["passage.running"]),
               "passage.detect_error": z3.If(r, G["detect_error"], S["passage.detect_error"])}
-        count2 = self.define("legs.count@current", count - z3.If(r, G["at"], 0), "int")
-        return S2, count2
+        off = z3.If(r, G["at"], cur["off"])
+        count2 = self.define("legs.count@current" + ("" if k == 2 else str(k)), count - off, "int")
+        tag = "c" if k == 2 else f"c{k}_"
+        st2 = self._first(S2, tag=tag)
+        self._passage_bound(S2)
+        legs = []
+        default = (z3.BoolVal(False, self.ctx), z3.BoolVal(True, self.ctx), num(0), num(0))
+        later = Gs[k - 1:]
+        track2 = [st2]
+        for j in range(1, K + 1):
+            leg = []
+            for f in range(4):
+                chosen = default[f]
+                for i in range(K, j - 1, -1):      # leg j after the group is the physical leg off + j
+                    chosen = z3.If(off + j == i, phys[i - 1][f], chosen)
+                leg.append(chosen)
+            # this group's reading bound holds from its detection while it is the LRBG
+            own = z3.And([r] + [z3.Implies(H["lrbg"], H["at"] >= off + j) for H in later])
+            st2, fields = self._step(S2, st2, tuple(leg), active=count2 >= j, index=self.ival(j),
+                                     tag=f"{tag}{j}", bounded_if=own)
+            track2.append(st2)
+            legs.append(fields)
+        return {"S": S2, "track": track2, "off": off,
+                "origin": z3.If(r, x, cur["origin"]), "frame": z3.If(r, fk, cur["frame"]),
+                "group": z3.If(r, k, cur["group"]), "previous": z3.If(r, cur["group"], cur["previous"]),
+                "linked": z3.If(r, G["linked"], cur["linked"]), "count": count2, "st": st2, "legs": legs}
 
 def _is_const(node: ast.Node) -> bool:
     if isinstance(node, ast.Num):

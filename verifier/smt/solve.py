@@ -327,15 +327,20 @@ def lower_bounds(constraints, terms: dict) -> dict:
     return lows
 
 
-def _inputs_step3(K: int, two: bool) -> list:
+def _later(I: dict) -> list:
+    """The prefixes of the route's later groups among the inputs: g2, g3, ... (DESIGN 4.10)."""
+    return [f"g{k}" for k in range(2, 9) if f"g{k}.distance" in I]
+
+
+def _inputs_step3(K: int, later) -> list:
     """Step (3) of the ladder, in its documented order: ``(kind, input, least)`` where kind is
     ``int`` (least whole value from ``least`` up) or ``grid`` (least value on the coarsest grid
     that has one)."""
     steps = [("int", "lrbg.read", 1), ("int", "lrbg.locacc", 0), ("grid", "train.length", 0),
              ("grid", "train.antenna", 0)]
-    if two:
-        steps += [("int", "g2.read", 1), ("int", "g2.locacc", 0), ("grid", "g2.distance", 0),
-                  ("int", "g2.at", 0)]
+    for n in later:
+        steps += [("int", f"{n}.read", 1), ("int", f"{n}.locacc", 0), ("grid", f"{n}.distance", 0),
+                  ("int", f"{n}.at", 0)]
     return steps + [("grid", f"legs.{i}.distance", 0) for i in range(1, K + 1)]
 
 
@@ -380,18 +385,18 @@ def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None,
         L.least_int(count, 0)
         L.least_int(cab_changes, 0)
         L.least_int(I["lrbg.balises"], math.ceil(low("lrbg.balises", 1)))
-        two = "g2.distance" in I            # a second group (DESIGN 4.8): its inputs likewise
-        if two:
-            L.least_int(I["g2.balises"], math.ceil(low("g2.balises", 1)))
+        later = _later(I)                   # the route's later groups (DESIGN 4.8, 4.10): likewise
+        for n in later:
+            L.least_int(I[f"{n}.balises"], math.ceil(low(f"{n}.balises", 1)))
         # (2) each error to 0 where possible
         errors = [I["lrbg.offset"], I["passage.detect_error"]] + [
             I[f"legs.{i}.odometer"] - I[f"legs.{i}.distance"] for i in range(1, K + 1)]
-        if two:
-            errors += [I["g2.offset"], I["g2.detect_error"]]
+        for n in later:
+            errors += [I[f"{n}.offset"], I[f"{n}.detect_error"]]
         zeroed = L.try_fix_all([e == 0 for e in errors])
         # (3) every other input to its least feasible value, in this documented order; first
         # as many of them as can be at their lower bounds together, in one question
-        step3 = _inputs_step3(K, two)
+        step3 = _inputs_step3(K, later)
         L.fix_prefix(_at_bounds(I, step3, low, L.num))
         for kind, name, least in step3:
             if kind == "int":
@@ -405,9 +410,9 @@ def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None,
             more(L)
         # (4) Booleans false first, enums in declaration order
         first = [z3.Not(I["lrbg.linked"])]
-        if two:
-            first += [z3.Not(I["g2.linked"]), z3.Not(I["g2.found"]), I["g2.side"] == 1,
-                      I["g2.orientation"] == 1]
+        for n in later:
+            first += [z3.Not(I[f"{n}.linked"]), z3.Not(I[f"{n}.found"])] + (
+                [I["g2.side"] == 1] if n == "g2" else []) + [I[f"{n}.orientation"] == 1]
         first += [z3.Not(I[f"legs.{i}.cab_change"]) for i in range(1, K + 1)]
         first += [I["passage.direction"] == 1,          # nominal before reverse
                   I["passage.running"]]                  # forward before backward
@@ -462,11 +467,11 @@ def read_world(model, enc: Encoding) -> dict:
         "detect_error": to_fraction(ev(I["passage.detect_error"])),
         "legs": [],
     }
-    if "g2.distance" in I:
-        g = {k: ev(I[f"g2.{k}"]) for k in ("distance", "side", "orientation", "balises", "read",
-                                           "linked", "locacc", "offset", "found", "at", "detect_error")}
+    for n in _later(I):
+        g = {k: ev(I[f"{n}.{k}"]) for k in ("distance", "side", "orientation", "balises", "read",
+                                            "linked", "locacc", "offset", "found", "at", "detect_error")}
         word = {1: "nominal", -1: "reverse"}
-        world["g2"] = {"distance": to_fraction(g["distance"]), "side": word[g["side"].as_long()],
+        world[n] = {"distance": to_fraction(g["distance"]), "side": word[g["side"].as_long()],
                        "orientation": word[g["orientation"].as_long()], "balises": g["balises"].as_long(),
                        "read": g["read"].as_long(), "linked": z3.is_true(g["linked"]),
                        "locacc": to_fraction(g["locacc"]), "offset": to_fraction(g["offset"]),

@@ -15,7 +15,7 @@ from pathlib import Path
 import attrs
 
 from verifier.errors import PackError, TaskLost
-from verifier.lang.vocab import INFO_FIELDS, LEG, names_for
+from verifier.lang.vocab import INFO_FIELDS, LEG, info_fields_for, names_for
 from verifier.run.executor import ExecutorSpec, open_executor
 from verifier.run.loader import discover, load_pack, pack_from_source, pack_source
 from verifier.smt.concrete import Evaluator
@@ -78,7 +78,7 @@ def simulate(pack, world: World) -> SimSide:
     st = State(pack, world)
     values = {name: plain(st.get(name)) for name in names_for(pack.scope.groups)}
     for item in pack.infos:
-        for field in INFO_FIELDS:
+        for field in info_fields_for(pack.scope.groups):
             values[f"info.{item.id}.{field}"] = plain(st.info_value(item.id, field))
     legs = tuple({f: plain(leg[f]) for f in LEG} for leg in st.legs)
     lets = {}

@@ -520,7 +520,7 @@ def snapshot_values(snap: Snapshot, scope: Scope) -> dict:
         # groups, its directions referred to the previous LRBG (SUBSET-026 3.4.2.3.3.1, 7.4.3.2)
         "lrbg.two_groups": w.balises == 1 and not w.linked,
         "report.two_groups": w.balises == 1 and not w.linked,
-        "report.prv_lrbg": F(1 if w.prv else 0),
+        "report.prv_lrbg": F(w.prv_group if w.prv else 0),
         "train.length": w.length, "train.antenna": w.antenna,
         "passage.direction": w.direction, "passage.running": w.running,
         "passage.detect_error": w.detect_error, "passage.seen": seen,
