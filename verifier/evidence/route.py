@@ -116,7 +116,7 @@ def how_words(a: Arrival) -> str:
         "outside": f"outside the window linking announced from G{a.before}",
         "other way": f"passed against the way linking announced (from G{a.before} towards it)",
         "one balise": "one balise of a multi-balise group read, and no usable linking",
-        "order": "found out of route order, outside the scope",
+        "order": "found at no leg after the detection of the LRBG it follows, outside the scope",
     }[a.how]
 
 
