@@ -27,6 +27,7 @@ import attrs
 from verifier.check.model import Rule
 from verifier.errors import visible
 from verifier.evidence import cexfile
+from verifier.evidence.route import arrivals, is_route, status
 from verifier.evidence.story import front_at_detection, interval_words, whole_train_words
 from verifier.lang.ast import LENGTH
 from verifier.lang.numbers import counted
@@ -128,24 +129,28 @@ def render(doc: dict, rule: Rule, st: State) -> str:
     # the stages: (title, detail lines, real front, orientation sign, est front or None)
     f0, e0 = front_at_detection(st)
     o0 = _sign(w.direction) * (1 if w.running.word == "forward" else -1)
-    relocated = w.g2 is not None and st.handover.accepted
-    if relocated:      # the passage over G1, seen from G2 (DESIGN 4.8)
-        x2, s2 = _sign(w.g2.side) * w.g2.distance, st.handover.frame   # G2's frame (DESIGN 4.8)
-        first = start(attrs.evolve(w, legs=(), g2=None) if isinstance(w, World) else w)
+    h = st.handover
+    relocated = w.g2 is not None and h.accepted
+    if relocated:      # the passage over G1, seen from the current LRBG (DESIGN 4.8, 4.10)
+        x2, s2 = h.origin, h.frame          # the current LRBG's mark and frame in G1's frame
+        first = start(attrs.evolve(w, legs=(), g2=None, later=()) if isinstance(w, World) else w)
         f0, e0 = s2 * (first.front - x2), s2 * (_sign(w.direction) * first.est_front_passage - x2)
         o0 = s2 * o0
         known = passage_known(w)
     title = "At G1's detection" if w.g2 is not None else "At detection"
-    g1_frame, g2_frame = (" (G1's frame)", " (G2's frame)") if relocated else ("", "")
+    g1_frame, g2_frame = (" (G1's frame)", f" (G{h.group}'s frame)") if relocated else ("", "")
     stages = [(title,
                [f"passed {'G1 ' if relocated else ''}{w.direction.word}{g1_frame}, "
                 f"{'front' if w.running.word == 'forward' else 'rear'} first",
                 f"faces {'nominal' if o0 > 0 else 'reverse'}{g2_frame}"],
                f0, o0, e0 if known else None)]
-    at = w.g2.at if relocated else 0
-    for i, (leg, d, _group) in enumerate(st.journey, 1):
-        name = f"After leg {i}" + (": G2 is the LRBG" if i == at else "")
-        stages.append(_leg_stage(name, leg, d, (w.g2.read >= 2 or w.g2.linked) if relocated and i > at else known))
+    # each LRBG after G1 takes over at the end of a leg; a leg's estimate is drawn when the
+    # direction over the LRBG of its time is known (its frame is then the LRBG's, DESIGN 4.3)
+    takeover = {s.start: s.group for s in h.stages[1:]}
+    seen = {s.group: passage_known(s.world) for s in h.stages[1:]}
+    for i, (leg, d, group) in enumerate(st.journey, 1):
+        name = f"After leg {i}" + (f": G{takeover[i]} is the LRBG" if i in takeover else "")
+        stages.append(_leg_stage(name, leg, d, seen.get(group, known)))
     verdict = f"{doc['pack']['name']} / {rule.id}: violated (up to {counted(doc['bound'], 'leg')})"
     return _draw(doc, rule, st, stages, verdict, f"Counterexample of rule {rule.id}")
 
@@ -185,11 +190,15 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
     """The diagram over the stages of a train; ``st`` is the last state (its report)."""
     g = st.get
     w = getattr(st, "current", st.world)      # the current LRBG's group (G2 after relocation)
-    other = st.other_group() if hasattr(st, "other_group") else None
+    others = st.other_groups() if hasattr(st, "other_groups") else []
+    # a route (DESIGN 4.10) captions every other group with its place in the onboard's list
+    route = is_route(st)
+    arr = {a.group: a for a in arrivals(st)} if route else {}
+    captions = {name: status(st, int(name[1:]), arr) for name, *_ in others} if route else {}
     uid = "d-" + _slug(f"{doc['pack']['name']}-{rule.id}" + ("-induction" if "depth" in doc else ""))
     placed = bool(g("rbc.placed"))
 
-    positions = [F(0), w.offset, -w.locacc, w.locacc] + ([other[1]] if other else [])
+    positions = [F(0), w.offset, -w.locacc, w.locacc] + [o[1] for o in others]
     items = []          # trackside information (DESIGN 4.9): (id, real, where placed or None)
     for item in getattr(st.pack, "infos", ()):
         try:
@@ -224,8 +233,8 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
 
     # ---- metre scale
     y_axis = y + 22
-    add(_t(16, y_axis + 4, "metres, LRBG frame" if other is None else
-           f"metres, {'G2' if other[0] == 'G1' else 'G1'}'s frame", size=12, weight="bold"))
+    add(_t(16, y_axis + 4, "metres, LRBG frame" if not others else
+           f"metres, G{st.handover.group}'s frame", size=12, weight="bold"))
     add(f'<line x1="{P(X0)}" y1="{P(y_axis)}" x2="{P(X1)}" y2="{P(y_axis)}" stroke="{INK}" stroke-width="1"/>')
     for t in axis.ticks():
         add(f'<line x1="{P(X(t))}" y1="{P(y_axis - 4)}" x2="{P(X(t))}" y2="{P(y_axis + 4)}" stroke="{INK}" stroke-width="1"/>')
@@ -234,7 +243,7 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
 
     # ---- the group
     y_grp = y + 26
-    lrbg_name = "" if other is None else ("G2, " if other[0] == "G1" else "G1, ")
+    lrbg_name = "" if not others else f"G{st.handover.group}, "
     add(_t(16, y_grp - 4, f"The group ({lrbg_name}LRBG)", size=12, weight="bold"))
     add(_t(16, y_grp + 11, f"{w.balises} balise{'s' if w.balises != 1 else ''}, {w.read} read, "
                            f"{'linked' if w.linked else 'not linked'}", size=11))
@@ -259,20 +268,23 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
         add(_t(x_org - 6, ya + 4, "nominal", size=10, anchor="end"))
     labels = []
     yb = y_grp + 14
-    if other is not None:
-        # the other group: its balises from its mark, numbered the way its own N_PIG increases
-        name, xo, so, nb = other
+    for name, xo, so, nb in others:
+        # another group: its balises from its mark, numbered the way its own N_PIG increases;
+        # on a route, a group out of the onboard's list has hollow, dashed balises
         xg = X(xo)
+        listed = captions.get(name, "in the list") == "in the list"
+        style = f'fill="{LIGHT}" stroke="{INK}" stroke-width="1.4"' if listed else \
+            f'fill="#ffffff" stroke="{INK}" stroke-width="1.4" stroke-dasharray="3 2"'
         for n in range(nb):
             bx = xg + so * n * pitch - 6
-            add(f'<rect x="{P(bx)}" y="{P(y_grp - 6)}" width="12" height="12" fill="{LIGHT}" '
-                f'stroke="{INK}" stroke-width="1.4"/>')
+            add(f'<rect x="{P(bx)}" y="{P(y_grp - 6)}" width="12" height="12" {style}/>')
             add(_t(bx + 6, y_grp + 4, str(n), size=9, anchor="middle"))
         ax2 = xg + so * max(40, (nb - 1) * pitch + 16)
         add(f'<line x1="{P(xg)}" y1="{P(ya)}" x2="{P(ax2 - so * 8)}" y2="{P(ya)}" stroke="{INK}" '
             f'stroke-width="1.6" stroke-dasharray="4 2"/>')
         add(f'<path d="M{P(ax2)} {P(ya)} L{P(ax2 - so * 10)} {P(ya - 5)} L{P(ax2 - so * 10)} {P(ya + 5)} Z" fill="{INK}"/>')
-        labels.append((xg, f"{name} at {m(xo)}, nominal {'to the right' if so > 0 else 'to the left'}"))
+        labels.append((xg, f"{name} at {m(xo)}, nominal {'to the right' if so > 0 else 'to the left'}"
+                           + (f"; {captions[name]}" if name in captions else "")))
     for iid, real, where in items:
         # an information item: a flag where it really is, a hollow one where the onboard puts it
         xr = X(real)
@@ -410,7 +422,8 @@ def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, note
                        link=(y_rep if all(v in positions for v in (lv, rv)) else None))
 
     # ---- legend
-    y = _legend(out, uid, y + 16, other=other is not None, items=bool(items))
+    y = _legend(out, uid, y + 16, other=bool(others), items=bool(items),
+                unlisted=any(c != "in the list" for c in captions.values()))
     # the origin, dotted, through the group and train rows
     out.insert(0, f'<line x1="{P(x_org)}" y1="{P(origin_top)}" x2="{P(x_org)}" y2="{P(y_last_stage)}" '
                   f'stroke="{GREY}" stroke-width="1" stroke-dasharray="2 3"/>')
@@ -495,9 +508,10 @@ def _flag(x, y_grp, fill: str) -> str:
             f'fill="{fill}" stroke="{INK}" stroke-width="1.2"/>')
 
 
-def _legend(out, uid, y, other: bool = False, items: bool = False):
-    """The legend; the shapes of a second group and of information items only where they are
-    drawn (a one-group drawing keeps its legend, and its files their bytes)."""
+def _legend(out, uid, y, other: bool = False, items: bool = False, unlisted: bool = False):
+    """The legend; the shapes of a second group, of a group out of the onboard's list and of
+    information items only where they are drawn (a one-group drawing keeps its legend, and its
+    files their bytes)."""
     out.append(_t(16, y + 12, "Legend", size=12, weight="bold"))
     shapes = [
         ("bar", "real train (rear to front); black wedge = active front end"),
@@ -511,7 +525,10 @@ def _legend(out, uid, y, other: bool = False, items: bool = False):
         ("origin", "origin: engineered location of balise N_PIG 0"),
     ]
     if other:
-        shapes += [("other", "the other group; dashed: its nominal direction")]
+        shapes += [("other", "the other group; dashed: its nominal direction" if not unlisted else
+                    "another group in the onboard's list; dashed: its nominal direction")]
+    if unlisted:
+        shapes += [("unlisted", "a group not in the onboard's list (left it, rejected, unseen)")]
     if items:
         shapes += [("flag", "information item where it really is"),
                    ("hollow", "information item where the onboard places it")]
@@ -544,6 +561,9 @@ def _legend(out, uid, y, other: bool = False, items: bool = False):
             out.append(f'<rect x="{cx + 1}" y="{cy - 6}" width="12" height="12" fill="{LIGHT}" stroke="{INK}" stroke-width="1.4"/>')
             out.append(f'<line x1="{cx + 16}" y1="{cy}" x2="{cx + 27}" y2="{cy}" stroke="{INK}" stroke-width="1.6" stroke-dasharray="4 2"/>')
             out.append(f'<path d="M{cx + 34} {cy} L{cx + 26} {cy - 5} L{cx + 26} {cy + 5} Z" fill="{INK}"/>')
+        elif shape == "unlisted":
+            out.append(f'<rect x="{cx + 1}" y="{cy - 6}" width="12" height="12" fill="#ffffff" stroke="{INK}" '
+                       f'stroke-width="1.4" stroke-dasharray="3 2"/>')
         elif shape in ("flag", "hollow"):
             out.append(_flag(cx + 14, cy + 2, INK if shape == "flag" else "#ffffff"))
         else:

@@ -22,6 +22,7 @@ import attrs
 from verifier.check.model import Pack, Rule
 from verifier.errors import Diagnostic, PackError, VerifierError, visible
 from verifier.evidence import cexfile
+from verifier.evidence.route import ORDINALS, arrivals, group_list, how_words, is_route, window
 from verifier.lang import vocab
 from verifier.lang.ast import LENGTH
 from verifier.lang.numbers import counted
@@ -419,13 +420,15 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
         "along than the onboard believed).")
     front0, est0 = front_at_detection(st)
     if two and st.handover.accepted:       # the current LRBG's passage is G2's: G1's from the start
-        first = start(attrs.evolve(w, legs=(), g2=None))
+        first = start(attrs.evolve(w, legs=(), g2=None, later=()))
         front0 = first.front
         est0 = (1 if seen is Direction.UNKNOWN else (1 if w.direction.word == "nominal" else -1)) * first.est_front_passage
     add(f"  At the detection instant: real front {m(front0)}, estimated front "
         + (f"{m(est0)}." if seen.word != "unknown" else f"{m(est0)} in the passage frame."))
-    if two:
-        _second_group_words(add, st)
+    route = is_route(st)
+    arr = {a.group: a for a in arrivals(st)} if two else {}
+    for k in arr:
+        _later_group_words(add, st, arr[k], route)
     add("")
     if not w.legs:
         add("No legs: the story ends at the passage.")
@@ -441,26 +444,10 @@ def story_text(doc: dict, pack: Pack, rule: Rule, st: State, *, shown: str, chec
                      f"measured {m(leg.odometer)} ({reading}).")
         add(f"Leg {i}: " + " ".join(parts))
         add(f"  After it: real front {m(d['actual_front'])}, estimated front {m(d['est_front'])}"
-            + (" (G1's frame)." if two and st.handover.accepted and group == 1 else "."))
-        if two and w.g2.found and i == w.g2.at:
-            g2 = w.g2
-            if st.handover.accepted and st.get("report.two_groups"):
-                add("  The antenna reaches G2, a single balise without linking, and G2 becomes the LRBG "
-                    "in a position report based on two balise groups: from here on every position is "
-                    "counted from G2's mark, "
-                    + ("positive in the direction from G1 towards G2 (the previous LRBG G1 is the direction "
-                       "reference)" if st.get("report.prv_lrbg") == 1 else
-                       "with every direction unknown (the train runs towards G1, against the way it passed G1)")
-                    + f", and the confidence interval restarts from G2's Q_LOCACC {m(g2.locacc)}.")
-            elif st.handover.accepted:
-                add(f"  The antenna reaches G2 and G2 becomes the LRBG: from here on every position is "
-                    f"counted from G2's mark, positive in G2's nominal direction ({'the same as' if g2.orientation.word == 'nominal' else 'opposite to'} G1's), "
-                    f"and the confidence interval restarts from G2's Q_LOCACC {m(g2.locacc)}.")
-            else:
-                add("  The antenna reaches G2, which does not become the LRBG (" + (
-                    "found outside its expectation window" if g2.linked and not st.get("g2.in_window")
-                    else "passed against the direction linking announced" if g2.linked and st.get("g2.in_window")
-                    else "not linked and only one balise read") + "): the report stays relative to G1.")
+            + (f" (G{group}'s frame)." if two and st.handover.accepted and group != st.handover.group else "."))
+        for a in arr.values():
+            if a.found and a.at == i:
+                (_arrival_words if route else _second_group_arrival)(add, st, a)
     add("")
     add("At the end")
     add(f"  Real:      front {m(g('actual.front'))}, rear {m(g('actual.rear'))}, faces "
@@ -547,25 +534,88 @@ def whole_train_words(real_rear, real_front, safe_rear, max_front) -> str:
             f"max safe front); {ends} {verb} outside it.")
 
 
-def _second_group_words(add, st: State) -> None:
-    """The second group of DESIGN 4.8 in words."""
-    g = st.world.g2
-    add("The second group G2")
+def _later_group_words(add, st: State, a, route: bool) -> None:
+    """A later group of DESIGN 4.8 and 4.10 in words: where it lies, what linking says of it,
+    and whether it was found; a route also tells the window from the LRBG it was judged from."""
+    k = a.group
+    g = st.world.route[k - 2]
+    add(f"The {ORDINALS[k - 1]} group G{k}")
     add(f"  {g.balises} balise{'s' if g.balises != 1 else ''}, {g.read} read when found; its mark lies "
-        f"{m(g.distance)} from G1's on G1's {g.side.word} side, and it faces "
+        f"{m(g.distance)} from G{k - 1}'s on G1's {g.side.word} side, and it faces "
         f"{'the same way as G1' if g.orientation.word == 'nominal' else 'the other way'}; Q_LOCACC "
         f"{m(g.locacc)}; hidden: real mark {signed(g.offset)} from its engineered location, detection "
         f"error {signed(g.detect_error)}.")
-    if g.linked:
+    if g.linked and route:
+        lo, hi = window(st, a)
+        add(f"  Linking announces it: D_LINK {m(g.distance)} from G{k - 1}; "
+            + (f"from G{a.before}, the LRBG when it comes, the onboard expects it {m(lo)} to {m(hi)} "
+               "ahead (SUBSET-026 3.4.4.4.3)." if a.linking else
+               f"the onboard cannot use it (no known direction over G1 or over G{a.before}, or no "
+               f"linking of G{a.before})."))
+    elif g.linked:
         add(f"  Linking announces it: D_LINK {m(g.distance)}, expectation window {m(g.distance - g.locacc)} "
             f"to {m(g.distance + g.locacc)} (SUBSET-026 3.4.4.4.3)"
-            + ("." if st.get("g2.link_side").word != "unknown" else
+            + ("." if st.get(f"g{k}.link_side").word != "unknown" else
                ", but with no known direction over G1 the onboard cannot use it."))
     else:
         add("  Linking does not announce it.")
-    add(f"  It is {'found at the end of leg ' + str(g.at) if g.found else 'not found'}"
-        + (f"{', inside' if st.get('g2.in_window') else ', outside'} its window" if g.found and g.linked else "")
-        + f"; {'it becomes the LRBG' if st.get('g2.lrbg') else 'it does not become the LRBG'}.")
+    window_words = (f"{', inside' if st.get(f'g{k}.in_window') else ', outside'} its window"
+                    if g.found and g.linked else "")
+    if route and not g.found:
+        add("  It is not found" + (f": the train passed it unseen in leg {a.unseen_at}."
+                                   if a.unseen_at else "."))
+        return
+    add(f"  It is {'found at the end of leg ' + str(g.at) if g.found else 'not found'}{window_words}"
+        f"; {'it becomes the LRBG' if st.get(f'g{k}.lrbg') else 'it does not become the LRBG'}.")
+
+
+def _second_group_arrival(add, st: State, a) -> None:
+    """G2 found, in a two-group world (the wording from before routes, DESIGN 4.8)."""
+    g2 = st.world.g2
+    if st.handover.accepted and st.get("report.two_groups"):
+        add("  The antenna reaches G2, a single balise without linking, and G2 becomes the LRBG "
+            "in a position report based on two balise groups: from here on every position is "
+            "counted from G2's mark, "
+            + ("positive in the direction from G1 towards G2 (the previous LRBG G1 is the direction "
+               "reference)" if st.get("report.prv_lrbg") == 1 else
+               "with every direction unknown (the train runs towards G1, against the way it passed G1)")
+            + f", and the confidence interval restarts from G2's Q_LOCACC {m(g2.locacc)}.")
+    elif st.handover.accepted:
+        add(f"  The antenna reaches G2 and G2 becomes the LRBG: from here on every position is "
+            f"counted from G2's mark, positive in G2's nominal direction ({'the same as' if g2.orientation.word == 'nominal' else 'opposite to'} G1's), "
+            f"and the confidence interval restarts from G2's Q_LOCACC {m(g2.locacc)}.")
+    else:
+        add("  The antenna reaches G2, which does not become the LRBG (" + (
+            "found outside its expectation window" if g2.linked and not st.get("g2.in_window")
+            else "passed against the direction linking announced" if g2.linked and st.get("g2.in_window")
+            else "not linked and only one balise read") + "): the report stays relative to G1.")
+
+
+def _arrival_words(add, st: State, a) -> None:
+    """A later group found on a route (DESIGN 4.10): it takes over from the LRBG of the time, and
+    how, with the onboard's list after it; or it is rejected, and why."""
+    k, j = a.group, a.before
+    g = st.world.route[k - 2]
+    if not a.accepted:
+        add(f"  The antenna reaches G{k}, which does not become the LRBG ({how_words(a)}): the report "
+            f"stays relative to G{j}.")
+        return
+    if a.how in ("move", "unknown"):
+        frame = (f"positive in the direction from G{j} towards G{k} (the previous LRBG G{j} is the "
+                 "direction reference)" if a.how == "move" else
+                 f"with every direction unknown (the train runs towards G{j}, against the way from "
+                 f"G{j} to G{k})")
+        add(f"  The antenna reaches G{k}, a single balise without usable linking, and G{k} takes over "
+            f"from G{j} as the LRBG in a position report based on two balise groups: from here on "
+            f"every position is counted from G{k}'s mark, {frame}, and the confidence interval "
+            f"restarts from G{k}'s Q_LOCACC {m(g.locacc)}.")
+    else:
+        add(f"  The antenna reaches G{k} and G{k} takes over from G{j} as the LRBG ({how_words(a)}): "
+            f"from here on every position is counted from G{k}'s mark, positive in G{k}'s nominal "
+            f"direction ({'the same as' if g.orientation.word == 'nominal' else 'opposite to'} G1's), "
+            f"and the confidence interval restarts from G{k}'s Q_LOCACC {m(g.locacc)}.")
+    add(f"  The onboard's list of LRBGs is now {group_list(a.history)}"
+        + (f"; {group_list(a.left)} left it." if a.left else "."))
 
 
 def front_at_detection(st: State) -> tuple:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from verifier.check.model import Pack
+from verifier.evidence.route import arrivals, group_list, how_words, is_route
 from verifier.evidence.story import unknown_code_words, unplaced_words
 from verifier.lang.numbers import counted
 from verifier.lang.vocab import Direction
@@ -39,7 +40,7 @@ def simulate_text(pack: Pack, world: World, legs: int | None = None) -> tuple[st
     else:
         out += _second_group_lines(st)
     if st.handover.accepted:
-        out.append("positions below: G2's frame (from its mark, positive in its nominal direction)")
+        out.append(f"positions below: G{st.handover.group}'s frame (from its mark, positive in its nominal direction)")
     out.append(f"real:      front {_m(g('actual.front'))}, rear {_m(g('actual.rear'))}, orientation "
                f"{g('actual.orientation').word}, last motion {g('actual.motion').word}")
     out.append(f"estimate:  front {_m(g('est.front'))}, orientation {g('est.orientation').word}, "
@@ -83,22 +84,50 @@ def _leg_line(i: int, leg, d: dict, frame: str) -> str:
 
 
 def _second_group_lines(st: State) -> list[str]:
-    """G2 (DESIGN 4.8), then every leg of the journey in the frame of the group that was the
-    LRBG during it, and the hand-over where it happens."""
-    world, g = st.world, st.world.g2
-    found = f"found at the end of leg {g.at}" if g.found else "not found"
-    if g.found and g.linked and known(world):
-        found += ", inside its window" if st.get("g2.in_window") else ", outside its window"
-    used = ("it becomes the LRBG" if st.handover.accepted else
-            "not used: the report stays relative to G1" if g.found else "")
-    out = [f"group G2: mark {_m(g.distance)} from G1's on G1's {g.side.word} side, faces "
-           f"{'the same way as G1' if g.orientation is Direction.NOMINAL else 'the other way'}, "
-           f"{counted(g.balises, 'balise')}, {g.read} read, {'linked' if g.linked else 'not linked'}, "
-           f"location accuracy {_m(g.locacc)}, real reference mark {_m(g.offset)} from its "
-           f"engineered place, detection error {_m(g.detect_error)}; {found}"
-           + (f"; {used}" if used else "")]
+    """The later groups (DESIGN 4.8, 4.10), then every leg of the journey in the frame of the
+    group that was the LRBG during it, and each hand-over where it happens."""
+    route = is_route(st)
+    arr = {a.group: a for a in arrivals(st)}
+    out = [_group_line(st, k, arr[k], route) for k in arr]
     for i, (leg, d, group) in enumerate(st.journey_raw(), 1):
         out.append(_leg_line(i, leg, d, f" (G{group}'s frame)"))
-        if st.handover.accepted and i == g.at:
-            out.append(f"  G2 becomes the LRBG at the end of leg {i}; the legs after it are counted from G2")
+        for a in arr.values():
+            if a.found and a.at == i:
+                out += _arrival_lines(a, route)
     return out
+
+
+def _group_line(st: State, k: int, a, route: bool) -> str:
+    """One later group: where it lies (from the group before it), what it is, what came of it."""
+    world, g = st.world, st.world.route[k - 2]
+    found = f"found at the end of leg {g.at}" if g.found else "not found"
+    if g.found and g.linked and (a.linking if route else known(world)):
+        found += ", inside its window" if st.get(f"g{k}.in_window") else ", outside its window"
+    if route:
+        used = (f"it becomes the LRBG ({how_words(a)})" if a.accepted else
+                f"rejected: {how_words(a)}" if g.found else
+                f"the train passed it unseen in leg {a.unseen_at}" if a.unseen_at else "")
+    else:
+        used = ("it becomes the LRBG" if st.handover.accepted else
+                "not used: the report stays relative to G1" if g.found else "")
+    return (f"group G{k}: mark {_m(g.distance)} from G{k - 1}'s on G1's {g.side.word} side, faces "
+            f"{'the same way as G1' if g.orientation is Direction.NOMINAL else 'the other way'}, "
+            f"{counted(g.balises, 'balise')}, {g.read} read, {'linked' if g.linked else 'not linked'}, "
+            f"location accuracy {_m(g.locacc)}, real reference mark {_m(g.offset)} from its "
+            f"engineered place, detection error {_m(g.detect_error)}; {found}"
+            + (f"; {used}" if used else ""))
+
+
+def _arrival_lines(a, route: bool) -> list[str]:
+    """What happens where a later group is found: a hand-over (with the list after it on a
+    route) or, on a route, a rejection (a two-group world keeps its pre-route wording)."""
+    k, i = a.group, a.at
+    if not route:
+        return ([f"  G{k} becomes the LRBG at the end of leg {i}; the legs after it are counted from G{k}"]
+                if a.accepted else [])
+    if not a.accepted:
+        return [f"  G{k} is found at the end of leg {i} and rejected ({how_words(a)}); the LRBG stays G{a.before}"]
+    left = f"; {group_list(a.left)} left it" if a.left else ""
+    return [f"  G{k} takes over from G{a.before} as the LRBG at the end of leg {i} ({how_words(a)}); "
+            f"the legs after it are counted from G{k}",
+            f"  the onboard's list of LRBGs: {group_list(a.history)}{left}"]
