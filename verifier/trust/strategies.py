@@ -23,8 +23,17 @@ places where implementations differ, so the strategies lean on the corners:
   over-reading bound, lands on a rounding tie ``(n + 1/2) * step``, on ``32766``, ``32766.5``
   or ``32767`` steps of a Q_SCALE step (SUBSET-026 7.5.1.13, 7.5.1.129), or on exactly 0.
 
+With two groups (DESIGN 4.8) G2 is drawn after the rest, most often found at the end of a
+redrawn leg. A route (DESIGN 4.10, three groups or more) is drawn differently: the later groups
+first, then a plan of which to find at which leg (in route order, at increasing legs), then the
+legs one by one, each within the reading error bound of the LRBG current when it starts (the
+bound restarts at every hand-over); the leg onto a planned group is solved from where the
+antenna is, so the detection holds exactly, and the others move freely, stop within a leg of
+the next group, or pass it unseen (to come back onto it running the other way).
+
 :func:`corners` names the corners a given world hits (computed from the world and the simulator,
-not from how it was drawn), and :class:`CornerTally` counts them over a run.
+not from how it was drawn), and :class:`CornerTally` counts them over a run; a route's corners
+are :data:`ROUTE_CORNERS`.
 """
 
 from __future__ import annotations
