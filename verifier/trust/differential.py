@@ -55,13 +55,15 @@ def flat(world: World) -> dict:
         "detect_error": world.detect_error,
         "legs": [{"cab_change": leg.cab_change, "running": leg.running.word,
                   "distance": leg.distance, "odometer": leg.odometer} for leg in world.legs],
-        **({} if world.g2 is None else {"g2": {
-            "distance": world.g2.distance, "side": world.g2.side.word,
-            "orientation": world.g2.orientation.word, "balises": world.g2.balises,
-            "read": world.g2.read, "linked": world.g2.linked, "locacc": world.g2.locacc,
-            "offset": world.g2.offset, "found": world.g2.found, "at": world.g2.at,
-            "detect_error": world.g2.detect_error}}),
+        # G2 .. GN of a route under "g2" .. "gN" (DESIGN 4.10), as scenario files write them
+        **{f"g{k}": _flat_group(g) for k, g in enumerate(world.route, 2)},
     }
+
+
+def _flat_group(g) -> dict:
+    return {"distance": g.distance, "side": g.side.word, "orientation": g.orientation.word,
+            "balises": g.balises, "read": g.read, "linked": g.linked, "locacc": g.locacc,
+            "offset": g.offset, "found": g.found, "at": g.at, "detect_error": g.detect_error}
 
 
 @attrs.frozen

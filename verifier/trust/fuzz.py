@@ -53,11 +53,11 @@ STAGES = ("toml-or-structure", "type-checker", "solver")
 # ---- generated expressions --------------------------------------------------------------------
 
 ITEM_ID = "mark"          # the information item of a generated two-group pack
-_BY_TYPE: dict = {1: {}, 2: {}}   # groups -> type -> names
-for _g in (1, 2):
+_BY_TYPE: dict = {g: {} for g in range(1, 9)}   # groups -> type -> names (a route: 3..8, DESIGN 4.10)
+for _g in _BY_TYPE:
     for _n in names_for(_g):
         _BY_TYPE[_g].setdefault(GLOBAL[_n].ty, []).append(_n)
-    for _f, (_ty, *_rest) in (INFO_FIELDS.items() if _g == 2 else ()):
+    for _f, (_ty, *_rest) in (INFO_FIELDS.items() if _g >= 2 else ()):
         _BY_TYPE[_g].setdefault(_ty, []).append(f"info.{ITEM_ID}.{_f}")
 _LEG_BY_TYPE: dict = {}
 for _n, _e in LEG.items():
@@ -169,6 +169,8 @@ def _pack_around(rnd: random.Random, rules: list[tuple[str | None, str]], groups
                   "[[info]]", f'id = "{ITEM_ID}"', f"group = {rnd.choice([1, 2])}",
                   f"at = {_toml_str(rnd.choice(['0 m', '150 m', '1 km']))}",
                   f"valid = {_toml_str(rnd.choice(['nominal', 'reverse', 'both']))}", ""]
+    elif groups >= 3:
+        lines += _route_world(rnd, groups)
     if rnd.random() < 0.2:
         lines += ["[onboard]", f"q_scale = {_toml_str(rnd.choice(['10 cm', '1 m', '10 m', 'auto']))}",
                   f"rounding = {_toml_str(rnd.choice(['widen', 'nearest', 'down']))}", ""]
@@ -178,6 +180,23 @@ def _pack_around(rnd: random.Random, rules: list[tuple[str | None, str]], groups
             lines.append(f"given = {_toml_str(given)}")
         lines += [f"expect = {_toml_str(expect)}", ""]
     return "\n".join(lines)
+
+
+def _route_world(rnd: random.Random, groups: int) -> list[str]:
+    """The [world], [[group]] and [[info]] lines of a route of ``groups`` groups (DESIGN 4.10):
+    a list of LRBGs mostly shorter than the route, an item of any group. Not drawn by
+    :func:`inputs` yet (the encoding of routes is checked on its own first); the generator and
+    the pack text are ready for it."""
+    lines = ["[world]", f"groups = {groups}", f"history = {rnd.choice([2, groups - 1, 8])}",
+             'g2_distance = ["100 m", "600 m"]', 'leg_distance = ["0 m", "800 m"]', ""]
+    for k in range(3, groups + 1):
+        distance = rnd.choice(['"200 m"', '["100 m", "500 m"]'])
+        lines += ["[[group]]", f"number = {k}", f"distance = {distance}",
+                  f"orientation = {_toml_str(rnd.choice(['same', 'opposite', 'any']))}", ""]
+    lines += ["[[info]]", f'id = "{ITEM_ID}"', f"group = {rnd.randint(1, groups)}",
+              f"at = {_toml_str(rnd.choice(['0 m', '150 m', '1 km']))}",
+              f"valid = {_toml_str(rnd.choice(['nominal', 'reverse', 'both']))}", ""]
+    return lines
 
 
 # ---- text mutations -----------------------------------------------------------------------------

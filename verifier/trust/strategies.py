@@ -23,8 +23,17 @@ places where implementations differ, so the strategies lean on the corners:
   over-reading bound, lands on a rounding tie ``(n + 1/2) * step``, on ``32766``, ``32766.5``
   or ``32767`` steps of a Q_SCALE step (SUBSET-026 7.5.1.13, 7.5.1.129), or on exactly 0.
 
+With two groups (DESIGN 4.8) G2 is drawn after the rest, most often found at the end of a
+redrawn leg. A route (DESIGN 4.10, three groups or more) is drawn differently: the later groups
+first, then a plan of which to find at which leg (in route order, at increasing legs), then the
+legs one by one, each within the reading error bound of the LRBG current when it starts (the
+bound restarts at every hand-over); the leg onto a planned group is solved from where the
+antenna is, so the detection holds exactly, and the others move freely, stop within a leg of
+the next group, or pass it unseen (to come back onto it running the other way).
+
 :func:`corners` names the corners a given world hits (computed from the world and the simulator,
-not from how it was drawn), and :class:`CornerTally` counts them over a run.
+not from how it was drawn), and :class:`CornerTally` counts them over a run; a route's corners
+are :data:`ROUTE_CORNERS`.
 """
 
 from __future__ import annotations
@@ -39,7 +48,8 @@ from hypothesis import strategies as st
 from verifier.lang.scope import Scope
 from verifier.lang.vocab import MAX_CODE, Direction, Running
 from verifier.world.bounds import distance_range, errors_after, odometer_range
-from verifier.world.sim import Group2, Leg, State, World, advance, scope_problems, sign, start
+from verifier.world.sim import (Group2, Leg, State, World, advance, handover, known, marks, scope_problems, sign,
+                                start)
 
 F = Fraction
 STEPS = (F(1, 10), F(1), F(10))      # Q_SCALE steps (SUBSET-026 7.5.1.129)
@@ -82,6 +92,25 @@ CORNERS = {
     "single-balise G2 found running towards G1": "an unlinked single-balise G2 is the LRBG with unknown directions (report.two_groups, report.prv_lrbg 0)",
     "both-ways item for a reverse-facing train": "an item valid both ways, of the current LRBG, for a train known to face its reverse direction",
 }
+
+# A route's corners (DESIGN 4.10), counted only over the worlds of packs with three groups or
+# more. Kept apart from CORNERS, which a sweep over the shipped and test catalogues must hit
+# in full: no pack of those catalogues is a route yet.
+ROUTE_CORNERS = {
+    "3+ hand-overs": "three later groups or more became the LRBG, one after the other",
+    "the list of LRBGs dropped a group": "more groups became the LRBG than [world] history keeps",
+    "a group rejected after a hand-over": "a found group did not become the LRBG, judged from a group after G1",
+    "a group found outside its window after G2": "a group after G2 found with usable linking and not gK.in_window",
+    "a group skipped before a later one is found": "a group not found, and a group after it found",
+    "a group passed unseen": "the antenna crossed (or reached) a group's real mark in a leg, and the group is not found",
+    "single-balise group after G2 referred to the move": "an unlinked single-balise group after G2 became the LRBG found running away from the LRBG (report.prv_lrbg J)",
+    "single-balise group after G2 found running towards the LRBG": "an unlinked single-balise group after G2 became the LRBG found running towards the LRBG (directions unknown)",
+    "a hand-over from a group after G1": "a group became the LRBG judged from a current LRBG other than G1",
+    "an item referred to a group that has left the list": "an item of a group that was the LRBG and is no longer in the onboard's list",
+    "an item referred to the current LRBG's predecessor": "an item of the group lrbg.previous",
+    "an item referred to a group that never became the LRBG": "an item of a group not in the journey's LRBGs (not passed yet, passed unseen or rejected)",
+}
+ALL_CORNERS = {**CORNERS, **ROUTE_CORNERS}
 
 
 # ---- numbers ---------------------------------------------------------------------------------
@@ -268,6 +297,8 @@ def worlds(draw, scope: Scope = Scope(), bound: int = 3, aim: bool = True) -> Wo
         world = _aim(draw, scope, world)
     if scope.groups == 2:
         world = _second_group(draw, scope, world)
+    elif scope.groups >= 3:
+        world = _route(draw, scope, world, bound)
     return world
 
 
@@ -315,6 +346,159 @@ def _second_group(draw, scope: Scope, world: World) -> World:
             if not scope_problems(found, scope, len(found.legs)):
                 return found
     return unfound
+
+
+# ---- a route of groups (DESIGN 4.10) -----------------------------------------------------------
+
+_SIDES = {"nominal": [Direction.NOMINAL], "reverse": [Direction.REVERSE],
+          "any": [Direction.NOMINAL, Direction.REVERSE]}
+_ORIENTATIONS = {"same": _SIDES["nominal"], "opposite": _SIDES["reverse"], "any": _SIDES["any"]}
+_OTHER = {Running.FORWARD: Running.BACKWARD, Running.BACKWARD: Running.FORWARD}
+
+
+def _route(draw, scope: Scope, world: World, bound: int) -> World:
+    """G2 .. GN for a route pack (groups >= 3), and legs that find some of them.
+
+    The legs drawn for one group are dropped: the reading error bound restarts at every
+    hand-over, so the legs are drawn afresh, one by one, each against the bound of the LRBG that
+    is current when it starts. A leg that finds a group is derived from where the antenna is
+    (as :func:`_second_group` does for G2), so the detection equations hold exactly."""
+    side = _choice(draw, _SIDES[scope.g2_side])
+    groups = [_later_group(draw, scope, k, side) for k in range(2, scope.groups + 1)]
+    n = bound if _int(draw, 0, 2) else _int(draw, 0, bound)
+    plan = _route_plan(draw, len(groups), n)
+    return _route_legs(draw, scope, attrs.evolve(world, g2=groups[0], later=tuple(groups[1:]), legs=()),
+                       n, plan, bound)
+
+
+def _later_group(draw, scope: Scope, k: int, side: Direction) -> Group2:
+    """Group ``k`` of a route, not found yet, inside its [[group]] scope (side: the route's way)."""
+    gs = scope.group(k)
+    dlo, dhi = gs.distance
+    distance = _one_of_or(draw, [dlo, dhi], dlo, dhi)
+    orientation = _choice(draw, _ORIENTATIONS[gs.orientation])
+    balises, read, locacc, offset = _group(draw, gs.balises, gs.locacc)
+    return Group2(distance=distance, side=side, orientation=orientation, balises=balises, read=read,
+                  linked=_bool(draw), locacc=locacc, offset=offset)
+
+
+def _route_plan(draw, count: int, n: int) -> dict:
+    """Which of the ``count`` later groups the legs aim to find, and at which of the ``n`` legs:
+    {leg: group number}, in route order at strictly increasing legs. A third of the time as
+    many groups as the legs allow, the first ones (the worlds with the most hand-overs), else
+    each group with odds of two in three (the others are passed unseen, or never reached)."""
+    ks = list(range(2, count + 2))
+    if _int(draw, 0, 2) == 0:
+        wanted = ks[:n]
+    else:
+        wanted = [k for k in ks if _int(draw, 0, 2)][:n]
+    plan, leg = {}, 0
+    for i, k in enumerate(wanted):
+        # leave a leg for every group still to be found
+        leg = _int(draw, leg + 1, n - (len(wanted) - 1 - i))
+        plan[leg] = k
+    return plan
+
+
+def _detection_range(scope: Scope) -> tuple:
+    """The detection errors a group may have (negative, positive bound): with the detection
+    inside the odometry bound, also what that bound allows at the detection itself."""
+    if scope.detection_in_odometry:
+        return min(scope.detection, scope.odometry_over.fixed), min(scope.detection, scope.odometry_under.fixed)
+    return scope.detection, scope.detection
+
+
+def _route_legs(draw, scope: Scope, world: World, n: int, plan: dict, bound: int) -> World:
+    """``n`` legs, drawn one at a time: the leg of ``plan`` finds its group if one leg can reach
+    it; any other leg moves freely, or towards the next group to find (stopping short of it, or
+    passing it unseen so that the train comes back onto it running the other way)."""
+    xs = marks(world)
+    route = list(world.route)
+    legs: list = []
+    snap = start(world)                  # the physical track, in G1's frame
+    dneg, dpos = _detection_range(scope)
+    for i in range(1, n + 1):
+        now = attrs.evolve(world, g2=route[0], later=tuple(route[1:]), legs=tuple(legs))
+        cur = handover(now, scope).stages[-1]       # the LRBG whose bound this leg must keep
+        errors = errors_after(scope, legs[cur.start:], cur.world.detect_error)
+        cab = _bool(draw)
+        o = -snap.orientation if cab else snap.orientation
+        front = snap.front - snap.orientation * world.length if cab else snap.front
+        antenna = front - o * world.antenna
+        leg, k = None, plan.get(i)
+        if k is not None:
+            g = route[k - 2]
+            det = _one_of_or(draw, [F(0), -dneg, dpos], -dneg, dpos)
+            leg = _onto(draw, scope, cab, o, antenna, xs[k - 1] + sign(g.orientation) * g.offset, det, errors)
+            if leg is not None:
+                route[k - 2] = attrs.evolve(g, found=True, at=i, detect_error=det)
+        if leg is None:
+            ahead = [j for j in sorted(plan) if j > i]
+            target = None
+            if ahead:
+                g = route[plan[ahead[0]] - 2]
+                target = xs[plan[ahead[0]] - 1] + sign(g.orientation) * g.offset
+            leg = _filler(draw, scope, cab, o, antenna, target, errors)
+        legs.append(leg)
+        snap, _ = advance(snap, leg)
+    return _in_scope(attrs.evolve(world, g2=route[0], later=tuple(route[1:]), legs=tuple(legs)), scope, bound)
+
+
+def _odometer(draw, scope: Scope, errors: tuple, dist: F) -> F:
+    """An odometer reading for a leg of ``dist`` within the bound, leaning on its edges."""
+    olo, ohi = odometer_range(scope, *errors, dist)
+    how = _int(draw, 0, 3)
+    if how == 0 and olo <= dist <= ohi:
+        return dist
+    if how == 1:
+        return olo
+    if how == 2:
+        return ohi
+    return draw_between(draw, olo, ohi)
+
+
+def _onto(draw, scope: Scope, cab: bool, o: int, antenna: F, mark: F, det: F, errors: tuple) -> Leg | None:
+    """The leg that ends with the antenna on ``mark`` plus ``det`` along its movement (DESIGN
+    4.8 detection), running either way; None when no leg in the scope does."""
+    first = _choice(draw, [Running.FORWARD, Running.BACKWARD])
+    for running in (first, _OTHER[first]):
+        m = o if running is Running.FORWARD else -o
+        dist = m * (mark - antenna) + det
+        if scope.leg_distance[0] <= dist <= scope.leg_distance[1] and dist > max(F(0), det):
+            return Leg(cab_change=cab, running=running, distance=dist, odometer=_odometer(draw, scope, errors, dist))
+    return None
+
+
+def _filler(draw, scope: Scope, cab: bool, o: int, antenna: F, target, errors: tuple) -> Leg:
+    """A leg that finds no group: free, or towards ``target`` (the next group to find), stopping
+    within one leg of it or passing it."""
+    dlo, dhi = scope.leg_distance
+    how = _int(draw, 0, 2) if target is not None else 0
+    running = _choice(draw, [Running.FORWARD, Running.BACKWARD])
+    lo, hi = F(1), F(0)
+    if how:
+        towards = 1 if target >= antenna else -1
+        running = Running.FORWARD if o == towards else Running.BACKWARD
+        gap = abs(target - antenna)
+        lo, hi = (max(dlo, gap - dhi), min(dhi, gap)) if how == 1 else (max(dlo, gap), dhi)
+    if lo <= hi:
+        dist = draw_between(draw, lo, hi)
+    else:                                   # free, as one-group legs are drawn
+        near = min(dhi, max(dlo, F(50)))
+        k = _int(draw, 0, 2)
+        dist = _choice(draw, [dlo, dhi]) if k == 0 else draw_between(draw, dlo, near if k == 1 else dhi)
+    return Leg(cab_change=cab, running=running, distance=dist, odometer=_odometer(draw, scope, errors, dist))
+
+
+def _in_scope(world: World, scope: Scope, bound: int) -> World:
+    """The world, or (a last resort, which the construction should not need) its longest prefix
+    of legs that is inside the scope, the groups found after it unfound."""
+    while world.legs and scope_problems(world, scope, bound):
+        legs = world.legs[:-1]
+        route = [g if g.at <= len(legs) else attrs.evolve(g, found=False, at=0, detect_error=F(0))
+                 for g in world.route]
+        world = attrs.evolve(world, legs=legs, g2=route[0], later=tuple(route[1:]))
+    return world
 
 
 def pack_worlds(packs, bound: int | None = None) -> st.SearchStrategy:
@@ -411,6 +595,8 @@ def corners(world: World, scope: Scope, bound: int, state: State | None = None) 
             out.add("report out of range")
         if world.g2 is not None:
             out |= _two_group_corners(world, state)
+        if world.later:
+            out |= _route_corners(world, state)
         out |= _item_corners(state)
     return out
 
@@ -431,6 +617,66 @@ def _two_group_corners(world: World, state: State) -> set[str]:
         if state.get("g2.link_side") is not Direction.UNKNOWN and not state.get("g2.in_window"):
             out.add("G2 found outside its window")
     return out
+
+
+def _judged_from(h, g: Group2):
+    """The stage (the current LRBG) from which a found group is judged: the last LRBG detected
+    before it (DESIGN 4.10)."""
+    return [s for s in h.stages if s.start < g.at][-1]
+
+
+def _route_corners(world: World, state: State) -> set[str]:
+    h, out = state.handover, set()
+    lrbgs = [s.group for s in h.stages]
+    if len(lrbgs) >= 4:
+        out.add("3+ hand-overs")
+    if len(lrbgs) > len(h.history):
+        out.add("the list of LRBGs dropped a group")
+    if len(lrbgs) >= 3:         # each LRBG is judged from the one before it
+        out.add("a hand-over from a group after G1")
+    found = [g.found for g in world.route]
+    for k, g in enumerate(world.route, 2):
+        if not g.found:
+            if any(found[k - 1:]):
+                out.add("a group skipped before a later one is found")
+            if _passed(world, k):
+                out.add("a group passed unseen")
+            continue
+        cur = _judged_from(h, g)
+        usable = (g.linked and known(world) and known(cur.world)
+                  and (cur.group == 1 or world.route[cur.group - 2].linked))
+        if not h.lrbgs[k - 2] and cur.group != 1:
+            out.add("a group rejected after a hand-over")
+        if k >= 3 and usable and not h.windows[k - 2]:
+            out.add("a group found outside its window after G2")
+        if k >= 3 and h.lrbgs[k - 2] and g.balises == 1 and not usable:
+            prv = next(s for s in h.stages if s.group == k).world.prv
+            out.add("single-balise group after G2 referred to the move" if prv
+                    else "single-balise group after G2 found running towards the LRBG")
+    for item in state.pack.infos:
+        if item.group in lrbgs and item.group not in h.history:
+            out.add("an item referred to a group that has left the list")
+        if h.previous and item.group == h.previous:
+            out.add("an item referred to the current LRBG's predecessor")
+        if item.group not in lrbgs:
+            out.add("an item referred to a group that never became the LRBG")
+    return out
+
+
+def _passed(world: World, k: int) -> bool:
+    """Whether the antenna crossed or reached group ``k``'s real mark in some leg (G1's frame)."""
+    g = world.route[k - 2]
+    mark = marks(world)[k - 1] + sign(g.orientation) * g.offset
+    snap = start(world)
+    for leg in world.legs:
+        before = snap.front - (-snap.orientation if leg.cab_change else snap.orientation) * world.antenna
+        if leg.cab_change:
+            before -= snap.orientation * world.length
+        snap, _ = advance(snap, leg)
+        after = snap.front - snap.orientation * world.antenna
+        if leg.distance > 0 and min(before, after) <= mark <= max(before, after):
+            return True
+    return False
 
 
 def _item_corners(state: State) -> set[str]:
@@ -457,15 +703,15 @@ class CornerTally:
         self.worlds += other.worlds
         self.counts.update(other.counts)
 
-    def missed(self) -> list[str]:
-        return [c for c in CORNERS if not self.counts[c]]
+    def missed(self, names=CORNERS) -> list[str]:
+        return [c for c in names if not self.counts[c]]
 
     def as_json(self) -> dict:
-        return {"worlds": self.worlds, "corners": {c: self.counts[c] for c in CORNERS}}
+        return {"worlds": self.worlds, "corners": {c: self.counts[c] for c in ALL_CORNERS}}
 
     def as_text(self) -> str:
         lines = [f"{self.worlds} worlds; corner hits:"]
-        for c in CORNERS:
+        for c in ALL_CORNERS:
             n = self.counts[c]
             share = 100 * n / self.worlds if self.worlds else 0
             lines.append(f"  {n:7d} {share:5.1f} %  {c}")
