@@ -436,7 +436,9 @@ class Terms:
         """A leg quantifier over the legs of this encoding, each guarded by its activity."""
         e = self.expr
         items = []
-        for leg in self.legs:
+        # a route's legs since the current LRBG are the physical legs after its detection, each
+        # guarded by that (the order of the legs does not matter to a quantifier)
+        for leg in getattr(self, "qlegs", None) or self.legs:
             items.append((leg["active"], e(node.body, {**env, node.var: leg})))
         if node.kind == "all":
             return z3.And([z3.Implies(a, b) for a, b in items]) if items else z3.BoolVal(True, self.ctx)
@@ -646,8 +648,12 @@ class Encoding(Terms):
         self.inputs["legs.count"] = count
         self.constraints += [count >= 0, count <= bound]
         Gs = [self._group_inputs(k) for k in range(2, groups + 1)]
+        self._route = {"frame": self.ival(1), "origin": self.num(0), "marks": [self.num(0)]}
+        if Gs:
+            self._marks(Gs)
         st = self._first(S)
-        track, phys = [st], []
+        self._passage_bound(S)
+        phys = []
         for i in range(1, bound + 1):
             cab, fwd = self.boolean(f"legs.{i}.cab_change"), self.boolean(f"legs.{i}.forward")
             dist, odo = self.real(f"legs.{i}.distance"), self.real(f"legs.{i}.odometer")
@@ -656,30 +662,169 @@ class Encoding(Terms):
             active = count >= i
             # an inactive leg is fixed, so that models (and minimal worlds) are canonical
             self.constraints.append(z3.Implies(z3.Not(active), z3.And(z3.Not(cab), fwd, dist == 0, odo == 0)))
-            # G1's reading bound holds while G1 is the LRBG: up to the first hand-over
-            st, fields = self._step(S, st, (cab, fwd, dist, odo), active=active,
-                                    index=self.ival(i), tag=str(i),
-                                    bounded_if=z3.And([z3.Implies(G["lrbg"], G["at"] >= i) for G in Gs]) if Gs else None)
-            track.append(st)
             phys.append((cab, fwd, dist, odo))
-            self.legs.append(fields)
-        self._passage_bound(S)
-        self._route = {"frame": self.ival(1), "origin": self.num(0), "marks": [self.num(0)]}
         if not Gs:
+            for i, leg in enumerate(phys, 1):
+                st, fields = self._step(S, st, leg, active=count >= i, index=self.ival(i), tag=str(i))
+                self.legs.append(fields)
             self._names(S, st, count)
             self._group_names(S, [], count)
             return
-        self._marks(Gs)
-        cur = {"S": S, "track": track, "off": self.ival(0), "origin": self.num(0),
-               "frame": self.ival(1), "group": self.ival(1), "previous": self.ival(0),
-               "linked": z3.BoolVal(True, ctx), "count": count, "st": st, "legs": self.legs}
+        self._route_pass(S, st, Gs, phys, count)
+
+    # ---- a route: one pass over the legs, the current LRBG changing on the way (DESIGN 4.10) ----
+    def _route_pass(self, S1: dict, st: dict, Gs: list, phys: list, count) -> None:
+        """The legs in order, each in the frame of the LRBG current during it; at the end of each
+        leg the group found there (if any) is judged from that LRBG and, when it becomes the
+        LRBG, the state restarts at its detection. Where a group is found on the ground is
+        written in G1's frame, from the real train of the current LRBG's frame."""
+        ctx, num, K = self.ctx, self.num, len(phys)
+        cur = {"S": S1, "start": self.ival(0), "origin": num(0), "frame": self.ival(1),
+               "group": self.ival(1), "previous": self.ival(0), "linked": z3.BoolVal(True, ctx)}
+        acc_at = {k: [] for k in range(2, len(Gs) + 2)}     # per group: (accepted at leg i) terms
+        win_at = {k: [] for k in range(2, len(Gs) + 2)}
+        qlegs, fields_by_leg = [], []
+        for i, leg in enumerate(phys, 1):
+            cab, fwd, dist, odo = leg
+            active = count >= i
+            S = cur["S"]
+            st, fields = self._step(S, st, leg, active=active, index=self.ival(i) - cur["start"], tag=str(i))
+            fields_by_leg.append((fields, cur["start"]))
+            # the real train in G1's frame, from the current LRBG's (one computation of the truth)
+            real = {"front": cur["origin"] + self.along(cur["frame"], st["front"]),
+                    "o": self.along(cur["frame"], st["o"]), "motion": self.along(cur["frame"], st["motion"])}
+            # the group detected at the end of this leg, judged from the current LRBG
+            events = []
+            for k, G in enumerate(Gs, 2):
+                here = z3.And(G["found"], G["at"] == i)
+                self._detected(k, G, here, real, leg, S1["train.antenna"])
+                ok, window, S_k = self._judge(k, G, cur, st, fwd, i)
+                acc_at[k].append(z3.And(here, ok))
+                win_at[k].append(z3.And(here, window))
+                events.append((z3.And(here, ok), k, G, S_k))
+            if i == K:
+                break     # nothing after the last leg: no restart needed
+            cur, st = self._restart(cur, st, events, i)
+        # the final hand-over (at the last leg) still changes the current LRBG
+        if phys:
+            cur, st = self._restart(cur, st, events, len(phys), last=True)
         for k, G in enumerate(Gs, 2):
-            cur = self._handover(k, G, Gs, cur, track, phys, count)
-        self.legs = cur["legs"]
+            self.constraints.append(G["lrbg"] == (z3.Or(acc_at[k]) if acc_at[k] else z3.BoolVal(False, ctx)))
+            G["in_window"] = self.define(f"g{k}.in_window", z3.Or(win_at[k]) if win_at[k] else z3.BoolVal(False, ctx), "bool")
+        start = cur["start"]
+        count2 = self.define("legs.count@current", count - start, "int")
+        # the legs since the current LRBG: quantifiers read the physical legs after its detection,
+        # legs[j] (and the per-leg values) the j-th of them
+        for i, (fields, _) in enumerate(fields_by_leg, 1):
+            q = dict(fields)
+            q["active"] = z3.And(count >= i, start < i)
+            q["index"] = self.ival(i) - start
+            qlegs.append(q)
+        self.qlegs = qlegs
+        self.legs = []
+        for j in range(1, K + 1):
+            sel = {}
+            for f in fields_by_leg[0][0]:
+                chosen = None
+                for i in range(K, j - 1, -1):
+                    v = fields_by_leg[i - 1][0][f]
+                    chosen = v if chosen is None else z3.If(start + j == i, v, chosen)
+                sel[f] = chosen
+            sel["active"] = count2 >= j
+            sel["index"] = self.ival(j)
+            self.legs.append(sel)
         self._route.update({"frame": cur["frame"], "origin": cur["origin"], "group": cur["group"],
                             "previous": cur["previous"]})
-        self._names(cur["S"], cur["st"], cur["count"])
-        self._group_names(S, Gs, count)
+        self._names(cur["S"], st, count2)
+        self._group_names(S1, Gs, count)
+
+    def _detected(self, k: int, G: dict, here, real: dict, leg: tuple, antenna) -> None:
+        """Group ``k`` found at the end of this leg: the real antenna on its real mark plus the
+        detection error along the movement, the leg moving onto it (DESIGN 4.8)."""
+        mark = self._route["marks"][k - 1] + self.along(G["orientation"], G["offset"])
+        real_antenna = real["front"] - self.along(real["o"], antenna)
+        self.constraints.append(z3.Implies(here, z3.And(
+            real_antenna == mark + self.along(real["motion"], G["detect_error"]),
+            leg[2] > 0, leg[2] > G["detect_error"])))
+
+    def _judge(self, k: int, G: dict, cur: dict, st: dict, fwd, i: int) -> tuple:
+        """Whether group ``k``, found at the end of leg ``i``, becomes the LRBG as judged from
+        the current LRBG (DESIGN 4.8, 4.10): (accepted, inside its window, its passage)."""
+        S, num = cur["S"], self.num
+        x = self._route["marks"][k - 1]
+        e = self.along(cur["frame"], x - cur["origin"])         # its mark in the current frame
+        way = z3.If(e > 0, 1, -1)
+        dist = z3.If(e > 0, e, -e)
+        acc = z3.ToReal(G["locacc"])
+        est_antenna = self.along(S["passage.direction"], st["est_p"]) - self.along(st["o"], S["train.antenna"])
+        u = self.along(way, est_antenna)
+        b_over, b_under = self._bounds_at(st["measured"])
+        lo = u - S["lrbg.locacc"] - b_over
+        hi = u + S["lrbg.locacc"] + b_under
+        linking = z3.And(G["linked"], self.known_first, S["known"], z3.Or(cur["group"] == 1, cur["linked"]))
+        window = z3.And(linking, hi >= dist - acc, lo <= dist + acc)
+        m = st["motion"]                                        # the leg's motion, current frame
+        single = G["balises"] == 1
+        ok = z3.If(linking, z3.And(window, m == way), z3.Or(single, G["read"] >= 2))
+        # a single-balise group without usable linking is referred to the move from the current
+        # LRBG towards it, or has every direction unknown (SUBSET-026 3.4.2.3.3.2, 3.4.2.3.3.4)
+        prv = z3.And(z3.Not(linking), single, m == way)
+        fk = z3.If(prv, self.along(cur["frame"], way), G["orientation"])
+        S_k = {"lrbg.balises": G["balises"], "lrbg.read": G["read"],
+               "lrbg.linked": z3.And(G["linked"], z3.Or(linking, z3.Not(single))),
+               "prv": prv, "prv_group": cur["group"],
+               "lrbg.locacc": z3.ToReal(G["locacc"]),
+               # its real mark's offset in its frame as the LRBG (turned when referred to the move)
+               "lrbg.offset": z3.If(fk == G["orientation"], G["offset"], -G["offset"]),
+               "train.length": S["train.length"], "train.antenna": S["train.antenna"],
+               "passage.direction": self.along(fk, self.along(cur["frame"], m)),
+               "passage.running": fwd, "passage.detect_error": G["detect_error"],
+               "frame": fk, "origin": x, "linked_k": G["linked"]}
+        return ok, window, S_k
+
+    _PASSAGE = ("lrbg.balises", "lrbg.read", "lrbg.linked", "prv", "prv_group", "lrbg.locacc",
+                "lrbg.offset", "train.length", "train.antenna", "passage.direction",
+                "passage.running", "passage.detect_error")
+
+    def _restart(self, cur: dict, st: dict, events: list, i: int, last: bool = False) -> tuple:
+        """After leg ``i``: the current LRBG and the state, restarted at the detection of the group
+        that became the LRBG there (at most one group is found at a leg)."""
+        S = cur["S"]
+        reset = z3.Or([ok for ok, *_ in events]) if events else z3.BoolVal(False, self.ctx)
+        new = {key: S.get(key, self.ival(1)) for key in self._PASSAGE}
+        frame, origin, group, linked = cur["frame"], cur["origin"], cur["group"], cur["linked"]
+        for ok, k, G, S_k in reversed(events):
+            new = {key: z3.If(ok, S_k[key], new[key]) for key in self._PASSAGE}
+            frame = z3.If(ok, S_k["frame"], frame)
+            origin = z3.If(ok, S_k["origin"], origin)
+            group = z3.If(ok, k, group)
+            linked = z3.If(ok, S_k["linked_k"], linked)
+        nxt = {"S": None, "start": z3.If(reset, self.ival(i), cur["start"]),
+               "origin": self.define(f"lrbg.origin@{i}", origin), "frame": self.define(f"lrbg.frame@{i}", frame, "int"),
+               "group": self.define(f"lrbg.group@{i}", group, "int"),
+               "previous": z3.If(reset, cur["group"], cur["previous"]), "linked": linked}
+        S2 = {key: self.define(f"{key}@{i}", v, "bool" if key in ("lrbg.linked", "prv", "passage.running")
+                               else "int" if key in ("lrbg.balises", "lrbg.read", "prv_group", "passage.direction")
+                               else "real") for key, v in new.items()}
+        if self.world.detection_in_odometry:    # the reading bound at the new LRBG's passage
+            det = S2["passage.detect_error"]
+            self.bounded("world.odometry_over", z3.Implies(reset, self.pos(-det) <= self.num(self.world.odometry_over.fixed)))
+            self.bounded("world.odometry_under", z3.Implies(reset, self.pos(det) <= self.num(self.world.odometry_under.fixed)))
+        first = self._first(S2, tag=f"r{i}")
+        nxt["S"] = S2
+        if last:
+            st = {key: (z3.If(reset, first[key], st[key]) if key in ("o", "op", "motion", "front", "est_p", "over",
+                                                                       "under", "measured", "basis") else st[key])
+                  for key in st}
+            st["cabs"] = [z3.If(reset, 0, z3.Sum(st["cabs"]) if st["cabs"] else 0)]
+            st["travelled"] = [z3.If(reset, self.num(0), z3.Sum(st["travelled"]) if st["travelled"] else self.num(0))]
+            return nxt, st
+        merged = dict(st)
+        for key in ("o", "op", "motion", "front", "est_p", "over", "under", "measured", "basis"):
+            merged[key] = z3.If(reset, first[key], st[key])
+        merged["cabs"] = [z3.If(reset, 0, z3.Sum(st["cabs"]) if st["cabs"] else 0)]
+        merged["travelled"] = [z3.If(reset, self.num(0), z3.Sum(st["travelled"]) if st["travelled"] else self.num(0))]
+        return nxt, merged
 
     # ---- the route's later groups (DESIGN 4.8, 4.10) ------------------------------------------
     def _group_inputs(self, k: int) -> dict:
@@ -724,93 +869,6 @@ class Encoding(Terms):
         for k, G in enumerate(Gs, 2):
             total = total + G["distance"]
             self._route["marks"].append(self.define(f"g{k}.mark", self.along(Gs[0]["side"], total)))
-
-    def _handover(self, k: int, G: dict, Gs: list, cur: dict, track: list, phys: list, count) -> dict:
-        """Where group ``k`` is found, whether it becomes the LRBG as judged from the current
-        LRBG ``cur``, and the world as the LRBG after it sees it (DESIGN 4.8, 4.10)."""
-        C, num, n, K = self.constraints, self.num, f"g{k}", len(phys)
-        S = cur["S"]
-        antenna = S["train.antenna"]
-        x = self._route["marks"][k - 1]
-        mark = x + self.along(G["orientation"], G["offset"])
-        # the physical detection, on G1's track (G1's frame)
-        fwd_at = z3.BoolVal(True, self.ctx)
-        for i in range(K, 0, -1):
-            st = track[i]
-            here = z3.And(G["found"], G["at"] == i)
-            real_antenna = st["front"] - self.along(st["o"], antenna)
-            C.append(z3.Implies(here, real_antenna == mark + self.along(st["motion"], G["detect_error"])))
-            # the leg moves the antenna onto the group (DESIGN 4.8)
-            C.append(z3.Implies(here, z3.And(phys[i - 1][2] > 0, phys[i - 1][2] > G["detect_error"])))
-            fwd_at = z3.If(G["at"] == i, phys[i - 1][1], fwd_at)
-        # judged from the current LRBG: its estimate at the end of leg g.at
-        e = self.define(f"{n}.from_lrbg", self.along(cur["frame"], x - cur["origin"]))
-        way = z3.If(e > 0, 1, -1)
-        dist = z3.If(e > 0, e, -e)
-        acc = z3.ToReal(G["locacc"])
-        wins, m_at = [], self.ival(0)
-        local = G["at"] - cur["off"]
-        for j in range(K, 0, -1):
-            st = cur["track"][j]
-            here = z3.And(G["found"], local == j)
-            est_antenna = self.along(S["passage.direction"], st["est_p"]) - self.along(st["o"], antenna)
-            u = self.along(way, est_antenna)
-            b_over, b_under = self._bounds_at(st["measured"])
-            lo = u - S["lrbg.locacc"] - b_over
-            hi = u + S["lrbg.locacc"] + b_under
-            wins.append(z3.And(here, hi >= dist - acc, lo <= dist + acc))
-            m_at = z3.If(local == j, st["motion"], m_at)
-        linking = z3.And(G["linked"], self.known_first, S["known"], z3.Or(cur["group"] == 1, cur["linked"]))
-        in_window = self.define(f"{n}.in_window", z3.And(linking, z3.Or(wins)) if wins else z3.BoolVal(False, self.ctx), "bool")
-        # a single-balise group without usable linking becomes the LRBG, its directions referred
-        # to the move from the current LRBG towards it, unknown when found running the other way
-        # (SUBSET-026 3.4.2.3.3.1, 3.4.2.3.3.2, 3.4.2.3.3.4)
-        single = G["balises"] == 1
-        accepted = z3.If(linking, z3.And(in_window, m_at == way), z3.Or(single, G["read"] >= 2))
-        C.append(G["lrbg"] == z3.And(G["found"], accepted))
-        G["in_window"] = in_window
-        r = G["lrbg"]
-        prv = self.define(f"{n}.prv", z3.And(r, z3.Not(linking), single, m_at == way), "bool")
-        # the new LRBG's frame in G1's: its own orientation, or the move towards it (two groups)
-        fk = z3.If(prv, self.along(cur["frame"], way), G["orientation"])
-        d = self.along(fk, self.along(cur["frame"], m_at))
-        S2 = {"lrbg.balises": z3.If(r, G["balises"], S["lrbg.balises"]),
-              "lrbg.read": z3.If(r, G["read"], S["lrbg.read"]),
-              "lrbg.linked": z3.If(r, z3.And(G["linked"], z3.Or(linking, z3.Not(single))), S["lrbg.linked"]),
-              "prv": z3.If(r, prv, S["prv"]),
-              "prv_group": z3.If(r, cur["group"], S.get("prv_group", self.ival(1))),
-              "lrbg.locacc": z3.If(r, z3.ToReal(G["locacc"]), S["lrbg.locacc"]),
-              "lrbg.offset": z3.If(r, G["offset"], S["lrbg.offset"]),
-              "train.length": S["train.length"], "train.antenna": S["train.antenna"],
-              "passage.direction": z3.If(r, d, S["passage.direction"]),
-              "passage.running": z3.If(r, fwd_at, S["passage.running"]),
-              "passage.detect_error": z3.If(r, G["detect_error"], S["passage.detect_error"])}
-        off = z3.If(r, G["at"], cur["off"])
-        count2 = self.define("legs.count@current" + ("" if k == 2 else str(k)), count - off, "int")
-        tag = "c" if k == 2 else f"c{k}_"
-        st2 = self._first(S2, tag=tag)
-        self._passage_bound(S2)
-        legs = []
-        default = (z3.BoolVal(False, self.ctx), z3.BoolVal(True, self.ctx), num(0), num(0))
-        later = Gs[k - 1:]
-        track2 = [st2]
-        for j in range(1, K + 1):
-            leg = []
-            for f in range(4):
-                chosen = default[f]
-                for i in range(K, j - 1, -1):      # leg j after the group is the physical leg off + j
-                    chosen = z3.If(off + j == i, phys[i - 1][f], chosen)
-                leg.append(chosen)
-            # this group's reading bound holds from its detection while it is the LRBG
-            own = z3.And([r] + [z3.Implies(H["lrbg"], H["at"] >= off + j) for H in later])
-            st2, fields = self._step(S2, st2, tuple(leg), active=count2 >= j, index=self.ival(j),
-                                     tag=f"{tag}{j}", bounded_if=own)
-            track2.append(st2)
-            legs.append(fields)
-        return {"S": S2, "track": track2, "off": off,
-                "origin": z3.If(r, x, cur["origin"]), "frame": z3.If(r, fk, cur["frame"]),
-                "group": z3.If(r, k, cur["group"]), "previous": z3.If(r, cur["group"], cur["previous"]),
-                "linked": z3.If(r, G["linked"], cur["linked"]), "count": count2, "st": st2, "legs": legs}
 
 def _is_const(node: ast.Node) -> bool:
     if isinstance(node, ast.Num):

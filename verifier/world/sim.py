@@ -316,8 +316,11 @@ def handover(world: World, scope: Scope) -> Handover:
         if not accepted:
             continue
         leg = cur.world.legs[local - 1]
+        # the real mark's offset in the new LRBG's frame: its own orientation's, turned when the
+        # frame is the move towards it (a group referred to the previous LRBG)
         view = World(balises=g.balises, read=g.read, linked=g.linked and (linking or g.balises > 1),
-                     locacc=g.locacc, offset=g.offset, length=world.length, antenna=world.antenna,
+                     locacc=g.locacc, offset=frame * sign(g.orientation) * g.offset,
+                     length=world.length, antenna=world.antenna,
                      direction=direction_of(frame * cur.frame * snap.motion), running=leg.running,
                      detect_error=g.detect_error, legs=cur.world.legs[local:], prv=prv,
                      prv_group=cur.group)
