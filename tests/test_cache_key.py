@@ -33,10 +33,13 @@ BASE = {
         "antenna": ["2 m", "30 m"], "leg_distance": ["0 m", "900 m"],
         "odometry_over": {"fixed": "5 m", "rate": "5 %"},
         "odometry_under": {"fixed": "5 m", "rate": "5 %"},
-        "detection": "1 m", "odometry_basis": "measured", "groups": 2,
+        "detection": "1 m", "odometry_basis": "measured", "groups": 4, "history": 3,
         "g2_distance": ["100 m", "700 m"], "g2_side": "any", "g2_orientation": "any",
         "g2_balises": [1, 8], "g2_locacc": ["0 m", "8 m"],
     },
+    # a route (DESIGN 4.10): G3 described, G4 left to the defaults
+    "group": [{"number": 3, "title": "G3", "distance": ["100 m", "800 m"], "orientation": "any",
+               "balises": [1, 8], "locacc": ["0 m", "8 m"]}],
     "params": {"margin": "10 m"},
     "let": {"short": "train.length <= 300 m", "unused": "train.length >= 30 m"},
     "onboard": {**{k: v for k, v in vocab.DEFAULT_ONBOARD.items()},
@@ -64,8 +67,10 @@ WORLD_EDITS = {
     "detection": "2 m", "odometry_basis": "real", "detection_in_odometry": True,
     "groups": None,   # groups: see _edit
     "g2_distance": ["100 m", "600 m"], "g2_side": "nominal", "g2_orientation": "same",
-    "g2_balises": [2, 8], "g2_locacc": ["0 m", "7 m"],
+    "g2_balises": [2, 8], "g2_locacc": ["0 m", "7 m"], "history": 2,
 }
+GROUP_EDITS = {"number": 4, "distance": ["100 m", "900 m"], "orientation": "opposite",
+               "balises": [2, 8], "locacc": ["0 m", "9 m"]}
 EDITS = {
     **{("world", k): v for k, v in WORLD_EDITS.items()},
     ("pack", "legs"): 2,
@@ -83,8 +88,10 @@ EDITS = {
     ("rule", "given"): "short and rbc.placed and info.sig.accepted and train.length >= 21 m",
     ("rule", "expect"): BASE["rule"][0]["expect"] + " and train.length >= 5 m",
     ("rule", "legs"): 2,
+    **{("group", k): v for k, v in GROUP_EDITS.items()},
 }
 KEEP = {
+    ("group", "title"): "Another title",
     ("pack", "name"): "keyed-renamed", ("pack", "title"): "Another title",
     ("pack", "description"): "other words", ("let", "unused"): "train.length >= 40 m",
     ("rule", "id"): "renamed", ("rule", "title"): "Another title", ("rule", "refs"): ["SUBSET-026 7"],
@@ -124,8 +131,9 @@ def _render(doc: dict) -> str:
 
 def _edit(doc: dict, table: str, key: str, value) -> dict:
     doc = copy.deepcopy(doc)
-    if (table, key) == ("world", "groups"):       # one group: drop G2 and what reads it
-        doc["world"] = {k: v for k, v in doc["world"].items() if not k.startswith(("g2_", "groups"))}
+    if (table, key) == ("world", "groups"):       # one group: drop the route and what reads it
+        doc["world"] = {k: v for k, v in doc["world"].items() if not k.startswith(("g2_", "groups", "history"))}
+        doc.pop("group", None)
         doc["onboard"].update(vocab.DEFAULT_INFO_ONE)
         doc["rule"][0]["expect"] = doc["rule"][0]["expect"].replace(" and g2.distance >= 0 m", "")
         return doc
@@ -193,11 +201,12 @@ def test_any_combination_of_edits_moves_the_key_iff_one_can_change_the_verdict(e
     late = [w for w in (("info", "id"), ("world", "groups")) if w in edits]
     doc = BASE
     for where in [w for w in edits if w not in late] + late:
-        if ("world", "groups") in edits and where[0] == "world" and where[1].startswith("g2_"):
+        if ("world", "groups") in edits and (where[0] == "group" or (
+                where[0] == "world" and where[1].startswith(("g2_", "history")))):
             continue
         doc = _edit(doc, *where, EDITS.get(where, KEEP.get(where)))
-    semantic = any(w in EDITS for w in edits if not (("world", "groups") in edits
-                                                    and w[0] == "world" and w[1].startswith("g2_")))
+    semantic = any(w in EDITS for w in edits if not (("world", "groups") in edits and (
+        w[0] == "group" or (w[0] == "world" and w[1].startswith(("g2_", "history"))))))
     assert (_keys(doc)[0] != _base_keys()[0]) == semantic
 
 

@@ -20,7 +20,7 @@ from hypothesis import strategies as st
 from verifier.trust.differential import catalogue, compare, flat, run_differential, simulate
 from verifier.run.loader import load_pack
 from verifier.smt.concrete import Evaluator
-from verifier.trust.strategies import CORNERS, corners, largest_bound, profile, worlds
+from verifier.trust.strategies import CORNERS, ROUTE_CORNERS, corners, largest_bound, profile, worlds
 from verifier.lang.scope import Scope
 from verifier.world.sim import Leg, State, World, scope_problems
 from verifier.lang.vocab import Direction, Running
@@ -59,11 +59,24 @@ def test_simulator_and_encoding_agree_on_generated_worlds(record_property):
     assert not report.failures, report.failures
     assert report.worlds >= prof["worlds"]
     assert report.unique_checks >= prof["worlds"] // 50
-    missed = [c for c in CORNERS if not report.corners.get(c)]
+    missed = [c for c in list(CORNERS) + list(ROUTE_CORNERS) if not report.corners.get(c)]
     assert not missed, f"corners never hit: {missed}"
 
 
 QUICK_WORLDS = 2_000
+ROUTE_PACKS = [ROOT / "rules" / "route.toml", PACKS / "route-short-list.toml", PACKS / "route-reverse.toml"]
+
+
+def test_simulator_and_encoding_agree_on_routes_across_hand_overs():
+    # DESIGN 4.10 in both implementations: worlds of the route packs with three hand-overs and
+    # more, an item referred to a group that has just left the onboard's list and one referred
+    # to the current LRBG's predecessor, each value of each world compared
+    report = run_differential(ROUTE_PACKS, 600, seed=11, workers=1)
+    assert not report.failures, report.failures
+    for corner in ("3+ hand-overs", "an item referred to a group that has left the list",
+                   "an item referred to the current LRBG's predecessor",
+                   "a group rejected after a hand-over", "a group passed unseen"):
+        assert report.corners.get(corner, 0) >= 5, (corner, report.corners.get(corner))
 
 
 def test_simulator_and_encoding_agree_on_a_quick_sample():

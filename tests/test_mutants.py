@@ -100,8 +100,11 @@ def test_shipped_packs_kill_at_least_90_percent():
     # README's test command (pytest -m thorough); test_the_test_pack_kills_at_least_90_percent
     # keeps a mutation analysis in every run
     """Every shipped pack except the demos (whose designs are wrong on purpose, so their rules
-    are violated before any mutation) must together kill 90 % of the non-equivalent mutants."""
+    are violated before any mutation) must together kill 90 % of the non-equivalent mutants.
+    route.toml is left out for its cost (445 CPU s alone, measured 5 December 2026, against about
+    600 for all the others): its design is the default one the other packs analyse, and the
+    mutants of its own part (the list and the re-referral) are refuted in tests/test_route.py."""
     paths = sorted(p for p in glob.glob(str(ROOT / "rules" / "**" / "*.toml"), recursive=True)
-                   if "/demo/" not in p)
+                   if "/demo/" not in p and not p.endswith("/route.toml"))
     rep = run_catalogue([load_pack(p) for p in paths], timeout=20, jobs=2)
     assert rep.ratio() >= 0.90, [r.mutant.describe() for r in rep.survivors()]

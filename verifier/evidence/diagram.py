@@ -526,7 +526,7 @@ def _legend(out, uid, y, other: bool = False, items: bool = False, unlisted: boo
     ]
     if other:
         shapes += [("other", "the other group; dashed: its nominal direction" if not unlisted else
-                    "another group in the onboard's list; dashed: its nominal direction")]
+                    "a group in the onboard's list; dashed: its direction")]
     if unlisted:
         shapes += [("unlisted", "a group not in the onboard's list (left it, rejected, unseen)")]
     if items:

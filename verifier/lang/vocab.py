@@ -355,8 +355,13 @@ def markdown() -> str:
              "truth that equipment cannot know.", "",
              "## Names of one world", "", "| name | type | readers | meaning |", "|---|---|---|---|"]
     for e in GLOBAL.values():
+        if groups_needed(e.name) >= 3:
+            continue        # G3 .. G8 have G2's names under their own prefix (below)
         lines.append(f"| `{e.name}` | {e.ty} | {readers(e)} | {e.meaning} |")
-    lines += ["", "## Per leg", "",
+    lines += ["", "A route of N groups (`[world] groups = N`, DESIGN 4.10) has every `g2.*` name above for",
+              "each later group as `g3.*` .. `gN.*`: `gK.distance` from G(K-1)'s mark, `gK.side` equal",
+              "to `g2.side`, the rest as for G2.",
+              "", "## Per leg", "",
               "Read as `leg.FIELD` inside `all/any/count/sum(leg in legs: ...)` (any variable name),",
               "or as `legs[i].FIELD` (i from 1; implies `legs.count >= i`).", "",
               "| field | type | readers | meaning |", "|---|---|---|---|"]
@@ -367,7 +372,8 @@ def markdown() -> str:
               "`params.NAME` from `[params]`; `world.balises.low/high`, `world.locacc.low/high`,",
               "`world.train_length.low/high`, `world.antenna.low/high`, `world.leg_distance.low/high`,",
               "`world.odometry_over.fixed/rate`, `world.odometry_under.fixed/rate`, `world.detection`;",
-              "with two groups also `world.g2_distance.low/high`, `world.g2_locacc.low/high`.",
+              "with two groups or more also `world.gK_distance.low/high`, `world.gK_locacc.low/high` for",
+              "each later group K and `world.history`.",
               "", "## Trackside information items", "",
               "Per `[[info]]` item, as `info.ID.FIELD` (DESIGN 4.9); inside `[onboard] info_accepted`",
               "and `info_position` the item is `item.FIELD` (its data fields).", "",
@@ -380,7 +386,7 @@ def markdown() -> str:
     for k, v in DEFAULT_INFO_ONE.items():
         lines.append(f"| `[onboard] {k}` (one group) | `{v}` |")
     for k, v in DEFAULT_INFO_TWO.items():
-        lines.append(f"| `[onboard] {k}` (two groups) | `{v}` |")
+        lines.append(f"| `[onboard] {k}` (two groups or more) | `{v}` |")
     for k, v in DEFAULT_TRACKSIDE.items():
         lines.append(f"| `[trackside] {k}` | `{v}` |")
     return "\n".join(lines) + "\n"

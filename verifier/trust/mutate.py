@@ -179,6 +179,9 @@ def _mutations(text: str, node: ast.Node, readers: str, on_top: str = "") -> lis
                 out.append(("change a comparison", span(n), new[n.start:n.end + len(new) - len(text)], new))
         elif isinstance(n, ast.IfThen):
             replace(n, f"if {span(n.cond)} then {span(n.orelse)} else {span(n.then)}", "swap if branches")
+        elif isinstance(n, ast.Name) and n.ref == ("item", "remembered"):
+            # the onboard's list of LRBGs ignored: information of any group used (DESIGN 4.10)
+            replace(n, "true", "ignore the onboard's list")
         elif isinstance(n, ast.Name) and n.ref and n.ref[0] == "var":
             name = n.ref[1]
             for a, b, op in SWAPS:
