@@ -21,7 +21,7 @@ def test_demo_counterexamples_regenerate_byte_for_byte(tmp_path, monkeypatch):
     assert main(["check", "rules/demo", "--out", str(out2)]) == 1
     first, second = _files(out1), _files(out2)
     assert first == second
-    demos = ("kestrel-quay", "marrow-vale-approach")
+    demos = ("kestrel-quay", "marrow-vale-approach", "marrow-vale-route")
     committed = {k: v for d in demos for k, v in
                  ((f"{d}/{n}", b) for n, b in _files(ROOT / "counterexamples" / d).items())}
     assert {k.split("/", 1)[0] for k in first} == set(demos), "every demo pack leaves evidence"

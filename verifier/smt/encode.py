@@ -652,7 +652,6 @@ class Encoding(Terms):
         if Gs:
             self._marks(Gs)
         st = self._first(S)
-        self._passage_bound(S)
         phys = []
         for i in range(1, bound + 1):
             cab, fwd = self.boolean(f"legs.{i}.cab_change"), self.boolean(f"legs.{i}.forward")
@@ -663,10 +662,11 @@ class Encoding(Terms):
             # an inactive leg is fixed, so that models (and minimal worlds) are canonical
             self.constraints.append(z3.Implies(z3.Not(active), z3.And(z3.Not(cab), fwd, dist == 0, odo == 0)))
             phys.append((cab, fwd, dist, odo))
-        if not Gs:
-            for i, leg in enumerate(phys, 1):
-                st, fields = self._step(S, st, leg, active=count >= i, index=self.ival(i), tag=str(i))
+            if not Gs:      # one group: each leg as it comes (the constraints in the order they always had)
+                st, fields = self._step(S, st, phys[-1], active=active, index=self.ival(i), tag=str(i))
                 self.legs.append(fields)
+        self._passage_bound(S)
+        if not Gs:
             self._names(S, st, count)
             self._group_names(S, [], count)
             return
