@@ -71,7 +71,7 @@ def test_simulator_and_encoding_agree_on_routes_across_hand_overs():
     # DESIGN 4.10 in both implementations: worlds of the route packs with three hand-overs and
     # more, an item referred to a group that has just left the onboard's list and one referred
     # to the current LRBG's predecessor, each value of each world compared
-    report = run_differential(ROUTE_PACKS, 600, seed=11, workers=1)
+    report = run_differential(ROUTE_PACKS, 300, seed=11, workers=1)
     assert not report.failures, report.failures
     for corner in ("3+ hand-overs", "an item referred to a group that has left the list",
                    "an item referred to the current LRBG's predecessor",

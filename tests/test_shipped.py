@@ -36,6 +36,7 @@ def test_every_pack_has_its_minimum_of_rules(results):
     assert len(results["position-report"]) >= 12
     assert len(results["confidence-interval"]) >= 10
     assert len(results["relocation"]) >= 10
+    assert len(results["route"]) >= 10
 
 
 # Rules the shipped packs prove for up to their base bound only, each with the reason in its
@@ -43,7 +44,7 @@ def test_every_pack_has_its_minimum_of_rules(results):
 NOT_FOR_ANY_NUMBER = {("confidence-interval", "automatic-step-stays-in-range")}
 
 
-@pytest.mark.parametrize("pack", ["position-report", "confidence-interval", "fixed-scale", "relocation"])
+@pytest.mark.parametrize("pack", ["position-report", "confidence-interval", "fixed-scale", "relocation", "route"])
 def test_assessed_designs_are_proved(results, pack):
     bad = {rid: (r.verdict, r.message) for rid, r in results[pack].items()
            if r.verdict != "holds" and (pack, rid) not in NOT_FOR_ANY_NUMBER}
@@ -94,11 +95,21 @@ DEMO_TWO_GROUPS_EXPECTED = {
 }
 
 
+DEMO_ROUTE_EXPECTED = {
+    "mv14-takes-over": "holds",                       # the hand-overs themselves are right
+    "forgotten-group-not-used": "holds",              # the default acceptance asks for the list
+    "speed-board-placed-where-it-is": "violated",     # the last hop only, when MV-12 was skipped
+    "speed-board-not-passed-unseen": "violated",      # its safety consequence
+}
+
+
 def test_demo_mistakes_are_refuted(results):
     got = {rid: r.verdict for rid, r in results["kestrel-quay"].items()}
     assert got == DEMO_EXPECTED
     got = {rid: r.verdict for rid, r in results["marrow-vale-approach"].items()}
     assert got == DEMO_TWO_GROUPS_EXPECTED
+    got = {rid: r.verdict for rid, r in results["marrow-vale-route"].items()}
+    assert got == DEMO_ROUTE_EXPECTED
 
 
 def test_every_shipped_rule_cites_a_source_and_a_caught_mistake():
