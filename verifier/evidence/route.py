@@ -10,7 +10,7 @@ from fractions import Fraction
 
 import attrs
 
-from verifier.world.sim import State, known, marks, sign
+from verifier.world.sim import State, marks, sign
 
 ORDINALS = ("first", "second", "third", "fourth", "fifth", "sixth", "seventh", "eighth")
 
@@ -50,8 +50,7 @@ def arrivals(st: State) -> list:
     for k, g in enumerate(w.route, 2):
         # groups take over in route order, so the LRBG when GK comes is the last one before it
         cur = [s for s in h.stages if s.group < k][-1]
-        linking = (g.linked and known(w) and known(cur.world)
-                   and (cur.group == 1 or w.route[cur.group - 2].linked))
+        linking = h.links[k - 2]
         accepted = h.lrbgs[k - 2]
         if not g.found:
             out.append(Arrival(k, False, 0, cur.group, linking, False, "", (), (), _unseen(st, k)))

@@ -245,6 +245,7 @@ class Handover:
     windows: tuple = ()           # per later group G2 .. GN: found inside its expectation window
     lrbgs: tuple = ()             # per later group: became the LRBG
     history: tuple = (1,)         # the onboard's list of LRBGs, oldest first
+    links: tuple = ()             # per later group: linking usable for it from the LRBG of its time
 
     @property
     def group(self) -> int:
@@ -281,8 +282,13 @@ def handover(world: World, scope: Scope) -> Handover:
     stages = [Stage(1, world)]
     windows, lrbgs = [], []
     known1 = known(world)
+    links = []
     for k, g in enumerate(world.route, 2):
         cur = stages[-1]
+        # linking is usable for GK from the current LRBG (DESIGN 4.10)
+        linking = (g.linked and known1 and known(cur.world)
+                   and (cur.group == 1 or world.route[cur.group - 2].linked))
+        links.append(linking)
         local = g.at - cur.start
         if not g.found or not 1 <= local <= len(cur.world.legs):
             windows.append(False)
@@ -293,8 +299,6 @@ def handover(world: World, scope: Scope) -> Handover:
             snap, _ = advance(snap, leg)
         e = cur.frame * (xs[k - 1] - cur.origin)       # GK's engineered mark in the current frame
         way = 1 if e > 0 else -1                        # from the current LRBG towards GK
-        linking = (g.linked and known1 and known(cur.world)
-                   and (cur.group == 1 or world.route[cur.group - 2].linked))
         in_window, prv, frame = False, False, sign(g.orientation)
         if linking:
             est_front = sign(cur.world.direction) * snap.est_front_passage
@@ -328,7 +332,7 @@ def handover(world: World, scope: Scope) -> Handover:
     history = tuple(st.group for st in stages)[-scope.history:]
     last = stages[-1]
     return Handover(bool(windows and windows[0]), len(stages) > 1, last.world, last.frame,
-                    tuple(stages), tuple(windows), tuple(lrbgs), history)
+                    tuple(stages), tuple(windows), tuple(lrbgs), history, tuple(links))
 
 
 def _bound_over(scope: Scope, measured: Fraction) -> Fraction:
