@@ -59,7 +59,7 @@ DEFAULTS = _pack("defaults", "groups = 3", "", _item("far", 3, "100 m", "both"),
 PACKS = [SHORT_LIST, REVERSE_ROUTE, DEFAULTS]
 
 
-def _draws(pack, n: int = 200) -> list:
+def _draws(pack, n: int = 150) -> list:
     """``n`` worlds of ``pack`` as the strategy draws them (reproducible: derandomized)."""
     out = []
 

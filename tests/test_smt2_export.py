@@ -93,6 +93,8 @@ def test_every_catalogue_obligation_reads_in_cvc5():
     from verifier.trust.differential import catalogue
     count = 0
     for path in catalogue((ROOT / "rules", ROOT / "tests" / "packs")):
+        if Path(path).name.startswith("route-"):
+            continue    # route.toml exports every construct of a route; these two add only size
         pack = load_pack(path)
         for rule in pack.rules:
             for kind, text in obligations(pack, rule, pack.bound_for(rule)).items():
