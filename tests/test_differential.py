@@ -5,7 +5,7 @@ corners); the packs are the shipped catalogue (rules/) and the test catalogue (t
 For each world every vocabulary name, every per-leg field, every ``let`` and every rule's given
 and expect must have the same value in both implementations.
 
-How many worlds: the validation profile (``VERIFIER_PROFILE``, default ``ci`` = 20,000 worlds on
+How many worlds: the validation profile (``VERIFIER_PROFILE``, default ``ci`` = 15,000 worlds on
 2 worker processes; ``thorough`` = 100,000, see docs/validation.md).
 """
 
@@ -45,7 +45,7 @@ def test_catalogue_has_the_test_packs():
 
 @pytest.mark.thorough
 def test_simulator_and_encoding_agree_on_generated_worlds(record_property):
-    # the validation profile's sweep (ci: 20,000 worlds, every corner hit): .ci/run runs it
+    # the validation profile's sweep (ci: 15,000 worlds, every corner hit): .ci/run runs it
     # after the README's test command (pytest -m thorough)
     prof = profile()
     paths = catalogue((ROOT / "rules", PACKS))

@@ -36,7 +36,7 @@ def test_small_selftest_writes_the_dossier(tmp_path):
 
 def test_default_plan_uses_the_profile():
     plan = selftest.default_plan(ROOT, "ci")
-    assert plan.worlds == 20_000 and plan.fuzz == 10_000
+    assert plan.worlds == 15_000 and plan.fuzz == 10_000
     assert any(p.endswith("diff-basic.toml") for p in plan.catalogue)
     assert not any("/demo/" in p for p in plan.mutant_packs)
     assert selftest.default_plan(ROOT, "thorough").worlds == 100_000
