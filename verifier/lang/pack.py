@@ -43,7 +43,7 @@ TABLES = {
     "info": {"id", "title", "group", "at", "valid"},
     "group": {"number", "title", "distance", "orientation", "balises", "locacc"},
 }
-MAX_GROUPS = 8          # N_PIG/N_TOTAL code eight balises; the route's groups are capped alike
+MAX_GROUPS = 8          # a route, and the onboard's list of LRBGs: eight (from memory, DESIGN 4.10)
 
 
 @attrs.frozen
@@ -284,46 +284,58 @@ def _load_second_group(c: _Collector, table: dict, kw: dict) -> None:
         for k in g2_keys:
             c.at(("world", k), f"world.{k} describes the second group: set world.groups = 2")
         return
-    for name, low in (("g2_distance", F0), ("g2_locacc", F0)):
-        if name not in table:
+    given = {f: (("world", f"g2_{f}"), table[f"g2_{f}"]) for f in _GROUP_FIELDS if f"g2_{f}" in table}
+    kw.update({f"g2_{f}": v for f, v in _group_fields(c, given, lambda f: f"world.g2_{f}", ranges_only=True).items()})
+    if "g2_side" in table:
+        v, words = table["g2_side"], ("nominal", "reverse", "any")
+        if v not in words:
+            c.at(("world", "g2_side"), f"world.g2_side must be one of {', '.join(words)}, got {v!r}"
+                 + (suggest(v, words) if isinstance(v, str) else ""))
+        else:
+            kw["g2_side"] = v
+
+
+_ORIENTATIONS = ("same", "opposite", "any")
+_GROUP_FIELDS = ("distance", "orientation", "balises", "locacc")
+
+
+def _group_fields(c: _Collector, given: dict, what, ranges_only: bool) -> dict:
+    """The checked scope of one later group (DESIGN 4.8, 4.10): ``given`` maps a field of
+    :data:`_GROUP_FIELDS` to (its key, its value); ``what(field)`` names it in messages. A range
+    is ``[low, high]``; a ``[[group]]`` table (``ranges_only`` false) may give one value too."""
+    out = {}
+    for field, (key, v) in given.items():
+        name = what(field)
+        if field == "orientation":
+            if v not in _ORIENTATIONS:
+                c.at(key, f"{name} must be one of {', '.join(_ORIENTATIONS)}, got {v!r}"
+                     + (suggest(v, _ORIENTATIONS) if isinstance(v, str) else ""))
+            else:
+                out[field] = v
             continue
-        key, value = ("world", name), table[name]
-        if not (isinstance(value, list) and len(value) == 2):
-            c.at(key, f"world.{name} must be a range [low, high]")
+        pair = v if isinstance(v, list) else None if ranges_only else [v, v]
+        if pair is None or len(pair) != 2:
+            c.at(key, f"{name} must be " + ("a range [low, high]" if ranges_only else "a value or a range [low, high]"))
             continue
-        lo = _length(c, key, value[0], what=f"world.{name} low")
-        hi = _length(c, key, value[1], what=f"world.{name} high")
+        if field == "balises":
+            if not (all(isinstance(x, int) and not isinstance(x, bool) for x in pair) and 1 <= pair[0] <= pair[1] <= 8):
+                c.at(key, f"{name} must lie within 1..8 (SUBSET-026 7.5.1.82), got {v!r}")
+            else:
+                out[field] = tuple(pair)
+            continue
+        lo = _length(c, key, pair[0], what=f"{name} low")
+        hi = _length(c, key, pair[1], what=f"{name} high")
         if lo is None or hi is None:
             continue
-        if lo > hi or lo < low:
-            c.at(key, f"world.{name} must be a range of lengths from 0 m up, low not above high")
-            continue
-        if name == "g2_locacc" and (lo.denominator != 1 or hi.denominator != 1 or hi > 63):
-            c.at(key, "world.g2_locacc must be whole metres within 0..63 m (Q_LOCACC, SUBSET-026 7.5.1.115)")
-            continue
-        if name == "g2_distance" and lo <= 0:
-            c.at(key, "world.g2_distance must be above 0 m (the two groups are distinct)")
-            continue
-        kw[name] = (lo, hi)
-    if "g2_balises" in table:
-        v = table["g2_balises"]
-        if not (isinstance(v, list) and len(v) == 2 and all(isinstance(x, int) and not isinstance(x, bool) for x in v)
-                and 1 <= v[0] <= v[1] <= 8):
-            c.at(("world", "g2_balises"), f"world.g2_balises must lie within 1..8 (SUBSET-026 7.5.1.82), got {v!r}")
+        if lo > hi or lo < 0:
+            c.at(key, f"{name} must be a range of lengths from 0 m up, low not above high")
+        elif field == "locacc" and (lo.denominator != 1 or hi.denominator != 1 or hi > 63):
+            c.at(key, f"{name} must be whole metres within 0..63 m (Q_LOCACC, SUBSET-026 7.5.1.115)")
+        elif field == "distance" and lo <= 0:
+            c.at(key, f"{name} must be above 0 m (the groups are distinct)")
         else:
-            kw["g2_balises"] = tuple(v)
-    for name, words in (("g2_side", ("nominal", "reverse", "any")), ("g2_orientation", ("same", "opposite", "any"))):
-        if name in table:
-            v = table[name]
-            if v not in words:
-                c.at(("world", name), f"world.{name} must be one of {', '.join(words)}, got {v!r}"
-                     + (suggest(v, words) if isinstance(v, str) else ""))
-            else:
-                kw[name] = v
-
-
-F0 = Fraction(0)
-_ORIENTATIONS = ("same", "opposite", "any")
+            out[field] = (lo, hi)
+    return out
 
 
 def _load_route(c: _Collector, table: dict, raw, kw: dict) -> None:
@@ -331,8 +343,8 @@ def _load_route(c: _Collector, table: dict, raw, kw: dict) -> None:
     groups = kw.get("groups", 1)
     if "history" in table:
         h = table["history"]
-        if isinstance(h, bool) or not isinstance(h, int) or not 1 <= h <= 8:
-            c.at(("world", "history"), f"world.history must be a whole number 1..8 (the onboard's list of LRBGs), got {h!r}")
+        if isinstance(h, bool) or not isinstance(h, int) or not 1 <= h <= MAX_GROUPS:
+            c.at(("world", "history"), f"world.history must be a whole number 1..{MAX_GROUPS} (the onboard's list of LRBGs), got {h!r}")
         elif groups == 1:
             c.at(("world", "history"), "world.history is the onboard's list of LRBGs: set world.groups to 2 or more")
         else:
@@ -358,44 +370,13 @@ def _load_route(c: _Collector, table: dict, raw, kw: dict) -> None:
             c.at(base + ("number",), f"group {n} is described twice")
             continue
         seen.add(n)
-        if "title" in t and (not isinstance(t["title"], str) or not _plain(c, base + ("title",), t["title"], "the group title")):
+        if "title" in t:
             if not isinstance(t["title"], str):
                 c.at(base + ("title",), "group title must be a string")
-        fields = {}
-        for name, low, whole in (("distance", F0, False), ("locacc", F0, True)):
-            if name not in t:
-                continue
-            v = t[name]
-            pair = v if isinstance(v, list) else [v, v]
-            if len(pair) != 2:
-                c.at(base + (name,), f"group {name} must be a length or a range [low, high]")
-                continue
-            lo = _length(c, base + (name,), pair[0], what=f"group {n} {name}")
-            hi = _length(c, base + (name,), pair[1], what=f"group {n} {name}")
-            if lo is None or hi is None:
-                continue
-            if lo > hi or lo < 0 or (name == "distance" and lo <= 0):
-                c.at(base + (name,), f"group {n} {name} must be {'above' if name == 'distance' else 'at least'} 0 m, low not above high")
-                continue
-            if whole and (lo.denominator != 1 or hi.denominator != 1 or hi > 63):
-                c.at(base + (name,), f"group {n} locacc must be whole metres within 0..63 m (Q_LOCACC, SUBSET-026 7.5.1.115)")
-                continue
-            fields[name] = (lo, hi)
-        if "balises" in t:
-            v = t["balises"]
-            pair = v if isinstance(v, list) else [v, v]
-            if not (len(pair) == 2 and all(isinstance(x, int) and not isinstance(x, bool) for x in pair)
-                    and 1 <= pair[0] <= pair[1] <= 8):
-                c.at(base + ("balises",), f"group {n} balises must lie within 1..8 (SUBSET-026 7.5.1.82), got {v!r}")
             else:
-                fields["balises"] = tuple(pair)
-        if "orientation" in t:
-            v = t["orientation"]
-            if v not in _ORIENTATIONS:
-                c.at(base + ("orientation",), f"group {n} orientation must be one of {', '.join(_ORIENTATIONS)}, got {v!r}"
-                     + (suggest(v, _ORIENTATIONS) if isinstance(v, str) else ""))
-            else:
-                fields["orientation"] = v
+                _plain(c, base + ("title",), t["title"], "the group title")
+        given = {f: (base + (f,), t[f]) for f in _GROUP_FIELDS if f in t}
+        fields = _group_fields(c, given, lambda f, n=n: f"group {n} {f}", ranges_only=False)
         if n == 2:
             for name, v in fields.items():
                 if f"g2_{name}" in table:

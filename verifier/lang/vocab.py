@@ -191,8 +191,6 @@ def groups_needed(name: str) -> int:
 #: Names the model gained with routes (DESIGN 4.10): a two-group file written before lacks them.
 ADDED_WITH_ROUTE = _ROUTE | frozenset(n for n in GLOBAL if n.endswith((".remembered", ".link_position")))
 
-#: Names only a pack with [world] groups = 2 or more may use.
-TWO_GROUPS = frozenset(n for n in GLOBAL if groups_needed(n) >= 2)
 def entry(name: str) -> Entry:
     """The Entry of a name as the checker records reads: vocabulary names, ``leg.F``,
     ``item.F`` (an info formula's item) and ``info.*.F`` (an information item's field)."""
