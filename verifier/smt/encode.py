@@ -685,11 +685,9 @@ class Encoding(Terms):
         win_at = {k: [] for k in range(2, len(Gs) + 2)}
         qlegs, fields_by_leg = [], []
         for i, leg in enumerate(phys, 1):
-            cab, fwd, dist, odo = leg
-            active = count >= i
-            S = cur["S"]
-            st, fields = self._step(S, st, leg, active=active, index=self.ival(i) - cur["start"], tag=str(i))
-            fields_by_leg.append((fields, cur["start"]))
+            fwd = leg[1]
+            st, fields = self._step(cur["S"], st, leg, active=count >= i, index=self.ival(i) - cur["start"], tag=str(i))
+            fields_by_leg.append(fields)
             # the real train in G1's frame, from the current LRBG's (one computation of the truth)
             real = {"front": cur["origin"] + self.along(cur["frame"], st["front"]),
                     "o": self.along(cur["frame"], st["o"]), "motion": self.along(cur["frame"], st["motion"])}
@@ -701,13 +699,8 @@ class Encoding(Terms):
                 ok, window, S_k = self._judge(k, G, cur, st, fwd, i)
                 acc_at[k].append(z3.And(here, ok))
                 win_at[k].append(z3.And(here, window))
-                events.append((z3.And(here, ok), k, G, S_k))
-            if i == K:
-                break     # nothing after the last leg: no restart needed
+                events.append((z3.And(here, ok), k, S_k))
             cur, st = self._restart(cur, st, events, i)
-        # the final hand-over (at the last leg) still changes the current LRBG
-        if phys:
-            cur, st = self._restart(cur, st, events, len(phys), last=True)
         for k, G in enumerate(Gs, 2):
             self.constraints.append(G["lrbg"] == (z3.Or(acc_at[k]) if acc_at[k] else z3.BoolVal(False, ctx)))
             G["in_window"] = self.define(f"g{k}.in_window", z3.Or(win_at[k]) if win_at[k] else z3.BoolVal(False, ctx), "bool")
@@ -715,7 +708,7 @@ class Encoding(Terms):
         count2 = self.define("legs.count@current", count - start, "int")
         # the legs since the current LRBG: quantifiers read the physical legs after its detection,
         # legs[j] (and the per-leg values) the j-th of them
-        for i, (fields, _) in enumerate(fields_by_leg, 1):
+        for i, fields in enumerate(fields_by_leg, 1):
             q = dict(fields)
             q["active"] = z3.And(count >= i, start < i)
             q["index"] = self.ival(i) - start
@@ -724,10 +717,10 @@ class Encoding(Terms):
         self.legs = []
         for j in range(1, K + 1):
             sel = {}
-            for f in fields_by_leg[0][0]:
+            for f in fields_by_leg[0]:
                 chosen = None
                 for i in range(K, j - 1, -1):
-                    v = fields_by_leg[i - 1][0][f]
+                    v = fields_by_leg[i - 1][f]
                     chosen = v if chosen is None else z3.If(start + j == i, v, chosen)
                 sel[f] = chosen
             sel["active"] = count2 >= j
@@ -786,24 +779,24 @@ class Encoding(Terms):
                 "lrbg.offset", "train.length", "train.antenna", "passage.direction",
                 "passage.running", "passage.detect_error")
 
-    def _restart(self, cur: dict, st: dict, events: list, i: int, last: bool = False) -> tuple:
+    def _restart(self, cur: dict, st: dict, events: list, i: int) -> tuple:
         """After leg ``i``: the current LRBG and the state, restarted at the detection of the group
         that became the LRBG there (at most one group is found at a leg)."""
         S = cur["S"]
         reset = z3.Or([ok for ok, *_ in events]) if events else z3.BoolVal(False, self.ctx)
         new = {key: S.get(key, self.ival(1)) for key in self._PASSAGE}
         frame, origin, group, linked = cur["frame"], cur["origin"], cur["group"], cur["linked"]
-        for ok, k, G, S_k in reversed(events):
+        for ok, k, S_k in reversed(events):
             new = {key: z3.If(ok, S_k[key], new[key]) for key in self._PASSAGE}
             frame = z3.If(ok, S_k["frame"], frame)
             origin = z3.If(ok, S_k["origin"], origin)
             group = z3.If(ok, k, group)
             linked = z3.If(ok, S_k["linked_k"], linked)
-        nxt = {"S": None, "start": z3.If(reset, self.ival(i), cur["start"]),
+        nxt = {"start": z3.If(reset, self.ival(i), cur["start"]),
                "origin": self.define(f"lrbg.origin@{i}", origin), "frame": self.define(f"lrbg.frame@{i}", frame, "int"),
                "group": self.define(f"lrbg.group@{i}", group, "int"),
                "previous": z3.If(reset, cur["group"], cur["previous"]), "linked": linked}
-        S2 = {key: self.define(f"{key}@{i}", v, "bool" if key in ("lrbg.linked", "prv", "passage.running")
+        nxt["S"] = S2 = {key: self.define(f"{key}@{i}", v, "bool" if key in ("lrbg.linked", "prv", "passage.running")
                                else "int" if key in ("lrbg.balises", "lrbg.read", "prv_group", "passage.direction")
                                else "real") for key, v in new.items()}
         if self.world.detection_in_odometry:    # the reading bound at the new LRBG's passage
@@ -811,14 +804,6 @@ class Encoding(Terms):
             self.bounded("world.odometry_over", z3.Implies(reset, self.pos(-det) <= self.num(self.world.odometry_over.fixed)))
             self.bounded("world.odometry_under", z3.Implies(reset, self.pos(det) <= self.num(self.world.odometry_under.fixed)))
         first = self._first(S2, tag=f"r{i}")
-        nxt["S"] = S2
-        if last:
-            st = {key: (z3.If(reset, first[key], st[key]) if key in ("o", "op", "motion", "front", "est_p", "over",
-                                                                       "under", "measured", "basis") else st[key])
-                  for key in st}
-            st["cabs"] = [z3.If(reset, 0, z3.Sum(st["cabs"]) if st["cabs"] else 0)]
-            st["travelled"] = [z3.If(reset, self.num(0), z3.Sum(st["travelled"]) if st["travelled"] else self.num(0))]
-            return nxt, st
         merged = dict(st)
         for key in ("o", "op", "motion", "front", "est_p", "over", "under", "measured", "basis"):
             merged[key] = z3.If(reset, first[key], st[key])

@@ -235,25 +235,37 @@ class Stage:
 
 @attrs.frozen
 class Handover:
-    """What the route's later groups do to a world (DESIGN 4.8, 4.10)."""
+    """What the route's later groups do to a world (DESIGN 4.8, 4.10): every LRBG of the journey
+    (G1 first) and, per later group G2 .. GN, what became of it."""
 
-    in_window: bool               # a linked G2 was found inside its expectation window
-    accepted: bool                # a later group became the LRBG (the current LRBG is not G1)
-    current: World                # the world as the current LRBG sees it: its passage and the legs after it
-    frame: int = 1                # sign of the current LRBG frame's nominal direction in G1's frame
-    stages: tuple = ()            # every LRBG of the journey, G1 first (Stage)
-    windows: tuple = ()           # per later group G2 .. GN: found inside its expectation window
+    stages: tuple                 # every LRBG of the journey, G1 first (Stage)
+    windows: tuple = ()           # per later group: found inside its expectation window
     lrbgs: tuple = ()             # per later group: became the LRBG
     history: tuple = (1,)         # the onboard's list of LRBGs, oldest first
     links: tuple = ()             # per later group: linking usable for it from the LRBG of its time
 
     @property
+    def accepted(self) -> bool:
+        """A later group became the LRBG (the current LRBG is not G1)."""
+        return len(self.stages) > 1
+
+    @property
+    def current(self) -> World:
+        """The world as the current LRBG sees it: its passage and the legs after it."""
+        return self.stages[-1].world
+
+    @property
+    def frame(self) -> int:
+        """The sign of the current LRBG frame's nominal direction in G1's frame."""
+        return self.stages[-1].frame
+
+    @property
     def group(self) -> int:
-        return self.stages[-1].group if self.stages else 1
+        return self.stages[-1].group
 
     @property
     def origin(self) -> Fraction:
-        return self.stages[-1].origin if self.stages else F(0)
+        return self.stages[-1].origin
 
     @property
     def previous(self) -> int:
@@ -330,9 +342,7 @@ def handover(world: World, scope: Scope) -> Handover:
                      prv_group=cur.group)
         stages.append(Stage(k, view, xs[k - 1], frame, g.at))
     history = tuple(st.group for st in stages)[-scope.history:]
-    last = stages[-1]
-    return Handover(bool(windows and windows[0]), len(stages) > 1, last.world, last.frame,
-                    tuple(stages), tuple(windows), tuple(lrbgs), history, tuple(links))
+    return Handover(tuple(stages), tuple(windows), tuple(lrbgs), history, tuple(links))
 
 
 def _bound_over(scope: Scope, measured: Fraction) -> Fraction:
@@ -697,7 +707,7 @@ class _Values:
         w = self.world
         if not w.route:
             return o * item.at if item.for_nominal and item.for_reverse else item.location
-        h = getattr(self, "handover", None) or Handover(False, False, w, stages=(Stage(1, w),))
+        h = getattr(self, "handover", None) or Handover((Stage(1, w),))
         f, x0 = h.frame, h.origin                       # the current frame in G1's
         xa = marks(w)[item.group - 1]
         sa = 1 if item.group == 1 else sign(w.route[item.group - 2].orientation)
@@ -787,11 +797,6 @@ class State(_Values):
                         w.balises if k == 1 else w.route[k - 2].balises))
         return out
 
-    def other_group(self) -> tuple | None:
-        """The first group that is not the LRBG (see :meth:`other_groups`); None with one group."""
-        others = self.other_groups()
-        return others[0] if others else None
-
     def quantify(self, node: ast.Quant, env: dict):
         results = [evaluate(node.body, self, {**env, node.var: leg}) for leg in self.legs]
         return _combine(node.kind, results)
@@ -824,7 +829,7 @@ class SnapView(_Values):
         self.world = snap.world
         self.plan = plan
         self.values = snapshot_values(snap, pack.scope)
-        self.values.update(group_values(snap.world, Handover(False, False, snap.world)))
+        self.values.update(group_values(snap.world, Handover((Stage(1, snap.world),))))
         self.values["journey.legs"] = F(snap.count)
         if static_only:
             self.values = {k: v for k, v in self.values.items() if k in STATIC}
