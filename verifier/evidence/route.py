@@ -45,7 +45,6 @@ def is_route(st) -> bool:
 def arrivals(st: State) -> list:
     """Every later group G2 .. GN in route order (see :class:`Arrival`)."""
     w, h = st.world, st.handover
-    raw = st.journey_raw()
     out = []
     for k, g in enumerate(w.route, 2):
         # groups take over in route order, so the LRBG when GK comes is the last one before it
@@ -55,15 +54,15 @@ def arrivals(st: State) -> list:
         if not g.found:
             out.append(Arrival(k, False, 0, cur.group, linking, False, "", (), (), _unseen(st, k)))
             continue
-        if not cur.start < g.at <= len(raw):      # outside the scope: the simulator ignores it
+        if not cur.start < g.at <= len(w.legs):      # outside the scope: the simulator ignores it
             out.append(Arrival(k, True, g.at, cur.group, linking, False, "order"))
             continue
-        towards = _moving_towards(st, raw, cur, k, g.at)
         if accepted:
             idx = next(i for i, s in enumerate(h.stages) if s.group == k)
             lists = [tuple(s.group for s in h.stages[:j + 1])[-st.pack.scope.history:]
                      for j in (idx - 1, idx)]
-            how = ("window" if linking else "move" if g.balises == 1 and towards
+            # a single balise referred to the move is the simulator's own record (Stage.world.prv)
+            how = ("window" if linking else "move" if h.stages[idx].world.prv
                    else "unknown" if g.balises == 1 else "two balises")
             left = tuple(x for x in lists[0] if x not in lists[1])
             out.append(Arrival(k, True, g.at, cur.group, linking, True, how, lists[1], left))
@@ -72,13 +71,6 @@ def arrivals(st: State) -> list:
                    else "one balise")
             out.append(Arrival(k, True, g.at, cur.group, linking, False, how))
     return out
-
-
-def _moving_towards(st: State, raw: list, cur, k: int, at: int) -> bool:
-    """Whether the last leg onto GK moved from the LRBG ``cur`` towards GK (in ``cur``'s frame,
-    the frame ``journey_raw`` gives that leg in)."""
-    e = cur.frame * (marks(st.world)[k - 1] - cur.origin)
-    return sign(raw[at - 1][1]["actual_motion"]) == (1 if e > 0 else -1)
 
 
 def _unseen(st: State, k: int) -> int:

@@ -53,6 +53,7 @@ class Terms:
         self.constraints = constraints
         self.terms = {}          # vocabulary name -> term
         self.legs = []           # per leg: field -> term
+        self.qlegs = None        # a route's physical legs for quantifiers (else self.legs)
         self._memo: dict = {}
         self._fresh = 0
         self._wire_done = False
@@ -438,7 +439,7 @@ class Terms:
         items = []
         # a route's legs since the current LRBG are the physical legs after its detection, each
         # guarded by that (the order of the legs does not matter to a quantifier)
-        for leg in getattr(self, "qlegs", None) or self.legs:
+        for leg in self.qlegs or self.legs:
             items.append((leg["active"], e(node.body, {**env, node.var: leg})))
         if node.kind == "all":
             return z3.And([z3.Implies(a, b) for a, b in items]) if items else z3.BoolVal(True, self.ctx)
