@@ -102,10 +102,13 @@ def _m(x) -> str:
     return f"{fmt(x)} m"
 
 
-def scope_problems(world: World, scope: Scope, bound: int, design: Scope | None = None) -> list[str]:
+def scope_problems(world: World, scope: Scope, bound: int, design: Scope | None = None,
+                   journey: int | None = None) -> list[str]:
     """Why ``world`` is outside the scope (an empty list when it is inside). ``design``: the
     pack's own scope when ``scope`` is a real world with a bound moved (``verifier margin``):
-    the onboard's expectation window of a second group keeps the pack's bounds."""
+    the onboard's expectation window of a second group keeps the pack's bounds. ``journey``:
+    the inputs of a route's state (DESIGN 4.7) after that many legs, whose legs are not kept:
+    a group found at a leg up to it is not checked against the legs."""
     out = []
     lo, hi = scope.balises
     if not lo <= world.balises <= hi:
@@ -139,10 +142,12 @@ def scope_problems(world: World, scope: Scope, bound: int, design: Scope | None 
     # of G2 here, then from G2 on (the rest of the world as seen from G2, DESIGN 4.8)
     if world.route and len(world.route) == scope.groups - 1:
         for k in range(2, scope.groups + 1):
-            out += _group_problems(world, scope, k)
+            out += _group_problems(world, scope, k, journey)
         found = [(g.at, k) for k, g in enumerate(world.route, 2) if g.found]
         if [k for _, k in sorted(found)] != [k for _, k in found] or len({a for a, _ in found}) != len(found):
             out.append("the route's groups are found in their order, at different legs (DESIGN 4.10)")
+        if journey is not None:
+            return out + _reading_problems(world.detect_error, (), scope)
         h = handover(world, design or scope)
         if h.accepted:
             for i, stage in enumerate(h.stages):
@@ -177,8 +182,9 @@ def _reading_problems(d: Fraction, legs, scope: Scope) -> list[str]:
     return out
 
 
-def _group_problems(world: World, scope: Scope, k: int) -> list[str]:
-    """Why later group ``k`` is outside the scope (DESIGN 4.8, 4.10)."""
+def _group_problems(world: World, scope: Scope, k: int, journey: int | None = None) -> list[str]:
+    """Why later group ``k`` is outside the scope (DESIGN 4.8, 4.10); with ``journey``, of a
+    route's state after that many legs (see :func:`scope_problems`)."""
     g, out, gs, n = world.route[k - 2], [], scope.group(k), f"g{k}"
     lo, hi = gs.distance
     if not lo <= g.distance <= hi:
@@ -202,6 +208,10 @@ def _group_problems(world: World, scope: Scope, k: int) -> list[str]:
     if not g.found:
         if g.at != 0 or g.detect_error != 0:
             out.append(f"a group not found has {n}.at 0 and no detection error")
+        return out
+    if journey is not None:
+        if not 1 <= g.at <= journey:
+            out.append(f"{n}.at {g.at} is not a leg of the journey so far (1..{journey})")
         return out
     if not 1 <= g.at <= len(world.legs):
         out.append(f"{n}.at {g.at} is not a leg of the world")
@@ -290,59 +300,71 @@ def handover(world: World, scope: Scope) -> Handover:
     directions referred to the move from the current LRBG towards it (the report based on two
     groups, 3.4.2.3.3.1, 3.4.2.3.3.2), or unknown when the train finds it running the other way
     (3.4.2.3.3.4)."""
-    xs = marks(world)
     stages = [Stage(1, world)]
     windows, lrbgs = [], []
-    known1 = known(world)
     links = []
     for k, g in enumerate(world.route, 2):
         cur = stages[-1]
-        # linking is usable for GK from the current LRBG (DESIGN 4.10)
-        linking = (g.linked and known1 and known(cur.world)
-                   and (cur.group == 1 or world.route[cur.group - 2].linked))
-        links.append(linking)
         local = g.at - cur.start
         if not g.found or not 1 <= local <= len(cur.world.legs):
+            links.append(linking_usable(world, cur, g))
             windows.append(False)
             lrbgs.append(False)
             continue
         snap = start(cur.world)
         for leg in cur.world.legs[:local]:
             snap, _ = advance(snap, leg)
-        e = cur.frame * (xs[k - 1] - cur.origin)       # GK's engineered mark in the current frame
-        way = 1 if e > 0 else -1                        # from the current LRBG towards GK
-        in_window, prv, frame = False, False, sign(g.orientation)
-        if linking:
-            est_front = sign(cur.world.direction) * snap.est_front_passage
-            est_antenna = est_front - snap.orientation * world.antenna
-            u = way * est_antenna                       # estimated distance from the LRBG towards GK
-            lo = u - cur.world.locacc - _bound_over(scope, snap.measured)
-            hi = u + cur.world.locacc + _bound_under(scope, snap.measured)
-            in_window = hi >= abs(e) - g.locacc and lo <= abs(e) + g.locacc
-            accepted = in_window and snap.motion == way
-        elif g.balises == 1:
-            accepted = True
-            prv = snap.motion == way
-            if prv:
-                frame = cur.frame * way
-        else:
-            accepted = g.read >= 2
+        linking, in_window, view = judge(world, scope, k, cur, snap, cur.world.legs[local - 1])
+        links.append(linking)
         windows.append(in_window)
-        lrbgs.append(accepted)
-        if not accepted:
-            continue
-        leg = cur.world.legs[local - 1]
-        # the real mark's offset in the new LRBG's frame: its own orientation's, turned when the
-        # frame is the move towards it (a group referred to the previous LRBG)
-        view = World(balises=g.balises, read=g.read, linked=g.linked and (linking or g.balises > 1),
-                     locacc=g.locacc, offset=frame * sign(g.orientation) * g.offset,
-                     length=world.length, antenna=world.antenna,
-                     direction=direction_of(frame * cur.frame * snap.motion), running=leg.running,
-                     detect_error=g.detect_error, legs=cur.world.legs[local:], prv=prv,
-                     prv_group=cur.group)
-        stages.append(Stage(k, view, xs[k - 1], frame, g.at))
+        lrbgs.append(view is not None)
+        if view is not None:
+            stages.append(attrs.evolve(view, world=attrs.evolve(view.world, legs=cur.world.legs[local:]),
+                                       start=g.at))
     history = tuple(st.group for st in stages)[-scope.history:]
     return Handover(tuple(stages), tuple(windows), tuple(lrbgs), history, tuple(links))
+
+
+def linking_usable(world: World, cur: Stage, g: Group2) -> bool:
+    """Whether linking can be used for a later group from the current LRBG (DESIGN 4.10)."""
+    return (g.linked and known(world) and known(cur.world)
+            and (cur.group == 1 or world.route[cur.group - 2].linked))
+
+
+def judge(world: World, scope: Scope, k: int, cur: Stage, snap: Snapshot, leg: Leg) -> tuple:
+    """Group ``k`` of ``world``, found at the end of ``leg`` (``snap``: the state after it, as
+    ``cur``, the current LRBG, sees it): (linking usable, inside its window, the new Stage
+    when it becomes the LRBG, else None). The new stage's world has no legs and starts at 0."""
+    g = world.route[k - 2]
+    linking = linking_usable(world, cur, g)
+    e = cur.frame * (marks(world)[k - 1] - cur.origin)  # GK's engineered mark in the current frame
+    way = 1 if e > 0 else -1                        # from the current LRBG towards GK
+    in_window, prv, frame = False, False, sign(g.orientation)
+    if linking:
+        est_front = sign(cur.world.direction) * snap.est_front_passage
+        est_antenna = est_front - snap.orientation * world.antenna
+        u = way * est_antenna                       # estimated distance from the LRBG towards GK
+        lo = u - cur.world.locacc - _bound_over(scope, snap.measured)
+        hi = u + cur.world.locacc + _bound_under(scope, snap.measured)
+        in_window = hi >= abs(e) - g.locacc and lo <= abs(e) + g.locacc
+        accepted = in_window and snap.motion == way
+    elif g.balises == 1:
+        accepted = True
+        prv = snap.motion == way
+        if prv:
+            frame = cur.frame * way
+    else:
+        accepted = g.read >= 2
+    if not accepted:
+        return linking, in_window, None
+    # the real mark's offset in the new LRBG's frame: its own orientation's, turned when the
+    # frame is the move towards it (a group referred to the previous LRBG)
+    view = World(balises=g.balises, read=g.read, linked=g.linked and (linking or g.balises > 1),
+                 locacc=g.locacc, offset=frame * sign(g.orientation) * g.offset,
+                 length=world.length, antenna=world.antenna,
+                 direction=direction_of(frame * cur.frame * snap.motion), running=leg.running,
+                 detect_error=g.detect_error, prv=prv, prv_group=cur.group)
+    return linking, in_window, Stage(k, view, marks(world)[k - 1], frame, 0)
 
 
 def _bound_over(scope: Scope, measured: Fraction) -> Fraction:
@@ -375,6 +397,47 @@ class Snapshot:
     under: Fraction           # under-reading so far (under_j)
     accumulators: dict = attrs.field(factory=dict, hash=False)
     frozen: dict = attrs.field(factory=dict, hash=False)
+    route: "RouteState | None" = None   # a route's state beyond the current LRBG (DESIGN 4.10)
+
+
+@attrs.frozen
+class RouteState:
+    """What a state of a route carries beyond the current LRBG's own (DESIGN 4.7, 4.10): the
+    route's inputs with every later group's detection so far, the legs since G1's passage,
+    which groups became the LRBG or were found in their window, the current LRBG frame in
+    G1's, and whether linking was used when the current LRBG was accepted. Read like a
+    :class:`Handover` (group, previous, history, windows, lrbgs, frame, origin)."""
+
+    world: World                  # G1's inputs and every later group's (found, at, detect_error so far); no legs
+    journey: int = 0              # legs since G1's passage
+    lrbgs: tuple = ()             # per later group: became the LRBG so far
+    windows: tuple = ()           # per later group: found inside its window so far
+    frame: int = 1                # the sign of the current LRBG frame's nominal direction in G1's
+    linking: bool = False         # the current LRBG was accepted through linking
+    size: int = 8                 # the onboard's list of LRBGs holds this many (world.history)
+
+    @property
+    def group(self) -> int:
+        return max([k for k, b in enumerate(self.lrbgs, 2) if b], default=1)
+
+    @property
+    def previous(self) -> int:
+        if self.group == 1:
+            return 0
+        return max([k for k, b in enumerate(self.lrbgs, 2) if b and k < self.group], default=1)
+
+    @property
+    def history(self) -> tuple:
+        return ((1,) + tuple(k for k, b in enumerate(self.lrbgs, 2) if b))[-self.size:]
+
+    @property
+    def origin(self) -> Fraction:
+        return marks(self.world)[self.group - 1]
+
+    @property
+    def start(self) -> int:
+        """The leg of the journey at whose end the current LRBG was detected (0: G1's passage)."""
+        return 0 if self.group == 1 else self.world.route[self.group - 2].at
 
 
 def known(world: World) -> bool:
@@ -447,11 +510,88 @@ def advance(snap: Snapshot, leg: Leg, pack: Pack | None = None, plan=None) -> tu
     return new, fields
 
 
+def route_start(world: World, scope: Scope, plan=None) -> Snapshot:
+    """A route's state at G1's passage (DESIGN 4.10): no group found yet."""
+    w = attrs.evolve(world, legs=(), later=tuple(attrs.evolve(g, found=False, at=0, detect_error=F(0))
+                                                 for g in world.later),
+                     g2=attrs.evolve(world.g2, found=False, at=0, detect_error=F(0)))
+    n = len(w.route)
+    return attrs.evolve(start(attrs.evolve(w, g2=None, later=()), plan),
+                        route=RouteState(w, 0, (False,) * n, (False,) * n, 1, False, scope.history))
+
+
+def advance_route(snap: Snapshot, leg: Leg, found: int, detect_error: Fraction, scope: Scope,
+                  pack: Pack | None = None, plan=None) -> tuple:
+    """One leg of a route (DESIGN 4.10) from a state with a :class:`RouteState`: the leg in
+    the current LRBG's frame, then group ``found`` (0: none) detected at its end with
+    ``detect_error``, judged from the current LRBG and, when accepted, the state restarted at
+    its detection. Returns (state, the leg's fields, problems): why the detection cannot
+    happen (empty when it can)."""
+    rs = snap.route
+    new, fields = advance(snap, leg, pack, plan)
+    journey = rs.journey + 1
+    w, problems = rs.world, []
+    rs = attrs.evolve(rs, journey=journey)
+    if not found:
+        if detect_error:
+            problems.append(f"leg {journey}: a detection error without a group found")
+        return attrs.evolve(new, route=rs), fields, problems
+    n = len(w.route) + 1
+    if not 2 <= found <= n:
+        return attrs.evolve(new, route=rs), fields, [f"leg {journey}: there is no group G{found} to find"]
+    g = w.route[found - 2]
+    if g.found:
+        problems.append(f"leg {journey}: G{found} was found before")
+    if any(x.found for x in w.route[found - 1:]):
+        problems.append(f"leg {journey}: a group after G{found} was found before it (DESIGN 4.10)")
+    if abs(detect_error) > scope.detection:
+        problems.append(f"leg {journey}: |detect_error| above world.detection")
+    # the real antenna, in G1's frame, on G{found}'s real mark with the detection error along the movement
+    f = rs.frame
+    antenna = rs.origin + f * (new.front - new.orientation * w.antenna)
+    mark = marks(w)[found - 1] + sign(g.orientation) * g.offset
+    if not leg.distance > max(F(0), detect_error):
+        problems.append(f"leg {journey} must move the antenna onto G{found} (more than 0 m, and more "
+                        "than the detection error)")
+    if antenna != mark + f * new.motion * detect_error:
+        problems.append(f"leg {journey}: the antenna is at {_m(antenna)}, not at G{found}'s mark "
+                        f"{_m(mark)} with the detection error")
+    g = attrs.evolve(g, found=True, at=journey, detect_error=detect_error)
+    route = list(w.route)
+    route[found - 2] = g
+    w = attrs.evolve(w, g2=route[0], later=tuple(route[1:]))
+    cur = Stage(rs.group, new.world, rs.origin, rs.frame)
+    linking, in_window, stage = judge(w, scope, found, cur, new, leg)
+    windows = list(rs.windows)
+    windows[found - 2] = in_window
+    rs = attrs.evolve(rs, world=w, windows=tuple(windows))
+    if stage is None:
+        return attrs.evolve(new, route=rs), fields, problems
+    lrbgs = list(rs.lrbgs)
+    lrbgs[found - 2] = True
+    rs = attrs.evolve(rs, lrbgs=tuple(lrbgs), frame=stage.frame, linking=linking)
+    return attrs.evolve(start(stage.world, plan), route=rs), fields, problems
+
+
+def detection(before: Snapshot, after: Snapshot) -> tuple:
+    """The group a route's leg found at its end, from the states before and after it: (K,
+    its detection error), or (0, 0) for none."""
+    if before.route is None or after.route is None:
+        return 0, F(0)
+    for k, (a, b) in enumerate(zip(before.route.world.route, after.route.world.route), 2):
+        if b.found and not a.found:
+            return k, b.detect_error
+    return 0, F(0)
+
+
 def snapshot_problems(snap: Snapshot, scope: Scope, plan=None) -> list[str]:
     """Why ``snap`` is outside the domain of states (DESIGN 4.7): what every state after any
     number of legs in scope satisfies. Empty when it is inside."""
     w = snap.world
-    out = [p for p in scope_problems(attrs.evolve(w, legs=()), scope, 0)]
+    if snap.route is not None:
+        out = _route_problems(snap, scope)
+    else:
+        out = [p for p in scope_problems(attrs.evolve(w, legs=()), scope, 0)]
     if snap.count < 0 or not 0 <= snap.cab_changes <= snap.count:
         out.append(f"{counted(snap.cab_changes, 'cab change')} in {counted(snap.count, 'leg')}")
     for name, v in (("actual.orientation", snap.orientation), ("actual.motion", snap.motion)):
@@ -470,7 +610,7 @@ def snapshot_problems(snap: Snapshot, scope: Scope, plan=None) -> list[str]:
         out.append(f"under-reading {_m(snap.under)} exceeds the bound {_m(scope.odometry_under.at(basis) + extra_under)}")
     if snap.count == 0:
         first = start(w, plan)
-        if attrs.evolve(snap, frozen={}) != attrs.evolve(first, frozen={}):
+        if attrs.evolve(snap, frozen={}) != attrs.evolve(first, frozen={}, route=snap.route):
             out.append("a state with no leg must be the state at the detection instant")
     if plan is not None:
         for fam in plan.accumulators:
@@ -506,6 +646,64 @@ def snapshot_problems(snap: Snapshot, scope: Scope, plan=None) -> list[str]:
                 want = direction_of(o if fr[(i, "running")] is FWD else -o)
                 if fr[(i, "actual_motion")] is not want:
                     out.append(f"legs[{i}].actual_motion does not follow from its orientation and running")
+    return out
+
+
+def _route_problems(snap: Snapshot, scope: Scope) -> list[str]:
+    """Why a route's state is outside the domain of DESIGN 4.7 as 4.10 extends it: the route's
+    inputs so far in scope, which groups became the LRBG consistent with those found, and the
+    current LRBG's world (``snap.world``) the one its acceptance gives."""
+    rs, v = snap.route, snap.world
+    w = rs.world
+    out = scope_problems(w, scope, 0, journey=rs.journey)
+    n = len(w.route)
+    if len(rs.lrbgs) != n or len(rs.windows) != n or rs.size != scope.history:
+        return out + ["the route's state does not fit the pack's groups or list"]
+    for k, g in enumerate(w.route, 2):
+        if rs.lrbgs[k - 2] and not g.found:
+            out.append(f"G{k} became the LRBG without being found")
+        if rs.windows[k - 2] and not (g.found and g.linked and known(w)):
+            out.append(f"G{k} was found in a window that linking cannot give")
+    if rs.start + snap.count != rs.journey:
+        out.append(f"{counted(snap.count, 'leg')} since the current LRBG, detected after leg "
+                   f"{rs.start}, in a journey of {counted(rs.journey, 'leg')}")
+    if v.legs or v.g2 is not None or v.later:
+        out.append("the current LRBG's world has legs or groups of its own")
+    k = rs.group
+    if k == 1:
+        g1 = attrs.evolve(w, legs=(), g2=None, later=())
+        if v != g1 or rs.frame != 1 or rs.linking:
+            out.append("with G1 the LRBG, the current world must be G1's passage")
+        return out
+    g = w.route[k - 2]
+    frame_of_g = sign(g.orientation)
+    want = {"lrbg.balises": g.balises, "lrbg.read": g.read, "lrbg.locacc": g.locacc,
+            "passage.detect_error": g.detect_error, "train.length": w.length,
+            "train.antenna": w.antenna, "report.prv_lrbg": rs.previous,
+            "lrbg.offset": g.offset if rs.frame == frame_of_g else -g.offset,
+            "lrbg.linked": g.linked and (rs.linking or g.balises > 1)}
+    got = {"lrbg.balises": v.balises, "lrbg.read": v.read, "lrbg.locacc": v.locacc,
+           "passage.detect_error": v.detect_error, "train.length": v.length,
+           "train.antenna": v.antenna, "report.prv_lrbg": v.prv_group,
+           "lrbg.offset": v.offset, "lrbg.linked": v.linked}
+    out += [f"the current LRBG G{k}'s {name} is {got[name]}, its acceptance gives {x}"
+            for name, x in want.items() if got[name] != x]
+    if rs.frame not in (1, -1) or v.direction is UNK:
+        out.append("the current LRBG's frame and passage direction must be nominal or reverse")
+    if v.prv and not (g.balises == 1 and not rs.linking):
+        out.append(f"G{k} is referred to the previous LRBG, but it is not a single balise accepted without linking")
+    if not v.prv and rs.frame != frame_of_g:
+        out.append(f"G{k}'s frame is not its own orientation, yet it is not referred to the previous LRBG")
+    p = rs.previous     # linking was usable from it when linked itself (or G1), its direction known
+    prev_linked = p == 1 or w.route[p - 2].linked
+    if rs.linking and not prev_linked:
+        out.append(f"G{k} was accepted through linking from G{p}, which linking did not announce")
+    if not rs.linking and g.linked and known(w) and prev_linked and (p == 1 or w.route[p - 2].read >= 2):
+        out.append(f"G{k} was accepted without linking, though linking was usable from G{p}")
+    if rs.linking and not (g.linked and known(w) and rs.windows[k - 2]):
+        out.append(f"G{k} was accepted through linking outside its window")
+    if not rs.linking and not (g.balises == 1 or g.read >= 2):
+        out.append(f"G{k} was accepted without linking with one balise of {g.balises} read")
     return out
 
 
@@ -826,11 +1024,19 @@ class SnapView(_Values):
     def __init__(self, pack: Pack, snap: Snapshot, plan, static_only: bool = False):
         self.pack = pack
         self.snap = snap
-        self.world = snap.world
         self.plan = plan
         self.values = snapshot_values(snap, pack.scope)
-        self.values.update(group_values(snap.world, Handover((Stage(1, snap.world),))))
-        self.values["journey.legs"] = F(snap.count)
+        rs = snap.route
+        if rs is None:
+            self.world = snap.world
+            self.values.update(group_values(snap.world, Handover((Stage(1, snap.world),))))
+            self.values["journey.legs"] = F(snap.count)
+        else:                   # a route's state: the groups' names from what it carries (DESIGN 4.10)
+            self.world = rs.world
+            self.current = snap.world       # the current LRBG's passage, as State.current
+            self.handover = rs
+            self.values.update(group_values(rs.world, rs))
+            self.values["journey.legs"] = F(rs.journey)
         if static_only:
             self.values = {k: v for k, v in self.values.items() if k in STATIC}
         self.static_only = static_only
