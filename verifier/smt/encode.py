@@ -322,6 +322,122 @@ class Terms:
             ori = z3.If(R["group"] == k, orientations[k - 1], ori)
         T["lrbg.link_position"], T["lrbg.link_orientation"] = pos, ori
 
+    # ---- a route's groups and hand-overs, written once (DESIGN 4.8, 4.10) ------------------
+    def _group_static(self, k: int, extra: dict) -> dict:
+        """Later group ``k``'s inputs that never change (its place, orientation, balises,
+        linking, accuracy, real offset) with their scope; ``extra``: inputs registered with
+        them (the bounded encoding's detection of the group)."""
+        sc, C, num, n = self.world, self.constraints, self.num, f"g{k}"
+        gs = sc.group(k)
+        g = {"distance": self.real(f"{n}.distance"), "side": self.int(f"{n}.side"),
+             "orientation": self.int(f"{n}.orientation"), "balises": self.int(f"{n}.balises"),
+             "read": self.int(f"{n}.read"), "linked": self.boolean(f"{n}.linked"),
+             "locacc": self.int(f"{n}.locacc"), "offset": self.real(f"{n}.offset"), **extra}
+        self.inputs.update({f"{n}.{f}": v for f, v in g.items()})
+        acc = z3.ToReal(g["locacc"])
+        if k == 2:
+            side = {"nominal": [g["side"] == 1], "reverse": [g["side"] == -1],
+                    "any": [z3.Or(g["side"] == 1, g["side"] == -1)]}[sc.g2_side]
+        else:               # a route runs one way (DESIGN 4.10)
+            side = [g["side"] == self.inputs["g2.side"]]
+        orient = {"same": [g["orientation"] == 1], "opposite": [g["orientation"] == -1],
+                  "any": [z3.Or(g["orientation"] == 1, g["orientation"] == -1)]}[gs.orientation]
+        C += side + orient + [
+            g["distance"] >= num(gs.distance[0]), g["distance"] <= num(gs.distance[1]),
+            g["balises"] >= gs.balises[0], g["balises"] <= gs.balises[1],
+            g["read"] >= 1, g["read"] <= g["balises"],
+            g["locacc"] >= int(gs.locacc[0]), g["locacc"] <= int(gs.locacc[1]),
+            g["offset"] >= -acc, g["offset"] <= acc]
+        return g
+
+    def _detected(self, k: int, G: dict, here, real: dict, leg: tuple, antenna) -> None:
+        """Group ``k`` found at the end of this leg: the real antenna on its real mark plus the
+        detection error along the movement, the leg moving onto it (DESIGN 4.8)."""
+        mark = self._route["marks"][k - 1] + self.along(G["orientation"], G["offset"])
+        real_antenna = real["front"] - self.along(real["o"], antenna)
+        self.constraints.append(z3.Implies(here, z3.And(
+            real_antenna == mark + self.along(real["motion"], G["detect_error"]),
+            leg[2] > 0, leg[2] > G["detect_error"])))
+
+    def _judge(self, k: int, G: dict, cur: dict, st: dict, fwd, i: int) -> tuple:
+        """Whether group ``k``, found at the end of leg ``i``, becomes the LRBG as judged from
+        the current LRBG (DESIGN 4.8, 4.10): (accepted, inside its window, its passage)."""
+        S, num = cur["S"], self.num
+        x = self._route["marks"][k - 1]
+        e = self.along(cur["frame"], x - cur["origin"])         # its mark in the current frame
+        way = z3.If(e > 0, 1, -1)
+        dist = z3.If(e > 0, e, -e)
+        acc = z3.ToReal(G["locacc"])
+        est_antenna = self.along(S["passage.direction"], st["est_p"]) - self.along(st["o"], S["train.antenna"])
+        u = self.along(way, est_antenna)
+        b_over, b_under = self._bounds_at(st["measured"])
+        lo = u - S["lrbg.locacc"] - b_over
+        hi = u + S["lrbg.locacc"] + b_under
+        linking = z3.And(G["linked"], self.known_first, S["known"], z3.Or(cur["group"] == 1, cur["linked"]))
+        window = z3.And(linking, hi >= dist - acc, lo <= dist + acc)
+        m = st["motion"]                                        # the leg's motion, current frame
+        single = G["balises"] == 1
+        ok = z3.If(linking, z3.And(window, m == way), z3.Or(single, G["read"] >= 2))
+        # a single-balise group without usable linking is referred to the move from the current
+        # LRBG towards it, or has every direction unknown (SUBSET-026 3.4.2.3.3.2, 3.4.2.3.3.4)
+        prv = z3.And(z3.Not(linking), single, m == way)
+        fk = z3.If(prv, self.along(cur["frame"], way), G["orientation"])
+        S_k = {"lrbg.balises": G["balises"], "lrbg.read": G["read"],
+               "lrbg.linked": z3.And(G["linked"], z3.Or(linking, z3.Not(single))),
+               "prv": prv, "prv_group": cur["group"],
+               "lrbg.locacc": z3.ToReal(G["locacc"]),
+               # its real mark's offset in its frame as the LRBG (turned when referred to the move)
+               "lrbg.offset": z3.If(fk == G["orientation"], G["offset"], -G["offset"]),
+               "train.length": S["train.length"], "train.antenna": S["train.antenna"],
+               "passage.direction": self.along(fk, self.along(cur["frame"], m)),
+               "passage.running": fwd, "passage.detect_error": G["detect_error"],
+               "frame": fk, "origin": x, "linked_k": G["linked"]}
+        return ok, window, S_k
+
+    _PASSAGE = ("lrbg.balises", "lrbg.read", "lrbg.linked", "prv", "prv_group", "lrbg.locacc",
+                "lrbg.offset", "train.length", "train.antenna", "passage.direction",
+                "passage.running", "passage.detect_error")
+
+    def _restart(self, cur: dict, st: dict, events: list, i: int) -> tuple:
+        """After leg ``i``: the current LRBG and the state, restarted at the detection of the group
+        that became the LRBG there (at most one group is found at a leg)."""
+        S = cur["S"]
+        reset = z3.Or([ok for ok, *_ in events]) if events else z3.BoolVal(False, self.ctx)
+        new = {key: S.get(key, self.ival(1)) for key in self._PASSAGE}
+        frame, origin, group, linked = cur["frame"], cur["origin"], cur["group"], cur["linked"]
+        for ok, k, S_k in reversed(events):
+            new = {key: z3.If(ok, S_k[key], new[key]) for key in self._PASSAGE}
+            frame = z3.If(ok, S_k["frame"], frame)
+            origin = z3.If(ok, S_k["origin"], origin)
+            group = z3.If(ok, k, group)
+            linked = z3.If(ok, S_k["linked_k"], linked)
+        nxt = {"start": z3.If(reset, self.ival(i), cur["start"]),
+               "origin": self.define(f"lrbg.origin@{i}", origin), "frame": self.define(f"lrbg.frame@{i}", frame, "int"),
+               "group": self.define(f"lrbg.group@{i}", group, "int"),
+               "previous": z3.If(reset, cur["group"], cur["previous"]), "linked": linked,
+               "reset": reset}
+        nxt["S"] = S2 = {key: self.define(f"{key}@{i}", v, "bool" if key in ("lrbg.linked", "prv", "passage.running")
+                               else "int" if key in ("lrbg.balises", "lrbg.read", "prv_group", "passage.direction")
+                               else "real") for key, v in new.items()}
+        if self.world.detection_in_odometry:    # the reading bound at the new LRBG's passage
+            det = S2["passage.detect_error"]
+            self.bounded("world.odometry_over", z3.Implies(reset, self.pos(-det) <= self.num(self.world.odometry_over.fixed)))
+            self.bounded("world.odometry_under", z3.Implies(reset, self.pos(det) <= self.num(self.world.odometry_under.fixed)))
+        first = self._first(S2, tag=f"r{i}")
+        merged = dict(st)
+        for key in ("o", "op", "motion", "front", "est_p", "over", "under", "measured", "basis"):
+            merged[key] = z3.If(reset, first[key], st[key])
+        merged["cabs"] = [z3.If(reset, 0, z3.Sum(st["cabs"]) if st["cabs"] else 0)]
+        merged["travelled"] = [z3.If(reset, self.num(0), z3.Sum(st["travelled"]) if st["travelled"] else self.num(0))]
+        return nxt, merged
+
+    def _marks(self, Gs: list) -> None:
+        """Every group's engineered mark in G1's frame: the route runs the way of g2.side."""
+        total = self.num(0)
+        for k, G in enumerate(Gs, 2):
+            total = total + G["distance"]
+            self._route["marks"].append(self.define(f"g{k}.mark", self.along(Gs[0]["side"], total)))
+
     # ---- the wire (DESIGN 4.4) ----------------------------------------------------------
     # The step is an Int c (0: 10 cm, 1: 1 m, 2: 10 m). Whether a step fits is written as
     # linear conditions on the unrounded values (only D_LRBG's rounding, which the widened
@@ -732,111 +848,14 @@ class Encoding(Terms):
         self._names(cur["S"], st, count2)
         self._group_names(S1, Gs, count)
 
-    def _detected(self, k: int, G: dict, here, real: dict, leg: tuple, antenna) -> None:
-        """Group ``k`` found at the end of this leg: the real antenna on its real mark plus the
-        detection error along the movement, the leg moving onto it (DESIGN 4.8)."""
-        mark = self._route["marks"][k - 1] + self.along(G["orientation"], G["offset"])
-        real_antenna = real["front"] - self.along(real["o"], antenna)
-        self.constraints.append(z3.Implies(here, z3.And(
-            real_antenna == mark + self.along(real["motion"], G["detect_error"]),
-            leg[2] > 0, leg[2] > G["detect_error"])))
-
-    def _judge(self, k: int, G: dict, cur: dict, st: dict, fwd, i: int) -> tuple:
-        """Whether group ``k``, found at the end of leg ``i``, becomes the LRBG as judged from
-        the current LRBG (DESIGN 4.8, 4.10): (accepted, inside its window, its passage)."""
-        S, num = cur["S"], self.num
-        x = self._route["marks"][k - 1]
-        e = self.along(cur["frame"], x - cur["origin"])         # its mark in the current frame
-        way = z3.If(e > 0, 1, -1)
-        dist = z3.If(e > 0, e, -e)
-        acc = z3.ToReal(G["locacc"])
-        est_antenna = self.along(S["passage.direction"], st["est_p"]) - self.along(st["o"], S["train.antenna"])
-        u = self.along(way, est_antenna)
-        b_over, b_under = self._bounds_at(st["measured"])
-        lo = u - S["lrbg.locacc"] - b_over
-        hi = u + S["lrbg.locacc"] + b_under
-        linking = z3.And(G["linked"], self.known_first, S["known"], z3.Or(cur["group"] == 1, cur["linked"]))
-        window = z3.And(linking, hi >= dist - acc, lo <= dist + acc)
-        m = st["motion"]                                        # the leg's motion, current frame
-        single = G["balises"] == 1
-        ok = z3.If(linking, z3.And(window, m == way), z3.Or(single, G["read"] >= 2))
-        # a single-balise group without usable linking is referred to the move from the current
-        # LRBG towards it, or has every direction unknown (SUBSET-026 3.4.2.3.3.2, 3.4.2.3.3.4)
-        prv = z3.And(z3.Not(linking), single, m == way)
-        fk = z3.If(prv, self.along(cur["frame"], way), G["orientation"])
-        S_k = {"lrbg.balises": G["balises"], "lrbg.read": G["read"],
-               "lrbg.linked": z3.And(G["linked"], z3.Or(linking, z3.Not(single))),
-               "prv": prv, "prv_group": cur["group"],
-               "lrbg.locacc": z3.ToReal(G["locacc"]),
-               # its real mark's offset in its frame as the LRBG (turned when referred to the move)
-               "lrbg.offset": z3.If(fk == G["orientation"], G["offset"], -G["offset"]),
-               "train.length": S["train.length"], "train.antenna": S["train.antenna"],
-               "passage.direction": self.along(fk, self.along(cur["frame"], m)),
-               "passage.running": fwd, "passage.detect_error": G["detect_error"],
-               "frame": fk, "origin": x, "linked_k": G["linked"]}
-        return ok, window, S_k
-
-    _PASSAGE = ("lrbg.balises", "lrbg.read", "lrbg.linked", "prv", "prv_group", "lrbg.locacc",
-                "lrbg.offset", "train.length", "train.antenna", "passage.direction",
-                "passage.running", "passage.detect_error")
-
-    def _restart(self, cur: dict, st: dict, events: list, i: int) -> tuple:
-        """After leg ``i``: the current LRBG and the state, restarted at the detection of the group
-        that became the LRBG there (at most one group is found at a leg)."""
-        S = cur["S"]
-        reset = z3.Or([ok for ok, *_ in events]) if events else z3.BoolVal(False, self.ctx)
-        new = {key: S.get(key, self.ival(1)) for key in self._PASSAGE}
-        frame, origin, group, linked = cur["frame"], cur["origin"], cur["group"], cur["linked"]
-        for ok, k, S_k in reversed(events):
-            new = {key: z3.If(ok, S_k[key], new[key]) for key in self._PASSAGE}
-            frame = z3.If(ok, S_k["frame"], frame)
-            origin = z3.If(ok, S_k["origin"], origin)
-            group = z3.If(ok, k, group)
-            linked = z3.If(ok, S_k["linked_k"], linked)
-        nxt = {"start": z3.If(reset, self.ival(i), cur["start"]),
-               "origin": self.define(f"lrbg.origin@{i}", origin), "frame": self.define(f"lrbg.frame@{i}", frame, "int"),
-               "group": self.define(f"lrbg.group@{i}", group, "int"),
-               "previous": z3.If(reset, cur["group"], cur["previous"]), "linked": linked}
-        nxt["S"] = S2 = {key: self.define(f"{key}@{i}", v, "bool" if key in ("lrbg.linked", "prv", "passage.running")
-                               else "int" if key in ("lrbg.balises", "lrbg.read", "prv_group", "passage.direction")
-                               else "real") for key, v in new.items()}
-        if self.world.detection_in_odometry:    # the reading bound at the new LRBG's passage
-            det = S2["passage.detect_error"]
-            self.bounded("world.odometry_over", z3.Implies(reset, self.pos(-det) <= self.num(self.world.odometry_over.fixed)))
-            self.bounded("world.odometry_under", z3.Implies(reset, self.pos(det) <= self.num(self.world.odometry_under.fixed)))
-        first = self._first(S2, tag=f"r{i}")
-        merged = dict(st)
-        for key in ("o", "op", "motion", "front", "est_p", "over", "under", "measured", "basis"):
-            merged[key] = z3.If(reset, first[key], st[key])
-        merged["cabs"] = [z3.If(reset, 0, z3.Sum(st["cabs"]) if st["cabs"] else 0)]
-        merged["travelled"] = [z3.If(reset, self.num(0), z3.Sum(st["travelled"]) if st["travelled"] else self.num(0))]
-        return nxt, merged
-
     # ---- the route's later groups (DESIGN 4.8, 4.10) ------------------------------------------
     def _group_inputs(self, k: int) -> dict:
-        sc, C, num, n = self.world, self.constraints, self.num, f"g{k}"
-        gs = sc.group(k)
-        g = {"distance": self.real(f"{n}.distance"), "side": self.int(f"{n}.side"),
-             "orientation": self.int(f"{n}.orientation"), "balises": self.int(f"{n}.balises"),
-             "read": self.int(f"{n}.read"), "linked": self.boolean(f"{n}.linked"),
-             "locacc": self.int(f"{n}.locacc"), "offset": self.real(f"{n}.offset"),
-             "found": self.boolean(f"{n}.found"), "at": self.int(f"{n}.at"),
-             "detect_error": self.real(f"{n}.detect_error")}
-        self.inputs.update({f"{n}.{f}": v for f, v in g.items()})
-        acc = z3.ToReal(g["locacc"])
-        if k == 2:
-            side = {"nominal": [g["side"] == 1], "reverse": [g["side"] == -1],
-                    "any": [z3.Or(g["side"] == 1, g["side"] == -1)]}[sc.g2_side]
-        else:               # a route runs one way (DESIGN 4.10)
-            side = [g["side"] == self.inputs["g2.side"]]
-        orient = {"same": [g["orientation"] == 1], "opposite": [g["orientation"] == -1],
-                  "any": [z3.Or(g["orientation"] == 1, g["orientation"] == -1)]}[gs.orientation]
-        C += side + orient + [
-            g["distance"] >= num(gs.distance[0]), g["distance"] <= num(gs.distance[1]),
-            g["balises"] >= gs.balises[0], g["balises"] <= gs.balises[1],
-            g["read"] >= 1, g["read"] <= g["balises"],
-            g["locacc"] >= int(gs.locacc[0]), g["locacc"] <= int(gs.locacc[1]),
-            g["offset"] >= -acc, g["offset"] <= acc]
+        """Later group ``k`` of the bounded encoding: its static inputs, and whether and at the
+        end of which leg it is found, with what detection error."""
+        sc, C, n = self.world, self.constraints, f"g{k}"
+        num = self.num
+        g = self._group_static(k, {"found": self.boolean(f"{n}.found"), "at": self.int(f"{n}.at"),
+                                   "detect_error": self.real(f"{n}.detect_error")})
         self.bounded("world.detection", g["detect_error"] >= -num(sc.detection),
                      g["detect_error"] <= num(sc.detection))
         C += [
@@ -849,12 +868,6 @@ class Encoding(Terms):
         g["lrbg"] = self.boolean(self.prefix + f"{n}.lrbg")   # defined by _handover
         return g
 
-    def _marks(self, Gs: list) -> None:
-        """Every group's engineered mark in G1's frame: the route runs the way of g2.side."""
-        total = self.num(0)
-        for k, G in enumerate(Gs, 2):
-            total = total + G["distance"]
-            self._route["marks"].append(self.define(f"g{k}.mark", self.along(Gs[0]["side"], total)))
 
 def _is_const(node: ast.Node) -> bool:
     if isinstance(node, ast.Num):

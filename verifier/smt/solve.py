@@ -327,7 +327,7 @@ def lower_bounds(constraints, terms: dict) -> dict:
     return lows
 
 
-def _later(I: dict) -> list:
+def later_groups(I: dict) -> list:
     """The prefixes of the route's later groups among the inputs: g2, g3, ... (DESIGN 4.10)."""
     return [f"g{k}" for k in range(2, 9) if f"g{k}.distance" in I]
 
@@ -385,7 +385,7 @@ def ladder(ses: SolverSession, I: dict, K: int, count, cab_changes, more=None,
         L.least_int(count, 0)
         L.least_int(cab_changes, 0)
         L.least_int(I["lrbg.balises"], math.ceil(low("lrbg.balises", 1)))
-        later = _later(I)                   # the route's later groups (DESIGN 4.8, 4.10): likewise
+        later = later_groups(I)                   # the route's later groups (DESIGN 4.8, 4.10): likewise
         for n in later:
             L.least_int(I[f"{n}.balises"], math.ceil(low(f"{n}.balises", 1)))
         # (2) each error to 0 where possible
@@ -467,7 +467,7 @@ def read_world(model, enc: Encoding) -> dict:
         "detect_error": to_fraction(ev(I["passage.detect_error"])),
         "legs": [],
     }
-    for n in _later(I):
+    for n in later_groups(I):
         g = {k: ev(I[f"{n}.{k}"]) for k in ("distance", "side", "orientation", "balises", "read",
                                             "linked", "locacc", "offset", "found", "at", "detect_error")}
         word = {1: "nominal", -1: "reverse"}
