@@ -261,10 +261,6 @@ def plan_for(pack, formulas, *, designs: bool = True) -> Plan:
             b.definition(("onboard", n))
         for n in pack.trackside:
             b.definition(("trackside", n))
-    if pack.scope.groups >= 2:   # the state of DESIGN 4.7 has one group
-        b.unsupported.insert(0, f"a pack of two groups or more ({pack.scope.groups} here): the state of a proof for any number "
-                                "of legs carries one group, not the current group's number nor the "
-                                "onboard's list of LRBGs (DESIGN 4.8, 4.10)")
     return Plan(tuple(b.families.values()), b.uses, tuple(sorted(b.frozen)),
                 tuple(dict.fromkeys(b.unsupported)))
 

@@ -12,6 +12,7 @@ the counterexample to induction of the deepest step tried, never ``holds`` by de
 from __future__ import annotations
 
 import time
+from fractions import Fraction
 
 import attrs
 
@@ -23,7 +24,7 @@ from verifier.run.cache import induction_key
 from verifier.smt import induction, solve
 from verifier.smt.solve import DEFAULT_RLIMIT
 from verifier.world.scenario import legs_from_flat, snapshot_from_flat
-from verifier.world.sim import SnapView, advance, applies, evaluate, holds, snapshot_problems
+from verifier.world.sim import SnapView, advance, advance_route, applies, evaluate, holds, snapshot_problems
 
 DEFAULT_DEPTH = 4
 MAX_DEPTH = 8
@@ -87,23 +88,36 @@ def replay(pack: Pack, rule: Rule, lemmas, plan: Plan, cti: dict) -> Replayed:
     """Run a counterexample to induction (solver data: world, state, legs) step by step in the
     simulator (see :func:`replay_states`)."""
     try:
-        snap = snapshot_from_flat(cti["world"], cti["state"], plan)
-    except (KeyError, ValueError) as exc:
+        snap = snapshot_from_flat(cti["world"], cti["state"], plan, cti.get("current"),
+                                  pack.scope.history)
+    except (KeyError, ValueError, TypeError) as exc:
         return Replayed((), (f"the state cannot be read: {exc}",))
-    return replay_states(pack, rule, lemmas, plan, snap, legs_from_flat(cti["legs"]))
+    return replay_states(pack, rule, lemmas, plan, snap, legs_from_flat(cti["legs"]),
+                         detections_from_flat(cti["legs"]))
 
 
-def replay_states(pack: Pack, rule: Rule, lemmas, plan: Plan, snap, legs) -> Replayed:
+def detections_from_flat(legs: list) -> tuple:
+    """Per leg of a route's path: (the group found at its end, 0 for none; its detection error)."""
+    return tuple((int(x.get("found", 0)), Fraction(x.get("detect_error", 0))) for x in legs)
+
+
+def replay_states(pack: Pack, rule: Rule, lemmas, plan: Plan, snap, legs, detections=()) -> Replayed:
     """From state ``snap``, run ``legs`` in the simulator: the state must be in the domain of
     states, every leg in scope, the rule true at s0 .. s(k-1) and false at sk, every lemma
-    true throughout. ``problems`` says what is not so."""
+    true throughout. ``problems`` says what is not so. A route's legs each come with a
+    detection (``detections``: the group found at its end, 0 for none, and its error)."""
     problems = [f"s0: {p}" for p in snapshot_problems(snap, pack.scope, plan)]
     views = [SnapView(pack, snap, plan)]
     scope = pack.scope
     for i, leg in enumerate(legs, 1):
         if not scope.leg_distance[0] <= leg.distance <= scope.leg_distance[1] or leg.odometer < 0:
             problems.append(f"leg {i} outside the scope")
-        snap, _ = advance(snap, leg, pack, plan)
+        if snap.route is not None:
+            found, det = detections[i - 1] if i <= len(detections) else (0, Fraction(0))
+            snap, _, wrong = advance_route(snap, leg, found, det, scope, pack, plan)
+            problems += wrong
+        else:
+            snap, _ = advance(snap, leg, pack, plan)
         basis = snap.measured if scope.odometry_basis == "measured" else snap.travelled
         d = 0 if scope.detection_in_odometry else snap.world.detect_error   # on top of the bound (DESIGN 4.1)
         if snap.over > scope.odometry_over.at(basis) + max(0, -d) or snap.under > scope.odometry_under.at(basis) + max(0, d):

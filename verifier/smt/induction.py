@@ -49,14 +49,24 @@ class View(Terms):
     def __init__(self, owner: "Path", S: dict, st: dict, count, prefix: str,
                  static_only: bool = False):
         # the view an accumulator's body is read in keeps the names of unbounded.STATIC only,
-        # which are the same at every state (here s0's); the constants its other names define
-        # go to a list of their own, left out of the path
+        # which are the same at every state of the current LRBG (here the state before the
+        # leg); the constants its other names define go to a list of their own, left out of
+        # the path
         self._setup(owner.pack, owner.ctx, prefix, [] if static_only else owner.constraints)
         self.plan = owner.plan
         self.st = st
         self.static_only = static_only
         self._names(S, st, count)
-        self._group_names(S, None, count)
+        R = st.get("route")
+        if R is None:
+            self._group_names(S, None, count)
+        else:               # a route's state: which group is the LRBG, the list (DESIGN 4.10)
+            cur = R["cur"]
+            self.known_first = owner.known_first
+            self._route = {"marks": owner.marks, "frame": cur["frame"], "origin": cur["origin"],
+                           "group": cur["group"], "previous": cur["previous"]}
+            Gs = [{**G, **g} for G, g in zip(owner.Gs, R["groups"])]
+            self._group_names(owner.S, Gs, R["journey"])
         if static_only:
             self.terms = {k: v for k, v in self.terms.items() if k in STATIC}
             self.constraints = owner.constraints
@@ -93,36 +103,191 @@ class Path(Terms):
         self.state_vars: dict = {}  # s0's own constants, by a readable name
         S = self._static()
         first = self._first(S)
-        s0 = self._arbitrary(S, first)
-        self._passage_bound(S)
         self.S = S
+        self.route = pack.scope.groups >= 2
+        self.Gs, self.marks, self.detections = [], [], []
+        if self.route:              # a route (DESIGN 4.10): the later groups' static inputs
+            self.Gs = [self._group_static(k, {}) for k in range(2, pack.scope.groups + 1)]
+            self._route = {"marks": [self.num(0)]}
+            self._marks(self.Gs)
+            self.marks = self._route["marks"]
+            R = self._route_state(S)
+            s0 = self._arbitrary(R["cur"]["S"], R["first"])
+            self._route_domain(s0, R)
+        else:
+            s0 = self._arbitrary(S, first)
+        self._passage_bound(S)
         self.states = [s0]
         self.leg_inputs = []
-        self.body_view = View(self, S, s0, s0["count"], "body!", static_only=True)
+        if not self.route:
+            self.body_view = View(self, S, s0, s0["count"], "body!", static_only=True)
         st = s0
         for i in range(1, depth + 1):
             cab, fwd = self.boolean(f"legs.{i}.cab_change"), self.boolean(f"legs.{i}.forward")
             dist, odo = self.real(f"legs.{i}.distance"), self.real(f"legs.{i}.odometer")
             self.inputs.update({f"legs.{i}.cab_change": cab, f"legs.{i}.running": fwd,
                                 f"legs.{i}.distance": dist, f"legs.{i}.odometer": odo})
-            st, _ = self._step(S, st, (cab, fwd, dist, odo), active=z3.BoolVal(True, ctx),
-                               index=s0["count"] + i, tag=str(i), plan=plan, view=self.body_view)
+            if self.route:
+                st = self._route_leg(st, (cab, fwd, dist, odo), i)
+            else:
+                st, _ = self._step(S, st, (cab, fwd, dist, odo), active=z3.BoolVal(True, ctx),
+                                   index=s0["count"] + i, tag=str(i), plan=plan, view=self.body_view)
             self.states.append(st)
             self.leg_inputs.append((cab, fwd, dist, odo))
-        self.views = [View(self, S, st, st["count"], f"s{i}!") for i, st in enumerate(self.states)]
+        self.views = [View(self, self._current_S(st), st, st["count"], f"s{i}!")
+                      for i, st in enumerate(self.states)]
         # for the ladder and the readers of models
         self.terms = {"legs.count": s0["count"], "cab_changes": self.state_vars["cab_changes"]}
+
+    def _state_var(self, name: str, sort: str):
+        """A constant of s0, by a readable name."""
+        c = {"real": self.real, "int": self.int, "bool": self.boolean}[sort]("state0." + name)
+        self.state_vars[name] = c
+        return c
+
+    def _current_S(self, st: dict) -> dict:
+        """The passage of the LRBG current at a state (G1's without a route)."""
+        return st["route"]["cur"]["S"] if self.route else self.S
+
+    # ---- a route's state (DESIGN 4.7 as 4.10 extends it) -----------------------------------
+    def _route_state(self, S1: dict) -> dict:
+        """s0's route: per later group whether it was found (at which leg of the journey, with
+        what detection error), became the LRBG or was found in its window; the current LRBG
+        (the last group that became the LRBG) with its passage, frame and how it was accepted.
+        The domain: what the bounded encoding's hand-overs give by construction."""
+        C, ctx, fresh = self.constraints, self.ctx, self._state_var
+        sc = self.pack.scope
+        N = sc.groups
+        groups = []
+        for k, G in enumerate(self.Gs, 2):
+            n = f"g{k}"
+            # whether it was found, where and how, are inputs of the route as far as it has come
+            # (read and fixed as the bounded world's); whether it became the LRBG, the state's
+            g = {"found": self.boolean(f"state0.{n}.found"), "at": self.int(f"state0.{n}.at"),
+                 "detect_error": self.real(f"state0.{n}.detect_error"),
+                 "lrbg": fresh(f"{n}.lrbg", "bool"), "in_window": fresh(f"{n}.in_window", "bool")}
+            self.inputs.update({f"{n}.{f}": g[f] for f in ("found", "at", "detect_error")})
+            self.bounded("world.detection", g["detect_error"] >= -self.num(sc.detection),
+                         g["detect_error"] <= self.num(sc.detection))
+            C += [z3.Implies(z3.Not(g["found"]), z3.And(g["at"] == 0, g["detect_error"] == 0)),
+                  z3.Implies(g["found"], g["at"] >= 1),
+                  z3.Implies(g["lrbg"], g["found"]),
+                  z3.Implies(g["in_window"], z3.And(g["found"], G["linked"], self.known_first))]
+            for h in groups:                        # found in route order, at different legs
+                C.append(z3.Implies(z3.And(g["found"], h["found"]), h["at"] < g["at"]))
+            groups.append(g)
+        # the current LRBG: the last group that became the LRBG; the one before it
+        group, previous = self.ival(1), self.ival(0)
+        for k, g in enumerate(groups, 2):
+            before = group
+            group = z3.If(g["lrbg"], k, group)
+            previous = z3.If(g["lrbg"], before, previous)
+        group = self.define("state0.lrbg.group", group, "int")
+        previous = self.define("state0.lrbg.previous", previous, "int")
+        prv, linking = fresh("lrbg.prv", "bool"), fresh("lrbg.linking", "bool")
+        frame, direction = fresh("lrbg.frame", "int"), fresh("passage.direction", "int")
+        running = fresh("passage.running", "bool")
+        C += [z3.Or(frame == 1, frame == -1), z3.Or(direction == 1, direction == -1),
+              z3.Implies(group == 1, z3.And(z3.Not(prv), z3.Not(linking), frame == 1))]
+
+        def pick(of_g1, of_group):
+            out = of_g1
+            for k in range(2, N + 1):
+                out = z3.If(group == k, of_group(k, self.Gs[k - 2], groups[k - 2]), out)
+            return out
+
+        for k, G in enumerate(self.Gs, 2):
+            g = groups[k - 2]
+            # linking was usable from the previous LRBG when it is linked itself (or G1) and the
+            # direction over it known: surely so with two balises read (DESIGN 4.10)
+            prev_linked = z3.Or(previous == 1, *[z3.And(previous == j, H["linked"])
+                                                  for j, H in enumerate(self.Gs[:k - 2], 2)])
+            prev_sure = z3.Or(previous == 1, *[z3.And(previous == j, H["linked"], H["read"] >= 2)
+                                                for j, H in enumerate(self.Gs[:k - 2], 2)])
+            C.append(z3.Implies(group == k, z3.And(
+                z3.Implies(linking, prev_linked),
+                z3.Implies(z3.And(G["linked"], self.known_first, prev_sure), linking),
+                z3.Implies(prv, z3.And(G["balises"] == 1, z3.Not(linking))),
+                z3.Implies(z3.Not(prv), frame == G["orientation"]),
+                z3.Implies(linking, z3.And(G["linked"], self.known_first, g["in_window"])),
+                z3.Implies(z3.Not(linking), z3.Or(G["balises"] == 1, G["read"] >= 2)))))
+        S = {"lrbg.balises": pick(S1["lrbg.balises"], lambda k, G, g: G["balises"]),
+             "lrbg.read": pick(S1["lrbg.read"], lambda k, G, g: G["read"]),
+             "lrbg.linked": pick(S1["lrbg.linked"], lambda k, G, g: z3.And(G["linked"], z3.Or(linking, G["balises"] >= 2))),
+             "prv": prv, "prv_group": z3.If(group == 1, 1, previous),
+             "lrbg.locacc": pick(S1["lrbg.locacc"], lambda k, G, g: z3.ToReal(G["locacc"])),
+             "lrbg.offset": pick(S1["lrbg.offset"], lambda k, G, g: z3.If(frame == G["orientation"], G["offset"], -G["offset"])),
+             "train.length": S1["train.length"], "train.antenna": S1["train.antenna"],
+             "passage.direction": z3.If(group == 1, S1["passage.direction"], direction),
+             "passage.running": z3.If(group == 1, S1["passage.running"], running),
+             "passage.detect_error": pick(S1["passage.detect_error"], lambda k, G, g: g["detect_error"])}
+        S = {key: self.define(f"state0.{key}", v, "bool" if key in ("lrbg.linked", "prv", "passage.running")
+                              else "int" if key in ("lrbg.balises", "lrbg.read", "prv_group", "passage.direction")
+                              else "real") for key, v in S.items()}
+        first = self._first(S, tag="s0.")
+        at = pick(self.ival(0), lambda k, G, g: g["at"])
+        cur = {"S": S, "start": at, "origin": pick(self.num(0), lambda k, G, g: self.marks[k - 1]),
+               "frame": frame, "group": group, "previous": previous,
+               "linked": pick(z3.BoolVal(True, ctx), lambda k, G, g: G["linked"])}
+        return {"cur": cur, "first": first, "groups": groups}
+
+    def _route_domain(self, s0: dict, R: dict) -> None:
+        """The journey of s0: the legs since the current LRBG after those before its detection;
+        every group found within it."""
+        journey = self.define("state0.journey.legs", s0["count"] + R["cur"]["start"], "int")
+        for g in R["groups"]:
+            self.constraints.append(g["at"] <= journey)
+        s0["route"] = {"cur": R["cur"], "groups": R["groups"], "journey": journey}
+
+    def _route_leg(self, st: dict, leg: tuple, i: int) -> dict:
+        """One leg of a route from state ``st`` (DESIGN 4.10, as the bounded encoding's pass):
+        the leg in the current LRBG's frame, the group found at its end (``legs.i.found``, 0
+        for none; later than every group found so far) judged from the current LRBG, the
+        state restarted at its detection when it becomes the LRBG."""
+        C, ctx, num = self.constraints, self.ctx, self.num
+        R, sc = st["route"], self.pack.scope
+        cur = R["cur"]
+        found, det = self.int(f"legs.{i}.found"), self.real(f"legs.{i}.detect_error")
+        self.inputs.update({f"legs.{i}.found": found, f"legs.{i}.detect_error": det})
+        self.detections.append((found, det))
+        C += [found >= 0, found <= sc.groups, found != 1, z3.Implies(found == 0, det == 0)]
+        self.bounded("world.detection", det >= -num(sc.detection), det <= num(sc.detection))
+        body = View(self, cur["S"], st, st["count"], f"body{i}!", static_only=True)
+        new, _ = self._step(cur["S"], st, leg, active=z3.BoolVal(True, ctx), index=st["count"] + 1,
+                            tag=str(i), plan=self.plan, view=body)
+        journey = R["journey"] + 1
+        real = {"front": cur["origin"] + self.along(cur["frame"], new["front"]),
+                "o": self.along(cur["frame"], new["o"]), "motion": self.along(cur["frame"], new["motion"])}
+        events, groups = [], []
+        for k, (G, g) in enumerate(zip(self.Gs, R["groups"]), 2):
+            here = found == k
+            C.append(z3.Implies(here, z3.And([z3.Not(h["found"]) for h in R["groups"][k - 2:]])))
+            Gd = {**G, "detect_error": det}
+            self._detected(k, Gd, here, real, leg, self.S["train.antenna"])
+            ok, window, S_k = self._judge(k, Gd, cur, new, leg[1], i)
+            events.append((z3.And(here, ok), k, S_k))
+            groups.append({"found": z3.Or(g["found"], here), "at": z3.If(here, journey, g["at"]),
+                           "detect_error": z3.If(here, det, g["detect_error"]),
+                           "lrbg": z3.Or(g["lrbg"], z3.And(here, ok)),
+                           "in_window": z3.Or(g["in_window"], z3.And(here, window))})
+        nxt, merged = self._restart(cur, new, events, i)
+        reset = nxt["reset"]
+        merged["count"] = z3.If(reset, self.ival(0), new["count"])
+        # the legs since the current LRBG start again: every accumulator empty (DESIGN 4.10)
+        kinds = {f.key: f.kind for f in self.plan.accumulators}
+        empty = {"all": z3.BoolVal(True, ctx), "any": z3.BoolVal(False, ctx)}
+        merged["accs"] = {}
+        for (key, v), a in new["accs"].items():
+            e = empty.get(kinds[key], self.ival(0) if z3.is_int(a) else num(0))
+            merged["accs"][(key, v)] = z3.If(reset, e, a)
+        merged["route"] = {"cur": nxt, "groups": groups, "journey": journey}
+        return merged
 
     def _arbitrary(self, S: dict, first: dict) -> dict:
         """s0: fresh constants constrained by the domain of DESIGN 4.7 (facts true of every
         state after any number of legs in scope, by construction or by the scope)."""
         sc, C, num, ctx = self.pack.scope, self.constraints, self.num, self.ctx
-        v = self.state_vars
-
-        def fresh(name, sort):
-            c = {"real": self.real, "int": self.int, "bool": self.boolean}[sort]("state0." + name)
-            v[name] = c
-            return c
+        fresh = self._state_var
 
         count, cabs = fresh("legs.count", "int"), fresh("cab_changes", "int")
         o, motion = fresh("actual.orientation", "int"), fresh("actual.motion", "int")
@@ -300,6 +465,15 @@ def _ladder(ses, path: Path, budget: int | None = None) -> bool:
                 L.least_magnitude(c)
         L.try_fix(V["actual.orientation"] == 1)
         L.try_fix(V["actual.motion"] == 1)
+        if path.route:      # no group found on the path where possible; then the route's state
+            for found, det in path.detections:
+                L.try_fix(found == 0)
+                L.least_magnitude(det)
+            for name in ("lrbg.frame", "passage.direction"):
+                L.try_fix(V[name] == 1)
+            for name, c in V.items():
+                if z3.is_bool(c) and name.startswith(("g", "lrbg.", "passage.")):
+                    L.try_fix(z3.Not(c) if name != "passage.running" else c)
 
     return solve.ladder(ses, path.inputs, path.K, V["legs.count"], V["cab_changes"], state,
                         budget=budget)
@@ -320,6 +494,16 @@ def read_path(model, path: Path) -> dict:
         "running": "forward" if z3.is_true(ev(I["passage.running"])) else "backward",
         "detect_error": solve.to_fraction(ev(I["passage.detect_error"])), "legs": [],
     }
+    for n in solve.later_groups(I):       # a route's later groups, detections so far included
+        g = {k: ev(I[f"{n}.{k}"]) for k in ("distance", "side", "orientation", "balises", "read",
+                                            "linked", "locacc", "offset", "found", "at", "detect_error")}
+        word = {1: "nominal", -1: "reverse"}
+        world[n] = {"distance": solve.to_fraction(g["distance"]), "side": word[g["side"].as_long()],
+                    "orientation": word[g["orientation"].as_long()], "balises": g["balises"].as_long(),
+                    "read": g["read"].as_long(), "linked": z3.is_true(g["linked"]),
+                    "locacc": solve.to_fraction(g["locacc"]), "offset": solve.to_fraction(g["offset"]),
+                    "found": z3.is_true(g["found"]), "at": g["at"].as_long(),
+                    "detect_error": solve.to_fraction(g["detect_error"])}
     state = {}
     for name, c in path.state_vars.items():
         v = ev(c)
@@ -333,7 +517,20 @@ def read_path(model, path: Path) -> dict:
         legs.append({"cab_change": z3.is_true(ev(cab)),
                      "running": "forward" if z3.is_true(ev(fwd)) else "backward",
                      "distance": solve.to_fraction(ev(dist)), "odometer": solve.to_fraction(ev(odo))})
-    return {"world": world, "state": state, "legs": legs}
+    out = {"world": world, "state": state, "legs": legs}
+    if path.route:
+        for leg, (found, det) in zip(legs, path.detections):
+            leg["found"] = ev(found).as_long()
+            leg["detect_error"] = solve.to_fraction(ev(det))
+        # the current LRBG's passage as the encoding derives it (the simulator checks it)
+        S = path.states[0]["route"]["cur"]["S"]
+        cur = {}
+        for key in ("lrbg.balises", "lrbg.read", "lrbg.linked", "lrbg.locacc", "lrbg.offset",
+                    "passage.direction", "passage.running", "passage.detect_error", "prv", "prv_group"):
+            v = ev(S[key])
+            cur[key] = z3.is_true(v) if z3.is_bool(v) else solve.to_fraction(v)
+        out["current"] = cur
+    return out
 
 
 # ---- one path, concretely (replay comparison and differential tests) --------------------
@@ -363,6 +560,17 @@ def _fix(path: Path, data: dict) -> list:
         a += [cab == z3.BoolVal(bool(leg["cab_change"]), ctx),
               fwd == z3.BoolVal(leg["running"] == "forward", ctx),
               dist == real(leg["distance"]), odo == real(leg["odometer"])]
+    for (found, det), leg in zip(path.detections, data["legs"]):
+        a += [found == int(leg.get("found", 0)), det == real(leg.get("detect_error", 0))]
+    word = {"nominal": 1, "reverse": -1}
+    for n in solve.later_groups(I):
+        g = w[n]
+        a += [I[f"{n}.distance"] == real(g["distance"]), I[f"{n}.side"] == word[g["side"]],
+              I[f"{n}.orientation"] == word[g["orientation"]], I[f"{n}.balises"] == int(g["balises"]),
+              I[f"{n}.read"] == int(g["read"]), I[f"{n}.linked"] == z3.BoolVal(bool(g["linked"]), ctx),
+              z3.ToReal(I[f"{n}.locacc"]) == real(g["locacc"]), I[f"{n}.offset"] == real(g["offset"]),
+              I[f"{n}.found"] == z3.BoolVal(bool(g["found"]), ctx), I[f"{n}.at"] == int(g["at"]),
+              I[f"{n}.detect_error"] == real(g["detect_error"])]
     return a
 
 

@@ -5,6 +5,8 @@ from __future__ import annotations
 
 import json
 import tomllib
+
+import attrs
 from fractions import Fraction
 from pathlib import Path
 
@@ -12,7 +14,7 @@ from verifier.errors import Diagnostic, PackError
 from verifier.lang.numbers import fmt  # noqa: F401 - re-exported: scenario.fmt is public
 from verifier.lang.source import read_regular_text
 from verifier.lang.vocab import LEG, Direction, Running
-from verifier.world.sim import Group2, Leg, Snapshot, World
+from verifier.world.sim import Group2, Leg, RouteState, Snapshot, World
 
 
 def parse_length(value, where: str) -> Fraction:
@@ -256,10 +258,13 @@ def _leg_value(field: str, v):
     return Fraction(v) if not isinstance(v, str) else parse_length(v, field)
 
 
-def snapshot_from_flat(world: dict, state: dict, plan):
+def snapshot_from_flat(world: dict, state: dict, plan, current: dict | None = None,
+                       history: int = 8):
     """The simulator's state from the solver's plain data (``verifier.smt.induction``):
     ``world`` flat as a counterexample's inputs, ``state`` keyed by the solver's names
-    (``acc.N.J`` for accumulator family N, case J; ``legs.I.FIELD`` for frozen legs)."""
+    (``acc.N.J`` for accumulator family N, case J; ``legs.I.FIELD`` for frozen legs). A
+    route's state (DESIGN 4.10) also has ``current``, the current LRBG's passage as the solver
+    derived it, and the list's size ``history``."""
     accs = {}
     for n, fam in enumerate(plan.accumulators):
         accs[fam.key] = {}
@@ -268,9 +273,33 @@ def snapshot_from_flat(world: dict, state: dict, plan):
             accs[fam.key][case] = bool(v) if fam.kind in ("all", "any") else Fraction(v)
     frozen = {(i, f): _leg_value(f, state[f"legs.{i}.{f}"]) for i, f in plan.frozen
               if f"legs.{i}.{f}" in state}
-    return Snapshot(world_from_flat(world), int(state["legs.count"]), int(state["cab_changes"]),
+    full = world_from_flat(world)
+    route = None
+    view = full
+    if full.route:
+        route, view = _route_from_flat(full, state, current, history)
+    return Snapshot(view, int(state["legs.count"]), int(state["cab_changes"]),
                     int(state["actual.orientation"]), int(state["actual.motion"]),
-                    *(Fraction(state[k]) for k in _STATE_LENGTHS), accs, frozen)
+                    *(Fraction(state[k]) for k in _STATE_LENGTHS), accs, frozen, route)
+
+
+def _route_from_flat(full: World, state: dict, current: dict, history: int) -> tuple:
+    """A route's state and the current LRBG's world from the solver's plain data."""
+    n = len(full.route)
+    lrbgs = tuple(bool(state[f"g{k}.lrbg"]) for k in range(2, n + 2))
+    windows = tuple(bool(state[f"g{k}.in_window"]) for k in range(2, n + 2))
+    rs = RouteState(attrs.evolve(full, legs=()), 0, lrbgs, windows, int(state["lrbg.frame"]),
+                    bool(state["lrbg.linking"]), history)
+    rs = attrs.evolve(rs, journey=rs.start + int(state["legs.count"]))
+    c = current
+    view = World(balises=int(c["lrbg.balises"]), read=int(c["lrbg.read"]), linked=bool(c["lrbg.linked"]),
+                 locacc=Fraction(c["lrbg.locacc"]), offset=Fraction(c["lrbg.offset"]),
+                 length=full.length, antenna=full.antenna,
+                 direction={1: Direction.NOMINAL, -1: Direction.REVERSE}.get(int(c["passage.direction"]), Direction.UNKNOWN),
+                 running=Running.FORWARD if c["passage.running"] else Running.BACKWARD,
+                 detect_error=Fraction(c["passage.detect_error"]), prv=bool(c["prv"]),
+                 prv_group=int(c["prv_group"]))
+    return rs, view
 
 
 def _word(v) -> object:
@@ -304,6 +333,19 @@ def snapshot_to_data(snap, plan) -> dict:
     for (i, f), v in sorted(snap.frozen.items()):
         frozen.setdefault(str(i), {})[f] = int(v) if f == "index" else _word(v)
     out["legs"] = frozen
+    rs = snap.route
+    if rs is not None:          # a route's state (DESIGN 4.10): what it carries beyond the LRBG's
+        v = snap.world
+        out["route"] = {
+            "journey": rs.journey,
+            "became_lrbg": [k for k, b in enumerate(rs.lrbgs, 2) if b],
+            "in_window": [k for k, b in enumerate(rs.windows, 2) if b],
+            "frame": _SIGN_WORD[rs.frame], "linking": rs.linking,
+            "current": {"lrbg": {"balises": v.balises, "read": v.read, "linked": v.linked,
+                                 "locacc": fmt(v.locacc), "offset": fmt(v.offset)},
+                        "passage": {"direction": v.direction.word, "running": v.running.word,
+                                    "detect_error": fmt(v.detect_error)},
+                        "referred_to_previous": v.prv, "previous": v.prv_group}}
     return out
 
 
@@ -312,8 +354,9 @@ _FIELD = {"actual.front": "front", "est.front_passage": "est_front_passage",
           "actual.over_reading": "over", "actual.under_reading": "under"}
 
 
-def snapshot_from_data(data, world: World, plan, where: str = "state"):
-    """A state from file data (``snapshot_to_data``); raise ValueError naming the field."""
+def snapshot_from_data(data, world: World, plan, where: str = "state", history: int = 8):
+    """A state from file data (``snapshot_to_data``); raise ValueError naming the field. A
+    route's state (``world`` with later groups) needs the list's size ``history``."""
     if not isinstance(data, dict):
         raise ValueError(f"{where} must be a table")
 
@@ -358,5 +401,38 @@ def snapshot_from_data(data, world: World, plan, where: str = "state"):
         leg = legs.get(str(i), {})
         if f in leg:
             frozen[(i, f)] = _leg_value(f, leg[f])
-    return Snapshot(world, whole("legs.count"), whole("cab_changes"), sign_of("actual.orientation"),
-                    sign_of("actual.motion"), *lengths, accs, frozen)
+    route, view = None, world
+    if world.route:
+        route, view = _route_from_data(need("route"), world, history, where)
+    return Snapshot(view, whole("legs.count"), whole("cab_changes"), sign_of("actual.orientation"),
+                    sign_of("actual.motion"), *lengths, accs, frozen, route)
+
+
+def _route_from_data(r, world: World, history: int, where: str) -> tuple:
+    """A route's state and the current LRBG's world from file data (``snapshot_to_data``)."""
+    where = f"{where}.route"
+    if not isinstance(r, dict):
+        raise ValueError(f"{where} must be a table")
+    for key in ("journey", "became_lrbg", "in_window", "frame", "linking", "current"):
+        if key not in r:
+            raise ValueError(f"{where} lacks '{key}'")
+    n = len(world.route)
+    groups = range(2, n + 2)
+    for key in ("became_lrbg", "in_window"):
+        if not isinstance(r[key], list) or not all(isinstance(k, int) and k in groups for k in r[key]):
+            raise ValueError(f"{where}.{key} must list group numbers 2..{n + 1}")
+    if isinstance(r["journey"], bool) or not isinstance(r["journey"], int):
+        raise ValueError(f"{where}.journey must be a whole number")
+    if r["frame"] not in _SIGN_WORD.values() or not isinstance(r["linking"], bool):
+        raise ValueError(f"{where}: frame must be nominal or reverse, linking true or false")
+    c = r["current"]
+    if not isinstance(c, dict) or not isinstance(c.get("referred_to_previous"), bool) or \
+            isinstance(c.get("previous"), bool) or not isinstance(c.get("previous"), int):
+        raise ValueError(f"{where}.current needs lrbg, passage, referred_to_previous and previous")
+    g1 = world_from_data({"lrbg": c.get("lrbg", {}), "passage": c.get("passage", {})}, f"{where}.current")
+    view = attrs.evolve(g1, length=world.length, antenna=world.antenna,
+                        prv=c["referred_to_previous"], prv_group=c["previous"])
+    rs = RouteState(attrs.evolve(world, legs=()), r["journey"],
+                    tuple(k in r["became_lrbg"] for k in groups), tuple(k in r["in_window"] for k in groups),
+                    1 if r["frame"] == "nominal" else -1, r["linking"], history)
+    return rs, view
