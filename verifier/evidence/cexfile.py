@@ -18,7 +18,7 @@ from verifier.lang import vocab
 from verifier.lang.ast import COUNT
 from verifier.world.failure import failed_detail, implicit_premise
 from verifier.world.scenario import fmt, snapshot_to_data, world_to_data
-from verifier.world.sim import State, World, applies, evaluate
+from verifier.world.sim import State, World, applies, detection, evaluate
 
 FORMAT = "verifier-counterexample/1"
 CAUTION = ("This file records a world of the stated model in which the rule is false. "
@@ -239,7 +239,8 @@ def state_values(view) -> dict:
     for name, entry in sorted(vocab.GLOBAL.items()):
         if entry.kind in ("input", "hidden-input") and name != "legs.count":
             continue
-        if name in vocab.GROUP_NAMES:     # a state of DESIGN 4.7 is of a one-group pack
+        if vocab.groups_needed(name) > view.pack.scope.groups or (
+                name in vocab.GROUP_NAMES and view.snap.route is None):   # one group: as before routes
             continue
         out[name] = plain(view.get(name), entry.ty)
     return out
@@ -276,13 +277,17 @@ def build_induction(pack: Pack, rule: Rule, lemmas, views, plan, legs, *, bound:
     simulator's states s0 .. sk) with the rule's and lemmas' truth."""
     first = views[0].snap
     legs = [world_to_data(World(legs=(leg,)))["legs"][0] for leg in legs]
+    if first.route is not None:     # a route's leg: the group found at its end (DESIGN 4.10)
+        for leg, a, b in zip(legs, views, views[1:]):
+            k, det = detection(a.snap, b.snap)
+            leg.update({"found": k, "detect_error": fmt(det)})
     states = []
     for v in views:
         states.append({"derived": state_values(v),
                        "rule": {"given": applies(rule, v), "expect": bool(evaluate(rule.expect.node, v, {}))},
                        "lemmas": {lemma.id: bool(not applies(lemma, v) or evaluate(lemma.expect.node, v, {}))
                                   for lemma in lemmas}})
-    world = world_to_data(first.world)
+    world = world_to_data(views[0].world)      # a route's: G1's and every group's so far
     del world["legs"]
     return {
         "format": INDUCTION_FORMAT,

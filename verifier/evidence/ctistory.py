@@ -20,7 +20,8 @@ from verifier.lang.numbers import counted
 from verifier.lang.source import read_regular_text
 from verifier.run.induct import plan_with_lemmas, replay_states
 from verifier.world.failure import comparison_words, failed_detail, m
-from verifier.world.scenario import snapshot_from_data, world_from_data
+from verifier.world.scenario import parse_length, snapshot_from_data, world_from_data
+from verifier.world.sim import detection
 
 PREFIX = "verifier-induction/"
 
@@ -87,12 +88,27 @@ def rebuild(pack: Pack, doc: dict, d: Doc | None = None):
     plan = plan_with_lemmas(pack, rule, lemmas)
     try:
         world = world_from_data(doc["world"])
-        snap = snapshot_from_data(doc["state"], world, plan)
-        legs = list(world_from_data({"legs": doc["legs"]}).legs)
+        snap = snapshot_from_data(doc["state"], world, plan, history=pack.scope.history)
+        legs, detections = legs_from_data(doc["legs"])
     except ValueError as exc:
         fail("state", str(exc))
-    rep = replay_states(pack, rule, tuple(lemmas), plan, snap, legs)
+    rep = replay_states(pack, rule, tuple(lemmas), plan, snap, legs, detections)
     return rule, tuple(lemmas), plan, legs, rep
+
+
+def legs_from_data(legs) -> tuple:
+    """The recorded legs and, on a route, each one's detection (the group found at its end, 0
+    for none, and its error); raises ValueError naming the field."""
+    if not isinstance(legs, list) or not all(isinstance(x, dict) for x in legs):
+        raise ValueError("legs must be a list of tables")
+    detections = []
+    for i, x in enumerate(legs, 1):
+        found = x.get("found", 0)
+        if isinstance(found, bool) or not isinstance(found, int):
+            raise ValueError(f"legs[{i}].found must be a group number (0: none)")
+        detections.append((found, parse_length(x.get("detect_error", "0 m"), f"legs[{i}].detect_error")))
+    plain = [{k: v for k, v in x.items() if k not in ("found", "detect_error")} for x in legs]
+    return list(world_from_data({"legs": plain}).legs), tuple(detections)
 
 
 def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | None = None) -> ExplainedInduction:
@@ -175,9 +191,15 @@ def story_text(doc, pack, rule, lemmas, views, legs, *, shown: str, checked: int
         f"{m(w.antenna)} behind the front. The passage: {w.direction.word}, "
         f"{'front' if w.running.word == 'forward' else 'rear'} first, detection error "
         f"{m(w.detect_error)}; the onboard sees it as {first.get('passage.seen').word}.")
+    if first.snap.route is not None:
+        _route_words(add, first)
     add("")
-    add(f"State s0, after {n} leg{'s' if n != 1 else ''} and {cabs} change{'s' if cabs != 1 else ''} "
+    rs = first.snap.route
+    since = "" if rs is None else f" since G{rs.group}'s detection ({rs.journey} into the journey)"
+    add(f"State s0, after {n} leg{'s' if n != 1 else ''}{since} and {cabs} change{'s' if cabs != 1 else ''} "
         f"of cab (the legs themselves are not known, only what they left behind):")
+    if rs is not None:          # the legs are numbered along the journey
+        n = rs.journey
     add(f"  {_state_words(first)}.")
     add(f"  Report: {_report_words(first)}.")
     accs = [a for a in doc["state"]["accumulators"]]
@@ -194,6 +216,13 @@ def story_text(doc, pack, rule, lemmas, views, legs, *, shown: str, checked: int
         add(f"Leg {n + i}: " + ("change of cab, then " if leg.cab_change else "")
             + f"running {leg.running.word}, real distance {m(leg.distance)}, measured "
               f"{m(leg.odometer)} ({reading}).")
+        if v.snap.route is not None:
+            k, det = detection(views[i - 1].snap, v.snap)
+            if k:
+                took = v.snap.route.group == k
+                add(f"  At its end G{k} is found (detection error {m(det)}): "
+                    + (f"it becomes the LRBG; the list holds {_groups(v.snap.route.history)}."
+                       if took else f"it is not taken; G{v.snap.route.group} stays the LRBG."))
         add(f"State s{i}: {_state_words(v)}.")
         add(f"  Report: {_report_words(v)}.")
     last = views[-1]
@@ -217,6 +246,34 @@ def story_text(doc, pack, rule, lemmas, views, legs, *, shown: str, checked: int
         f"{doc['tool'].get('verifier', '?')}, {doc['tool'].get('solver', '?')}).")
     add(f"Caution: {cexfile.INDUCTION_CAUTION}")
     return "\n".join(out)
+
+
+def _groups(ks) -> str:
+    return ", ".join(f"G{k}" for k in ks)
+
+
+def _route_words(add, first) -> None:
+    """A route's state in words (DESIGN 4.10): the groups, which is the LRBG and how it was
+    accepted, what was found so far and what the onboard's list holds."""
+    rs, v = first.snap.route, first.snap.world
+    w = rs.world
+    add("The group above is G1, the first of the route. The route: "
+        + "; ".join(f"G{k} {m(g.distance)} on, {g.balises} balise{'s' if g.balises != 1 else ''} "
+                    f"({g.read} read), {'linked' if g.linked else 'not linked'}, orientation "
+                    f"{g.orientation.word}, Q_LOCACC {m(g.locacc)}" for k, g in enumerate(w.route, 2))
+        + f". The onboard keeps its last {counted(rs.size, 'LRBG')}.")
+    found = [(k, g) for k, g in enumerate(w.route, 2) if g.found]
+    add(f"At s0, {counted(rs.journey, 'leg')} into the journey: "
+        + ("; ".join(f"G{k} found at the end of leg {g.at} ("
+                     + ("became the LRBG" if rs.lrbgs[k - 2] else "not taken") + ")" for k, g in found)
+           if found else "no later group found yet")
+        + f". The LRBG is G{rs.group}"
+        + ("" if rs.group == 1 else
+           f", accepted {'through linking, in its window' if rs.linking else 'without linking'}"
+           + (f", its directions referred to G{v.prv_group} (a report based on two groups)" if v.prv else "")
+           + f"; its passage {v.direction.word}, {'front' if v.running.word == 'forward' else 'rear'} "
+             f"first, detection error {m(v.detect_error)}")
+        + f"; the list holds {_groups(rs.history)}.")
 
 
 def _plain(v) -> str:

@@ -33,7 +33,8 @@ from verifier.lang.ast import LENGTH
 from verifier.lang.numbers import counted
 from verifier.world.failure import comparison_words, failed_detail, m
 from verifier.world.scenario import fmt, world_from_data
-from verifier.world.sim import State, World, advance, start
+from verifier.lang.vocab import Direction
+from verifier.world.sim import State, World, advance, detection, start
 from verifier.world.sim import known as passage_known
 
 F = Fraction
@@ -168,8 +169,10 @@ def render_induction(doc: dict, rule: Rule, views) -> str:
                 f"faces {first.get('actual.orientation').word}"],
                first.get("actual.front"), first.snap.orientation,
                first.get("est.front") if known else None)]
+    if first.snap.route is not None:
+        stages = _route_cti_stages(doc, views, stages[0][1])
     snap = first.snap
-    for i, leg in enumerate(_cti_legs(doc), 1):
+    for i, leg in enumerate(_cti_legs(doc) if first.snap.route is None else (), 1):
         snap, d = advance(snap, leg)
         last = i == len(views) - 1
         stages.append(_leg_stage(f"{'Then' if i == 1 else 'And'} leg {n + i}"
@@ -182,8 +185,43 @@ def render_induction(doc: dict, rule: Rule, views) -> str:
                  f"Counterexample to induction of rule {rule.id}", (note,))
 
 
+def _route_cti_stages(doc: dict, views, lines0: list) -> list:
+    """The stages of a route's counterexample to induction (DESIGN 4.10): every state's train
+    in the frame of the last state's LRBG, each leg saying which group it found."""
+    last = views[-1].snap.route
+
+    def here(v, x):             # a position in v's LRBG frame, in the last one's
+        rs = v.snap.route
+        return last.frame * (rs.origin + rs.frame * x - last.origin)
+
+    def known(v):
+        return v.get("passage.seen").word != "unknown"
+
+    def train(v):
+        turn = last.frame * v.snap.route.frame
+        return (here(v, v.get("actual.front")), turn * v.snap.orientation,
+                here(v, v.get("est.front")) if known(v) else None)
+
+    first = views[0]
+    c, n, k0 = first.snap.count, first.snap.route.journey, first.snap.route.group
+    stages = [(f"A state {c} leg{'s' if c != 1 else ''} after G{k0}'s detection (the LRBG)",
+               lines0, *train(first))]
+    for i, (leg, a, b) in enumerate(zip(_cti_legs(doc), views, views[1:]), 1):
+        k, _ = detection(a.snap, b.snap)
+        event = "" if not k else (f": G{k} found, the LRBG now" if b.snap.route.group == k
+                                  else f": G{k} found, not taken")
+        what = ("cab change, then " if leg.cab_change else "") + leg.running.word
+        motion = Direction.NOMINAL if last.frame * b.snap.route.frame * b.snap.motion == 1 else Direction.REVERSE
+        stages.append((f"{'Then' if i == 1 else 'And'} leg {n + i}{event}"
+                       + ("; rule false" if i == len(views) - 1 else ""),
+                       [f"{what}, moving {motion.word}", f"real {m(leg.distance)}, odometer {m(leg.odometer)}"],
+                       *train(b)))
+    return stages
+
+
 def _cti_legs(doc: dict) -> list:
-    return list(world_from_data({"legs": doc["legs"]}).legs)
+    plain = [{k: v for k, v in x.items() if k not in ("found", "detect_error")} for x in doc["legs"]]
+    return list(world_from_data({"legs": plain}).legs)
 
 
 def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, notes=()) -> str:

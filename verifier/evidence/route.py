@@ -37,7 +37,7 @@ def is_route(st) -> bool:
     or more, or a group that left a list shorter than the journey. A one- or two-group world
     whose list keeps every LRBG is told as before 4.10 (its files keep their bytes)."""
     h = getattr(st, "handover", None)
-    if h is None or not st.world.route:
+    if h is None or not st.world.route or not hasattr(h, "stages"):   # a state of DESIGN 4.7 keeps no stages
         return False
     return len(st.world.route) >= 2 or len(h.history) < len(h.stages)
 
