@@ -68,11 +68,13 @@ def test_a_scenario_with_a_second_group_round_trips():
     assert world_from_data(json.loads(json.dumps(world_to_data(w)))) == w
 
 
-def test_two_group_packs_are_bounded_and_say_why(write_pack):
-    text = pack_text(rule_toml("r", "legs.count >= 0"), world=TWO).replace("legs = 2", 'legs = "any"')
-    # the base case deepened to 4 legs only: the message, not the depth, is what is tested
-    res = check_packs([load_pack(write_pack(text))], CheckOptions(out=None, max_legs=4))[0].results[0]
-    assert res.verdict == "bounded" and "two groups" in res.message
+def test_two_group_packs_are_proved_across_the_hand_over(write_pack):
+    # DESIGN 4.10 "What a proof carries": the induction state carries the current group, so a
+    # rule about the hand-over is proved for any number of legs, not left bounded
+    text = pack_text(rule_toml("r", "journey.legs == (if g2.lrbg then g2.at else 0) + legs.count"),
+                     world=TWO).replace("legs = 2", 'legs = "any"')
+    res = check_packs([load_pack(write_pack(text))], CheckOptions(out=None, max_legs=0))[0].results[0]
+    assert (res.verdict, res.proof["kind"]) == ("holds", "induction"), res.message
 
 
 def test_verifier_test_refuses_a_two_group_pack(capsys, monkeypatch):

@@ -179,17 +179,21 @@ def test_history_of_one_keeps_only_the_current_lrbg(pack, tmp_path):
 
 @pytest.mark.skipif(not __import__("verifier.smt.second", fromlist=["available"]).available(),
                     reason="cvc5 (verifier[crosscheck]) not installed")
-def test_cvc5_agrees_on_route_rules(capsys, monkeypatch):
-    # the list of the shipped route pack, proved by z3 and by cvc5 (both obligations); four
-    # rules with the re-referral agreed too when measured (8 obligations, 38 s)
+def test_cvc5_agrees_on_route_rules(capsys, tmp_path):
+    # the list of the shipped route pack, proved by z3 and by cvc5: the base case, its witness
+    # and the induction step across hand-overs (three obligations); four rules with the
+    # re-referral agreed too when measured (8 obligations, 38 s). The pack's lemma is left out:
+    # the rule's step does not need it, and cvc5 on the lemma's own base case alone takes 5 min.
     import json
-    monkeypatch.chdir(ROOT)
-    code = main(["check", "rules/route.toml", "--rule", "information-of-a-group-that-left-the-list-is-rejected",
+    text = (ROOT / "rules" / "route.toml").read_text()
+    start = text.index("[[lemma]]")
+    (tmp_path / "route.toml").write_text(text[:start] + text[text.index("[[rule]]", start):])
+    code = main(["check", str(tmp_path / "route.toml"), "--rule", "information-of-a-group-that-left-the-list-is-rejected",
                  "--crosscheck", "--no-files", "--no-cache", "--json"])
     doc = json.loads(capsys.readouterr().out)
     assert code == 0
     c = doc["crosscheck"]["counts"]
-    assert c["second_disagree"] == 0 and c["disagreements"] == 0 and c["second_agree"] >= 2
+    assert c["second_disagree"] == 0 and c["disagreements"] == 0 and c["second_agree"] >= 3
 
 
 # Seeded mistakes in the route's part of the default design (DESIGN 4.10), each with the rule of
