@@ -61,6 +61,22 @@ def _num(x) -> Fraction:
     return x if isinstance(x, Fraction) else Fraction(str(x))
 
 
+def group_assumptions(I: dict, n: str, g: dict, ctx) -> list:
+    """Assumptions that fix later group ``n``'s inputs ``I`` to plain data ``g`` (as
+    :func:`verifier.smt.solve.read_group` gives it)."""
+    code = {"nominal": 1, "reverse": -1}
+
+    def real(x):
+        return z3.RealVal(str(_num(x)), ctx)
+
+    return [I[f"{n}.distance"] == real(g["distance"]), I[f"{n}.side"] == code[g["side"]],
+            I[f"{n}.orientation"] == code[g["orientation"]], I[f"{n}.balises"] == int(g["balises"]),
+            I[f"{n}.read"] == int(g["read"]), I[f"{n}.linked"] == z3.BoolVal(bool(g["linked"]), ctx),
+            z3.ToReal(I[f"{n}.locacc"]) == real(g["locacc"]), I[f"{n}.offset"] == real(g["offset"]),
+            I[f"{n}.found"] == z3.BoolVal(bool(g["found"]), ctx), I[f"{n}.at"] == int(g["at"]),
+            I[f"{n}.detect_error"] == real(g["detect_error"])]
+
+
 class Evaluator:
     """The encoding of one pack up to ``bound`` legs, ready to be evaluated world by world."""
 
@@ -112,17 +128,11 @@ class Evaluator:
              I["passage.running"] == z3.BoolVal(world["running"] == "forward", ctx),
              I["passage.detect_error"] == real(world["detect_error"]),
              I["legs.count"] == len(legs)]
-        code = {"nominal": 1, "reverse": -1}
         for k in range(2, 9):       # the route's later groups (DESIGN 4.8, 4.10)
             g, n = world.get(f"g{k}"), f"g{k}"
             if g is None:
                 break
-            a += [I[f"{n}.distance"] == real(g["distance"]), I[f"{n}.side"] == code[g["side"]],
-                  I[f"{n}.orientation"] == code[g["orientation"]], I[f"{n}.balises"] == int(g["balises"]),
-                  I[f"{n}.read"] == int(g["read"]), I[f"{n}.linked"] == z3.BoolVal(bool(g["linked"]), ctx),
-                  z3.ToReal(I[f"{n}.locacc"]) == real(g["locacc"]), I[f"{n}.offset"] == real(g["offset"]),
-                  I[f"{n}.found"] == z3.BoolVal(bool(g["found"]), ctx), I[f"{n}.at"] == int(g["at"]),
-                  I[f"{n}.detect_error"] == real(g["detect_error"])]
+            a += group_assumptions(I, n, g, ctx)
         for i, leg in enumerate(legs, 1):
             a += [I[f"legs.{i}.cab_change"] == z3.BoolVal(bool(leg["cab_change"]), ctx),
                   I[f"legs.{i}.running"] == z3.BoolVal(leg["running"] == "forward", ctx),

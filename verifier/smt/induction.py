@@ -28,7 +28,7 @@ from verifier.errors import InternalError
 from verifier.lang.ast import BOOL, COUNT, DIRECTION, RUNNING
 from verifier.lang.vocab import GLOBAL, LEG
 from verifier.smt import export, solve
-from verifier.smt.concrete import Evaluator, plain_value
+from verifier.smt.concrete import Evaluator, group_assumptions, plain_value
 from verifier.smt.encode import OVERRIDE, Terms
 
 _SORT = {"all": "bool", "any": "bool", "count": "int"}
@@ -495,15 +495,7 @@ def read_path(model, path: Path) -> dict:
         "detect_error": solve.to_fraction(ev(I["passage.detect_error"])), "legs": [],
     }
     for n in solve.later_groups(I):       # a route's later groups, detections so far included
-        g = {k: ev(I[f"{n}.{k}"]) for k in ("distance", "side", "orientation", "balises", "read",
-                                            "linked", "locacc", "offset", "found", "at", "detect_error")}
-        word = {1: "nominal", -1: "reverse"}
-        world[n] = {"distance": solve.to_fraction(g["distance"]), "side": word[g["side"].as_long()],
-                    "orientation": word[g["orientation"].as_long()], "balises": g["balises"].as_long(),
-                    "read": g["read"].as_long(), "linked": z3.is_true(g["linked"]),
-                    "locacc": solve.to_fraction(g["locacc"]), "offset": solve.to_fraction(g["offset"]),
-                    "found": z3.is_true(g["found"]), "at": g["at"].as_long(),
-                    "detect_error": solve.to_fraction(g["detect_error"])}
+        world[n] = solve.read_group(ev, I, n)
     state = {}
     for name, c in path.state_vars.items():
         v = ev(c)
@@ -562,15 +554,8 @@ def _fix(path: Path, data: dict) -> list:
               dist == real(leg["distance"]), odo == real(leg["odometer"])]
     for (found, det), leg in zip(path.detections, data["legs"]):
         a += [found == int(leg.get("found", 0)), det == real(leg.get("detect_error", 0))]
-    word = {"nominal": 1, "reverse": -1}
     for n in solve.later_groups(I):
-        g = w[n]
-        a += [I[f"{n}.distance"] == real(g["distance"]), I[f"{n}.side"] == word[g["side"]],
-              I[f"{n}.orientation"] == word[g["orientation"]], I[f"{n}.balises"] == int(g["balises"]),
-              I[f"{n}.read"] == int(g["read"]), I[f"{n}.linked"] == z3.BoolVal(bool(g["linked"]), ctx),
-              z3.ToReal(I[f"{n}.locacc"]) == real(g["locacc"]), I[f"{n}.offset"] == real(g["offset"]),
-              I[f"{n}.found"] == z3.BoolVal(bool(g["found"]), ctx), I[f"{n}.at"] == int(g["at"]),
-              I[f"{n}.detect_error"] == real(g["detect_error"])]
+        a += group_assumptions(I, n, w[n], ctx)
     return a
 
 

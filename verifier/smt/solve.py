@@ -468,15 +468,7 @@ def read_world(model, enc: Encoding) -> dict:
         "legs": [],
     }
     for n in later_groups(I):
-        g = {k: ev(I[f"{n}.{k}"]) for k in ("distance", "side", "orientation", "balises", "read",
-                                            "linked", "locacc", "offset", "found", "at", "detect_error")}
-        word = {1: "nominal", -1: "reverse"}
-        world[n] = {"distance": to_fraction(g["distance"]), "side": word[g["side"].as_long()],
-                       "orientation": word[g["orientation"].as_long()], "balises": g["balises"].as_long(),
-                       "read": g["read"].as_long(), "linked": z3.is_true(g["linked"]),
-                       "locacc": to_fraction(g["locacc"]), "offset": to_fraction(g["offset"]),
-                       "found": z3.is_true(g["found"]), "at": g["at"].as_long(),
-                       "detect_error": to_fraction(g["detect_error"])}
+        world[n] = read_group(ev, I, n)
     for i in range(1, count + 1):
         world["legs"].append({
             "cab_change": z3.is_true(ev(I[f"legs.{i}.cab_change"])),
@@ -485,6 +477,19 @@ def read_world(model, enc: Encoding) -> dict:
             "odometer": to_fraction(ev(I[f"legs.{i}.odometer"])),
         })
     return world
+
+
+def read_group(ev, I: dict, n: str) -> dict:
+    """Later group ``n`` (g2 .. g8) of a model as plain data; ``ev`` evaluates a term."""
+    g = {k: ev(I[f"{n}.{k}"]) for k in ("distance", "side", "orientation", "balises", "read",
+                                        "linked", "locacc", "offset", "found", "at", "detect_error")}
+    word = {1: "nominal", -1: "reverse"}
+    return {"distance": to_fraction(g["distance"]), "side": word[g["side"].as_long()],
+            "orientation": word[g["orientation"].as_long()], "balises": g["balises"].as_long(),
+            "read": g["read"].as_long(), "linked": z3.is_true(g["linked"]),
+            "locacc": to_fraction(g["locacc"]), "offset": to_fraction(g["offset"]),
+            "found": z3.is_true(g["found"]), "at": g["at"].as_long(),
+            "detect_error": to_fraction(g["detect_error"])}
 
 
 _DIR_WORD = {1: "nominal", -1: "reverse", 0: "unknown"}
