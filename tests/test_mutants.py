@@ -108,3 +108,17 @@ def test_shipped_packs_kill_at_least_90_percent():
                    if "/demo/" not in p and not p.endswith("/route.toml"))
     rep = run_catalogue([load_pack(p) for p in paths], timeout=20, jobs=2)
     assert rep.ratio() >= 0.90, [r.mutant.describe() for r in rep.survivors()]
+
+
+def test_a_survivor_names_the_rules_left_unasked_for_an_undecided_original(pack):
+    # a rule whose question about the original design was undecided is not asked about the
+    # mutant: the survivor must say so, not "no rule of the pack is violated"
+    from verifier.trust.mutate import _relevant, baseline, _decide_all
+    m = next(x for x in mutants(pack) if x.operator == "drop abs" and "d_lrbg" in x.target)
+    base = baseline(pack, 20.0)
+    reader = next(r.id for r in pack.rules if _relevant(r, m) and base[r.id] == "unsat")
+    (kept,) = _decide_all(pack, [m], base, 20.0, None)
+    (unsure,) = _decide_all(pack, [m], {**base, reader: "unknown"}, 20.0, None)
+    assert kept.status == unsure.status == "survived"
+    assert "not asked" not in kept.by and "no rule of the pack is violated" in kept.by
+    assert f"not asked: {reader} (undecided for the original design)" in unsure.by

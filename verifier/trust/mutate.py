@@ -375,6 +375,11 @@ def _decide_all(pack: Pack, todo, base: dict, timeout: float, killed_elsewhere, 
         status, by = "survived", ""
         readers = [r for r in pack.rules if _relevant(r, m)]
         rules = sorted((r for r in readers if base[r.id] == "unsat"), key=lambda r: -kills.get(r.id, 0))
+        # rules whose question about the original design was left undecided are not asked
+        # about the mutant either: a survivor's words must not count them as unbroken
+        unasked = [r.id for r in readers if base[r.id] not in ("unsat", "sat")]
+        aside = (f"; not asked: {', '.join(unasked)} (undecided for the original design)"
+                 if unasked else "")
         undecided = []
         # a world with at most one leg is in scope at every bound: ask cheaply first
         for small in (True, False):
@@ -408,11 +413,13 @@ def _decide_all(pack: Pack, todo, base: dict, timeout: float, killed_elsewhere, 
             elif not readers:
                 by = "no rule reads this formula"
             elif not rules:
-                by = "every rule that reads it is already violated by the original design"
+                by = ("every rule that reads it is already violated by the original design" if not unasked
+                      else "no rule that reads it holds for the original design" + aside)
             elif same == "unknown":
-                by = "equivalence not decided within the budget"
+                by = "equivalence not decided within the budget" + aside
             else:
-                by = "the outputs differ, but no rule of the pack is violated by the difference"
+                by = ("the outputs differ, but no rule of the pack is violated by the difference" if not unasked
+                      else "the outputs differ, but no rule asked is violated by the difference" + aside)
         results.append(MutantResult(m, status, by, time.monotonic() - t1))
     return results
 
