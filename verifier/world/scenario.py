@@ -5,10 +5,10 @@ from __future__ import annotations
 
 import json
 import tomllib
-
-import attrs
 from fractions import Fraction
 from pathlib import Path
+
+import attrs
 
 from verifier.errors import Diagnostic, PackError
 from verifier.lang.numbers import fmt  # noqa: F401 - re-exported: scenario.fmt is public
