@@ -20,7 +20,7 @@ from verifier.lang.numbers import counted
 from verifier.lang.source import read_regular_text
 from verifier.run.induct import plan_with_lemmas, replay_states
 from verifier.world.failure import comparison_words, failed_detail, m
-from verifier.world.scenario import parse_length, snapshot_from_data, world_from_data
+from verifier.world.scenario import legs_from_data, snapshot_from_data, world_from_data
 from verifier.world.sim import detection
 
 PREFIX = "verifier-induction/"
@@ -94,21 +94,6 @@ def rebuild(pack: Pack, doc: dict, d: Doc | None = None):
         fail("state", str(exc))
     rep = replay_states(pack, rule, tuple(lemmas), plan, snap, legs, detections)
     return rule, tuple(lemmas), plan, legs, rep
-
-
-def legs_from_data(legs) -> tuple:
-    """The recorded legs and, on a route, each one's detection (the group found at its end, 0
-    for none, and its error); raises ValueError naming the field."""
-    if not isinstance(legs, list) or not all(isinstance(x, dict) for x in legs):
-        raise ValueError("legs must be a list of tables")
-    detections = []
-    for i, x in enumerate(legs, 1):
-        found = x.get("found", 0)
-        if isinstance(found, bool) or not isinstance(found, int):
-            raise ValueError(f"legs[{i}].found must be a group number (0: none)")
-        detections.append((found, parse_length(x.get("detect_error", "0 m"), f"legs[{i}].detect_error")))
-    plain = [{k: v for k, v in x.items() if k not in ("found", "detect_error")} for x in legs]
-    return list(world_from_data({"legs": plain}).legs), tuple(detections)
 
 
 def explain_file(path: str | Path, pack_path: str | None = None, pack: Pack | None = None) -> ExplainedInduction:

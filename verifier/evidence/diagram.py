@@ -32,7 +32,7 @@ from verifier.evidence.story import front_at_detection, interval_words, whole_tr
 from verifier.lang.ast import LENGTH
 from verifier.lang.numbers import counted
 from verifier.world.failure import comparison_words, failed_detail, m
-from verifier.world.scenario import fmt, world_from_data
+from verifier.world.scenario import fmt, legs_from_data
 from verifier.lang.vocab import Direction
 from verifier.world.sim import State, World, advance, detection, start
 from verifier.world.sim import known as passage_known
@@ -169,14 +169,16 @@ def render_induction(doc: dict, rule: Rule, views) -> str:
                 f"faces {first.get('actual.orientation').word}"],
                first.get("actual.front"), first.snap.orientation,
                first.get("est.front") if known else None)]
+    legs, _ = legs_from_data(doc["legs"])
     if first.snap.route is not None:
-        stages = _route_cti_stages(doc, views, stages[0][1])
-    snap = first.snap
-    for i, leg in enumerate(_cti_legs(doc) if first.snap.route is None else (), 1):
-        snap, d = advance(snap, leg)
-        last = i == len(views) - 1
-        stages.append(_leg_stage(f"{'Then' if i == 1 else 'And'} leg {n + i}"
-                                 + (": rule false" if last else ""), leg, d, known))
+        stages = _route_cti_stages(legs, views, stages[0][1])
+    else:
+        snap = first.snap
+        for i, leg in enumerate(legs, 1):
+            snap, d = advance(snap, leg)
+            last = i == len(views) - 1
+            stages.append(_leg_stage(f"{'Then' if i == 1 else 'And'} leg {n + i}"
+                                     + (": rule false" if last else ""), leg, d, known))
     verdict = f"{doc['pack']['name']} / {rule.id}: bounded (holds up to {counted(doc['bound'], 'leg')})"
     note = ("Counterexample to induction: the rule holds at the first state and fails one leg "
             "later, so it is not proved for any number of legs. The first state need not be one "
@@ -185,7 +187,7 @@ def render_induction(doc: dict, rule: Rule, views) -> str:
                  f"Counterexample to induction of rule {rule.id}", (note,))
 
 
-def _route_cti_stages(doc: dict, views, lines0: list) -> list:
+def _route_cti_stages(legs: list, views, lines0: list) -> list:
     """The stages of a route's counterexample to induction (DESIGN 4.10): every state's train
     in the frame of the last state's LRBG, each leg saying which group it found."""
     last = views[-1].snap.route
@@ -206,7 +208,7 @@ def _route_cti_stages(doc: dict, views, lines0: list) -> list:
     c, n, k0 = first.snap.count, first.snap.route.journey, first.snap.route.group
     stages = [(f"A state {c} leg{'s' if c != 1 else ''} after G{k0}'s detection (the LRBG)",
                lines0, *train(first))]
-    for i, (leg, a, b) in enumerate(zip(_cti_legs(doc), views, views[1:]), 1):
+    for i, (leg, a, b) in enumerate(zip(legs, views, views[1:]), 1):
         k, _ = detection(a.snap, b.snap)
         event = "" if not k else (f": G{k} found, the LRBG now" if b.snap.route.group == k
                                   else f": G{k} found, not taken")
@@ -217,11 +219,6 @@ def _route_cti_stages(doc: dict, views, lines0: list) -> list:
                        [f"{what}, moving {motion.word}", f"real {m(leg.distance)}, odometer {m(leg.odometer)}"],
                        *train(b)))
     return stages
-
-
-def _cti_legs(doc: dict) -> list:
-    plain = [{k: v for k, v in x.items() if k not in ("found", "detect_error")} for x in doc["legs"]]
-    return list(world_from_data({"legs": plain}).legs)
 
 
 def _draw(doc: dict, rule: Rule, st, stages: list, verdict: str, what: str, notes=()) -> str:

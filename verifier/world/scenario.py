@@ -75,6 +75,22 @@ def world_from_flat(d: dict) -> World:
         later=tuple(_flat_group(d[f"g{k}"]) for k in range(3, 9) if d.get(f"g{k}") is not None))
 
 
+def legs_from_data(legs) -> tuple:
+    """The legs of a recorded path (a counterexample to induction's ``legs``) and, on a route,
+    each one's detection (the group found at its end, 0 for none, and its error); raises
+    ValueError naming the field."""
+    if not isinstance(legs, list) or not all(isinstance(x, dict) for x in legs):
+        raise ValueError("legs must be a list of tables")
+    detections = []
+    for i, x in enumerate(legs, 1):
+        found = x.get("found", 0)
+        if isinstance(found, bool) or not isinstance(found, int):
+            raise ValueError(f"legs[{i}].found must be a group number (0: none)")
+        detections.append((found, parse_length(x.get("detect_error", "0 m"), f"legs[{i}].detect_error")))
+    plain = [{k: v for k, v in x.items() if k not in ("found", "detect_error")} for x in legs]
+    return list(world_from_data({"legs": plain}).legs), tuple(detections)
+
+
 def _flat_group(g: dict | None) -> Group2 | None:
     if g is None:
         return None
