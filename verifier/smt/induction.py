@@ -272,6 +272,8 @@ class Path(Terms):
                            "in_window": z3.Or(g["in_window"], z3.And(here, window))})
         nxt, merged = self._restart(cur, new, events, i)
         reset = nxt["reset"]
+        # _restart counts legs of the bounded pass; on a path the current LRBG starts at the journey's leg
+        nxt["start"] = z3.If(reset, journey, cur["start"])
         merged["count"] = z3.If(reset, self.ival(0), new["count"])
         # the legs since the current LRBG start again: every accumulator empty (DESIGN 4.10)
         kinds = {f.key: f.kind for f in self.plan.accumulators}
